@@ -1,0 +1,41 @@
+"""The error types that cross the library's edge.
+
+`InputError` is the one type for bad input: it carries where the problem is
+(a file, and a field or row inside it) and what was expected. The CLI prints
+it as one line on stderr and exits with code 2.
+"""
+
+from __future__ import annotations
+
+
+class InputError(ValueError):
+    """Bad input, with the place it was found and what was expected.
+
+    Parameters
+    ----------
+    where : str
+        The file or command-line option, e.g. ``"system.toml"`` or ``"--irradiance"``.
+    field : str or None
+        The field, key path or row inside it, e.g. ``"[module].v_mp"`` or ``"row 14"``.
+    expected : str
+        What was wrong and what was expected, in one sentence.
+    """
+
+    def __init__(self, where: str, field: str | None, expected: str):
+        self.where = where
+        self.field = field
+        self.expected = expected
+        super().__init__(self.one_line())
+
+    def one_line(self) -> str:
+        parts = [p for p in (self.where, self.field) if p]
+        text = ": ".join(parts + [self.expected])
+        return " ".join(text.split())
+
+
+class ConvergenceError(RuntimeError):
+    """The operating-point solver did not converge for some conditions."""
+
+
+class PhysicsGuardError(RuntimeError):
+    """A computed result broke a physical law or bound and was not returned."""
