@@ -1,0 +1,260 @@
+"""Read system and datasheet files (TOML) into validated dataclasses.
+
+Every problem is an :class:`~pvsource.errors.InputError` naming the file and
+the field, e.g. ``system.toml: [load].emf_v: expected a number, got 'abc'``.
+Unknown keys are errors too, so a typo never passes silently.
+"""
+
+from __future__ import annotations
+
+import math
+import tomllib
+from pathlib import Path
+
+from pvsource.array import StringGroup
+from pvsource.errors import InputError
+from pvsource.module import Datasheet, DiodeParameters, Module, fit_datasheet, module_from_parameters
+from pvsource.system import LOAD_KINDS, Load, System
+from pvsource.wiring import ROLES, CableRun
+
+DATASHEET_KEYS = ("v_oc", "i_sc", "v_mp", "i_mp", "isc_temp_coeff_pct", "voc_temp_coeff_pct", "cells_in_series")
+PARAMETER_KEYS = ("i_l_ref_a", "i_o_ref_a", "r_s_ohm", "r_sh_ref_ohm", "a_ref_v", "alpha_sc_a_per_c", "cells_in_series")
+PARAMETER_OPTIONAL = ("eg_ref_ev", "degdt_per_c")
+# Magnitudes beyond these are typing mistakes, not systems (common practice:
+# module strings stay below 1500 V, and no feeder runs for kilometres).
+MAX_MODULES_PER_STRING = 200
+MAX_STRINGS = 10_000
+MAX_LENGTH_M = 10_000.0
+MAX_IRRADIANCE_W_M2 = 2000.0
+CELL_TEMP_RANGE_C = (-60.0, 120.0)
+
+
+class Table:
+    """One TOML table being read: typed getters, and a check for unknown keys."""
+
+    def __init__(self, where: str, label: str, data):
+        if not isinstance(data, dict):
+            raise InputError(where, label, f"expected a table, got {type(data).__name__}")
+        self.where, self.label, self.data = where, label, data
+        self.used: set[str] = set()
+
+    def field(self, key: str) -> str:
+        return f"{self.label}.{key}" if self.label else key
+
+    def has(self, key: str) -> bool:
+        return key in self.data
+
+    def number(self, key, default=None, *, positive=False, minimum=None, maximum=None, integer=False,
+               allow_zero=True):
+        self.used.add(key)
+        if key not in self.data:
+            if default is None:
+                raise InputError(self.where, self.field(key), "is missing (expected a number)")
+            return default
+        value = self.data[key]
+        if isinstance(value, bool) or not isinstance(value, (int, float)):
+            raise InputError(self.where, self.field(key), f"expected a number, got {value!r}")
+        if not math.isfinite(value):
+            raise InputError(self.where, self.field(key), f"expected a finite number, got {value!r}")
+        if integer and int(value) != value:
+            raise InputError(self.where, self.field(key), f"expected a whole number, got {value!r}")
+        if positive and value <= 0:
+            raise InputError(self.where, self.field(key), f"must be greater than zero, got {value!r}")
+        if not allow_zero and value == 0:
+            raise InputError(self.where, self.field(key), "must not be zero")
+        if minimum is not None and value < minimum:
+            raise InputError(self.where, self.field(key), f"must be at least {minimum:g}, got {value!r}")
+        if maximum is not None and value > maximum:
+            raise InputError(self.where, self.field(key), f"must be at most {maximum:g}, got {value!r}")
+        return int(value) if integer else float(value)
+
+    def text(self, key, default=None, choices=None):
+        self.used.add(key)
+        if key not in self.data:
+            if default is None:
+                raise InputError(self.where, self.field(key), "is missing (expected text)")
+            return default
+        value = self.data[key]
+        if not isinstance(value, str):
+            raise InputError(self.where, self.field(key), f"expected text, got {value!r}")
+        if choices is not None and value not in choices:
+            raise InputError(self.where, self.field(key), f"expected one of {', '.join(choices)}, got {value!r}")
+        return value
+
+    def finish(self):
+        unknown = sorted(set(self.data) - self.used)
+        if unknown:
+            raise InputError(self.where, self.field(unknown[0]),
+                             "unknown key (check the spelling; see DEVELOPERS.md for the file format)")
+
+
+def read_toml(path) -> tuple[dict, str]:
+    """Parse a TOML file; any failure is an InputError naming the file."""
+    path = Path(path)
+    where = str(path)
+    try:
+        raw = path.read_bytes()
+    except OSError as exc:
+        raise InputError(where, None, f"cannot be read ({exc.strerror or exc})") from None
+    if not raw.strip():
+        raise InputError(where, None, "is empty (expected a TOML system description)")
+    try:
+        text = raw.decode("utf-8-sig")
+    except UnicodeDecodeError:
+        raise InputError(where, None, "is not UTF-8 text (expected a TOML file)") from None
+    try:
+        return tomllib.loads(text), where
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(where, None, f"is not valid TOML: {exc}") from None
+
+
+def parse_module(table: Table, base_dir: Path) -> Module:
+    """A module from datasheet values, single-diode parameters, or another file."""
+    where = table.where
+    if table.has("file"):
+        ref = table.text("file")
+        table.finish()
+        data, ref_where = read_toml(base_dir / ref)
+        if "module" not in data:
+            raise InputError(ref_where, "[module]", "is missing (expected the module's datasheet values)")
+        extra = sorted(set(data) - {"module"})
+        if extra:
+            raise InputError(ref_where, extra[0], "unknown section (a module file holds only [module])")
+        return parse_module(Table(ref_where, "[module]", data["module"]), base_dir)
+    name = table.text("name", "")
+    has_ds = any(table.has(k) for k in DATASHEET_KEYS if k != "cells_in_series")
+    has_p = any(table.has(k) for k in PARAMETER_KEYS if k != "cells_in_series")
+    if has_ds and has_p:
+        raise InputError(where, table.label, "give either datasheet values or single-diode parameters, not both")
+    if has_p:
+        values = {k: table.number(k, integer=(k == "cells_in_series")) for k in PARAMETER_KEYS}
+        values.update({k: table.number(k) for k in PARAMETER_OPTIONAL if table.has(k)})
+        table.finish()
+        return module_from_parameters(DiodeParameters(**values), where, name)
+    values = {k: table.number(k, integer=(k == "cells_in_series")) for k in DATASHEET_KEYS}
+    table.finish()
+    return fit_datasheet(Datasheet(name=name, **values), where)
+
+
+def _conditions(table: Table):
+    g = table.number("irradiance_w_m2", float("nan"), minimum=0.0, maximum=MAX_IRRADIANCE_W_M2)
+    t = table.number("cell_temp_c", float("nan"), minimum=CELL_TEMP_RANGE_C[0], maximum=CELL_TEMP_RANGE_C[1])
+    return (None if math.isnan(g) else g), (None if math.isnan(t) else t)
+
+
+def parse_group(table: Table, default_name: str) -> StringGroup:
+    name = table.text("name", default_name)
+    if not name.strip():
+        raise InputError(table.where, table.field("name"), "must not be empty")
+    n_s = table.number("modules_per_string", integer=True, positive=True, maximum=MAX_MODULES_PER_STRING)
+    n_p = table.number("strings", integer=True, positive=True, maximum=MAX_STRINGS)
+    g, t = _conditions(table)
+    table.finish()
+    return StringGroup(name, n_s, n_p, g, t)
+
+
+def parse_cable(table: Table, index: int, group_names) -> CableRun:
+    group = table.text("group", "") or None
+    role = table.text("role", "group" if group else "feeder", choices=ROLES)
+    if role in ("string", "group"):
+        if group is None:
+            if len(group_names) > 1:
+                raise InputError(table.where, table.field("group"),
+                                 f"a {role} run must name its group: one of {', '.join(group_names)}")
+            group = group_names[0]
+        elif group not in group_names:
+            raise InputError(table.where, table.field("group"),
+                             f"no group named {group!r}; expected one of {', '.join(group_names)}")
+    elif group is not None:
+        raise InputError(table.where, table.field("group"), "a feeder serves the whole array; remove the group")
+    run = CableRun(
+        name=table.text("name", f"cable {index + 1}"),
+        role=role,
+        length_m=table.number("length_m", positive=True, maximum=MAX_LENGTH_M),
+        resistance_ohm_per_km=table.number("resistance_ohm_per_km", positive=True, maximum=1.0e5),
+        group=group,
+        conductors_in_parallel=table.number("conductors_in_parallel", 1, integer=True, positive=True, maximum=100),
+    )
+    table.finish()
+    return run
+
+
+def parse_load(table: Table) -> Load:
+    kind = table.text("kind", "mpp", choices=LOAD_KINDS)
+    if kind == "mpp":
+        load = Load("mpp")
+    elif kind == "resistor":
+        load = Load("resistor", resistance_ohm=table.number("resistance_ohm", positive=True, maximum=1e9))
+    elif kind == "voltage":
+        load = Load("voltage", emf_v=table.number("voltage_v", positive=True, maximum=1e5))
+    else:
+        load = Load("battery", resistance_ohm=table.number("resistance_ohm", minimum=0.0, maximum=1e3),
+                    emf_v=table.number("emf_v", positive=True, maximum=1e5))
+    table.finish()
+    return load
+
+
+def parse_system(data: dict, where: str, base_dir: Path) -> System:
+    """Build a :class:`System` from parsed TOML; errors name ``where`` and the field."""
+    top = Table(where, "", data)
+    name = top.text("name", "")
+    top.used.update({"module", "array", "group", "cable", "load"})
+    unknown = sorted(set(data) - top.used)
+    if unknown:
+        raise InputError(where, f"[{unknown[0]}]", "unknown section or key (check the spelling)")
+    if "module" not in data:
+        raise InputError(where, "[module]", "is missing (expected the module's datasheet values)")
+    module = parse_module(Table(where, "[module]", data["module"]), base_dir)
+
+    if "array" in data and "group" in data:
+        raise InputError(where, "[array]", "give either one [array] or a list of [[group]] tables, not both")
+    if "array" in data:
+        groups = [parse_group(Table(where, "[array]", data["array"]), "array")]
+    elif "group" in data:
+        raw = data["group"]
+        if not isinstance(raw, list) or not raw:
+            raise InputError(where, "[[group]]", "expected one or more [[group]] tables")
+        groups = [parse_group(Table(where, f"[[group]] #{k + 1}", g), f"group {k + 1}") for k, g in enumerate(raw)]
+        names = [g.name for g in groups]
+        dup = sorted({n for n in names if names.count(n) > 1})
+        if dup:
+            raise InputError(where, "[[group]].name", f"group names must be unique; {dup[0]!r} repeats")
+    else:
+        raise InputError(where, "[array]", "is missing (expected modules_per_string and strings)")
+    group_names = [g.name for g in groups]
+
+    raw_cables = data.get("cable", [])
+    if not isinstance(raw_cables, list):
+        raise InputError(where, "[[cable]]", "expected a list of [[cable]] tables")
+    cables = [parse_cable(Table(where, f"[[cable]] #{k + 1}", c), k, group_names) for k, c in enumerate(raw_cables)]
+    load = parse_load(Table(where, "[load]", data["load"])) if "load" in data else Load("mpp")
+    return System(module=module, groups=tuple(groups), cables=tuple(cables), load=load, name=name, source=where)
+
+
+def load_system(path) -> System:
+    """Read and validate a system file.
+
+    Parameters
+    ----------
+    path : str or Path
+        A TOML file with ``[module]``, ``[array]`` or ``[[group]]``, optional
+        ``[[cable]]`` and ``[load]``.
+
+    Raises
+    ------
+    InputError
+        Naming the file and the field.
+    """
+    data, where = read_toml(path)
+    return parse_system(data, where, Path(path).parent)
+
+
+def load_module(path) -> Module:
+    """Read a datasheet file (a ``[module]`` table) and fit or accept its parameters."""
+    data, where = read_toml(path)
+    if "module" not in data:
+        raise InputError(where, "[module]", "is missing (expected the module's datasheet values)")
+    extra = sorted(set(data) - {"module"})
+    if extra:
+        raise InputError(where, extra[0], "unknown section (a datasheet file holds only [module])")
+    return parse_module(Table(where, "[module]", data["module"]), Path(path).parent)

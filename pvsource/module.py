@@ -1,0 +1,467 @@
+"""One PV module as a single-diode source.
+
+From datasheet values at STC this module fits the De Soto single-diode
+parameters with :mod:`pvlib.ivtools.sdm`, verifies every fit against the
+datasheet, moves the parameters to any irradiance and cell temperature with
+:func:`pvlib.pvsystem.calcparams_desoto`, and evaluates the diode equation
+with the derivatives the operating-point solver needs.
+
+The diode equation is written in the diode-voltage form of Bishop [3]_:
+for a module diode voltage ``x`` (V), the terminal current and voltage are
+
+    I(x) = I_L - I_0 (exp(x / a) - 1) - x / R_sh,     V(x) = x - I(x) R_s,
+
+both explicit and monotone in ``x`` (I falls, V rises), which is what makes
+Newton's method safe on it.
+
+References
+----------
+.. [1] W. De Soto, S. A. Klein, W. A. Beckman, "Improvement and validation of
+   a model for photovoltaic array performance", Solar Energy 80 (2006) 78-88,
+   doi:10.1016/j.solener.2005.06.010
+.. [2] E. I. Batzelis, S. A. Papathanassiou, "A method for the analytical
+   extraction of the single-diode PV model parameters", IEEE Trans. Sustain.
+   Energy 7 (2016) 504-512, doi:10.1109/TSTE.2015.2503435
+.. [3] J. W. Bishop, "Computer simulation of the effects of electrical
+   mismatches in photovoltaic cell interconnection circuits", Solar Cells 25
+   (1988) 73-89, doi:10.1016/0379-6787(88)90059-2
+.. [4] M. A. Green, "Accuracy of analytical expressions for solar cell fill
+   factors", Solar Cells 7 (1982) 337-340, doi:10.1016/0379-6787(82)90057-6
+"""
+
+from __future__ import annotations
+
+import math
+import warnings
+from dataclasses import dataclass, field
+
+import numpy as np
+from pvlib import ivtools, pvsystem, singlediode
+
+from pvsource.errors import InputError
+
+STC_IRRADIANCE_W_M2 = 1000.0
+STC_CELL_TEMP_C = 25.0
+BOLTZMANN_OVER_Q_V_PER_K = 8.617333262e-5  # k/q, CODATA 2018
+SILICON_BANDGAP_EV = 1.121  # De Soto et al. (2006), value for crystalline Si
+SILICON_BANDGAP_SLOPE_PER_K = -0.0002677  # De Soto et al. (2006)
+
+
+@dataclass(frozen=True)
+class Datasheet:
+    """Module datasheet values at STC (1000 W/m2, 25 degC cells, AM1.5).
+
+    Attributes
+    ----------
+    v_oc, v_mp : float
+        Open-circuit and maximum-power voltages [V].
+    i_sc, i_mp : float
+        Short-circuit and maximum-power currents [A].
+    isc_temp_coeff_pct : float
+        Temperature coefficient of Isc [%/degC].
+    voc_temp_coeff_pct : float
+        Temperature coefficient of Voc [%/degC]; negative.
+    cells_in_series : int
+        Cells in series in the module.
+    name : str
+        A label for reports.
+    """
+
+    v_oc: float
+    i_sc: float
+    v_mp: float
+    i_mp: float
+    isc_temp_coeff_pct: float
+    voc_temp_coeff_pct: float
+    cells_in_series: int
+    name: str = ""
+
+    @property
+    def alpha_sc_a_per_c(self) -> float:
+        """Temperature coefficient of Isc [A/degC]."""
+        return self.isc_temp_coeff_pct / 100.0 * self.i_sc
+
+    @property
+    def beta_voc_v_per_c(self) -> float:
+        """Temperature coefficient of Voc [V/degC]."""
+        return self.voc_temp_coeff_pct / 100.0 * self.v_oc
+
+    @property
+    def p_mp_w(self) -> float:
+        return self.v_mp * self.i_mp
+
+    @property
+    def fill_factor(self) -> float:
+        return self.p_mp_w / (self.v_oc * self.i_sc)
+
+
+@dataclass(frozen=True)
+class DiodeParameters:
+    """De Soto single-diode parameters at the reference condition (STC).
+
+    Attributes
+    ----------
+    i_l_ref_a : float
+        Light-generated current [A].
+    i_o_ref_a : float
+        Diode saturation current [A].
+    r_s_ohm : float
+        Series resistance [ohm].
+    r_sh_ref_ohm : float
+        Shunt resistance [ohm].
+    a_ref_v : float
+        Modified ideality factor n Ns k T / q [V].
+    alpha_sc_a_per_c : float
+        Temperature coefficient of the short-circuit current [A/degC].
+    cells_in_series : int
+        Cells in series; used for the Voc-per-cell plausibility check.
+    eg_ref_ev : float
+        Band gap at the reference temperature [eV].
+    degdt_per_c : float
+        Relative temperature dependence of the band gap [1/degC].
+    """
+
+    i_l_ref_a: float
+    i_o_ref_a: float
+    r_s_ohm: float
+    r_sh_ref_ohm: float
+    a_ref_v: float
+    alpha_sc_a_per_c: float
+    cells_in_series: int
+    eg_ref_ev: float = SILICON_BANDGAP_EV
+    degdt_per_c: float = SILICON_BANDGAP_SLOPE_PER_K
+
+
+@dataclass(frozen=True)
+class FitReport:
+    """How a set of diode parameters was obtained and how well it reproduces STC.
+
+    Attributes
+    ----------
+    method : str
+        ``"desoto"`` (full fit, Batzelis estimate as start),
+        ``"batzelis"`` (explicit estimate kept because the full fit failed) or
+        ``"given"`` (parameters entered directly).
+    note : str
+        Why the method was chosen, in one sentence.
+    stc : dict
+        ``v_oc``, ``i_sc``, ``v_mp``, ``i_mp``, ``p_mp`` recomputed from the
+        parameters at STC [V, A, W].
+    relative_error : dict
+        (recomputed - datasheet) / datasheet for the same keys; empty when
+        there is no datasheet.
+    """
+
+    method: str
+    note: str
+    stc: dict
+    relative_error: dict = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
+class Module:
+    """A module: its diode parameters, and the datasheet and fit they came from."""
+
+    parameters: DiodeParameters
+    fit: FitReport
+    datasheet: Datasheet | None = None
+    name: str = ""
+
+
+@dataclass(frozen=True)
+class DiodeState:
+    """Single-diode parameters of one module at given conditions (arrays).
+
+    All attributes broadcast together; this is what the solver works on.
+    ``r_sh_ohm`` is infinite in the dark (De Soto scales it with 1/irradiance).
+    """
+
+    i_l_a: np.ndarray
+    i_o_a: np.ndarray
+    r_s_ohm: np.ndarray
+    r_sh_ohm: np.ndarray
+    a_v: np.ndarray
+
+
+# ---------------------------------------------------------------- validation
+
+# Bounds below are plausibility limits, not physics: each is common practice
+# for crystalline and thin-film flat-plate modules, wide enough for any real
+# datasheet and narrow enough to catch unit mistakes (A/degC for %/degC, a
+# cell count for a module count).
+VOC_PER_CELL_RANGE_V = (0.3, 1.5)
+ISC_COEFF_RANGE_PCT = (0.0, 0.2)
+VOC_COEFF_RANGE_PCT = (-1.0, -0.05)
+FILL_FACTOR_MIN = 0.45
+
+
+def ideal_fill_factor(v_oc_v, cells_in_series, temp_c=STC_CELL_TEMP_C, ideality=1.0):
+    """Green's empirical fill factor of an ideal cell (no series or shunt loss).
+
+    FF0 = (v - ln(v + 0.72)) / (v + 1), with v = Voc / (n Ns k T / q).
+    No real module with ideality >= 1 exceeds it, so it bounds a datasheet.
+
+    Parameters
+    ----------
+    v_oc_v : float or array
+        Module open-circuit voltage [V].
+    cells_in_series : int
+        Cells in series.
+    temp_c : float
+        Cell temperature [degC].
+    ideality : float
+        Diode ideality factor [-].
+
+    References
+    ----------
+    M. A. Green, Solar Cells 7 (1982) 337-340, doi:10.1016/0379-6787(82)90057-6
+    """
+    v = np.asarray(v_oc_v) / (ideality * cells_in_series * BOLTZMANN_OVER_Q_V_PER_K * (temp_c + 273.15))
+    return (v - np.log(v + 0.72)) / (v + 1.0)
+
+
+def _finite_positive(where, name, value, *, integer=False):
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        raise InputError(where, name, f"expected a number, got {value!r}")
+    if not math.isfinite(value):
+        raise InputError(where, name, f"expected a finite number, got {value!r}")
+    if value <= 0:
+        raise InputError(where, name, f"must be greater than zero, got {value!r}")
+    if integer and int(value) != value:
+        raise InputError(where, name, f"must be a whole number, got {value!r}")
+
+
+def validate_datasheet(ds: Datasheet, where: str = "datasheet", prefix: str = "") -> None:
+    """Reject a physically inconsistent datasheet with a message naming the field.
+
+    Raises
+    ------
+    InputError
+        Naming ``prefix + field`` and what was expected.
+    """
+    f = lambda name: f"{prefix}{name}"  # noqa: E731
+    for name in ("v_oc", "i_sc", "v_mp", "i_mp"):
+        _finite_positive(where, f(name), getattr(ds, name))
+    _finite_positive(where, f("cells_in_series"), ds.cells_in_series, integer=True)
+    for name in ("isc_temp_coeff_pct", "voc_temp_coeff_pct"):
+        value = getattr(ds, name)
+        if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value):
+            raise InputError(where, f(name), f"expected a finite number in %/degC, got {value!r}")
+    if ds.v_mp >= ds.v_oc:
+        raise InputError(where, f("v_mp"), f"must be below v_oc ({ds.v_oc:g} V), got {ds.v_mp:g} V")
+    if ds.i_mp >= ds.i_sc:
+        raise InputError(where, f("i_mp"), f"must be below i_sc ({ds.i_sc:g} A), got {ds.i_mp:g} A")
+    lo, hi = VOC_PER_CELL_RANGE_V
+    per_cell = ds.v_oc / ds.cells_in_series
+    if not lo <= per_cell <= hi:
+        raise InputError(
+            where, f("cells_in_series"),
+            f"v_oc / cells_in_series = {per_cell:.3f} V per cell is outside {lo}-{hi} V; check the cell count",
+        )
+    lo, hi = VOC_COEFF_RANGE_PCT
+    if not lo <= ds.voc_temp_coeff_pct <= hi:
+        raise InputError(
+            where, f("voc_temp_coeff_pct"),
+            f"expected a negative coefficient between {lo} and {hi} %/degC, got {ds.voc_temp_coeff_pct:g}",
+        )
+    lo, hi = ISC_COEFF_RANGE_PCT
+    if not lo <= ds.isc_temp_coeff_pct <= hi:
+        raise InputError(
+            where, f("isc_temp_coeff_pct"),
+            f"expected a coefficient between {lo} and {hi} %/degC, got {ds.isc_temp_coeff_pct:g}",
+        )
+    ff = ds.fill_factor
+    ff_max = float(ideal_fill_factor(ds.v_oc, ds.cells_in_series))
+    if not FILL_FACTOR_MIN <= ff < ff_max:
+        raise InputError(
+            where, f("v_mp"),
+            f"fill factor v_mp*i_mp/(v_oc*i_sc) = {ff:.3f} is outside the physical range "
+            f"{FILL_FACTOR_MIN}-{ff_max:.3f} (ideal-cell limit for this Voc)",
+        )
+
+
+def validate_parameters(p: DiodeParameters, where: str = "module", prefix: str = "") -> None:
+    """Reject single-diode parameters that cannot describe a PV module."""
+    for name in ("i_l_ref_a", "i_o_ref_a", "r_sh_ref_ohm", "a_ref_v", "eg_ref_ev"):
+        _finite_positive(where, f"{prefix}{name}", getattr(p, name))
+    _finite_positive(where, f"{prefix}cells_in_series", p.cells_in_series, integer=True)
+    for name in ("r_s_ohm", "alpha_sc_a_per_c", "degdt_per_c"):
+        value = getattr(p, name)
+        if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value):
+            raise InputError(where, f"{prefix}{name}", f"expected a finite number, got {value!r}")
+    if p.r_s_ohm < 0:
+        raise InputError(where, f"{prefix}r_s_ohm", f"must not be negative, got {p.r_s_ohm:g}")
+    if p.i_o_ref_a >= p.i_l_ref_a:
+        raise InputError(where, f"{prefix}i_o_ref_a", "must be far below i_l_ref_a (no open-circuit voltage otherwise)")
+    per_cell = p.a_ref_v / p.cells_in_series / (BOLTZMANN_OVER_Q_V_PER_K * (STC_CELL_TEMP_C + 273.15))
+    if not 0.5 <= per_cell <= 3.0:
+        raise InputError(
+            where, f"{prefix}a_ref_v",
+            f"implies a diode ideality of {per_cell:.2f} per cell; expected 0.5-3 (check a_ref_v and cells_in_series)",
+        )
+
+
+# ---------------------------------------------------------------- fitting
+
+def _stc_points(p: DiodeParameters) -> dict:
+    state = parameters_at(p, STC_IRRADIANCE_W_M2, STC_CELL_TEMP_C)
+    out = pvsystem.singlediode(state.i_l_a, state.i_o_a, state.r_s_ohm, state.r_sh_ohm, state.a_v, method="newton")
+    return {k: float(np.asarray(out[k]).squeeze()) for k in ("v_oc", "i_sc", "v_mp", "i_mp", "p_mp")}
+
+
+def _errors(stc: dict, ds: Datasheet) -> dict:
+    ref = {"v_oc": ds.v_oc, "i_sc": ds.i_sc, "v_mp": ds.v_mp, "i_mp": ds.i_mp, "p_mp": ds.p_mp_w}
+    return {k: (stc[k] - ref[k]) / ref[k] for k in ref}
+
+
+# A full fit is kept only if it reproduces every datasheet point this well;
+# the explicit estimate is usually within about 1 %, the full fit within 1e-6.
+FULL_FIT_TOLERANCE = 1e-4
+
+
+def fit_datasheet(ds: Datasheet, where: str = "datasheet") -> Module:
+    """Fit De Soto single-diode parameters to a datasheet, and verify the fit.
+
+    The explicit method of Batzelis and Papathanassiou [2]_
+    (:func:`pvlib.ivtools.sdm.fit_desoto_batzelis`) never fails and starts the
+    full De Soto fit (:func:`pvlib.ivtools.sdm.fit_desoto`). If the full fit
+    fails, gives non-physical parameters, or reproduces the datasheet worse
+    than the estimate, the estimate is kept and the report says so.
+
+    Parameters
+    ----------
+    ds : Datasheet
+        Validated or not; it is validated here.
+    where : str
+        The file name, for error messages.
+
+    Returns
+    -------
+    Module
+        With a :class:`FitReport` of the STC points recomputed from the
+        parameters and their relative errors against the datasheet.
+    """
+    validate_datasheet(ds, where, prefix="[module].")
+    alpha, beta = ds.alpha_sc_a_per_c, ds.beta_voc_v_per_c
+    est = ivtools.sdm.fit_desoto_batzelis(ds.v_mp, ds.i_mp, ds.v_oc, ds.i_sc, alpha, beta)
+    explicit = DiodeParameters(
+        i_l_ref_a=float(est["I_L_ref"]), i_o_ref_a=float(est["I_o_ref"]), r_s_ohm=float(est["R_s"]),
+        r_sh_ref_ohm=float(est["R_sh_ref"]), a_ref_v=float(est["a_ref"]), alpha_sc_a_per_c=float(alpha),
+        cells_in_series=int(ds.cells_in_series),
+    )
+    explicit_stc = _stc_points(explicit)
+    explicit_err = _errors(explicit_stc, ds)
+
+    reason = ""
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            full, result = ivtools.sdm.fit_desoto(
+                ds.v_mp, ds.i_mp, ds.v_oc, ds.i_sc, alpha, beta, int(ds.cells_in_series),
+                init_guess={"IL_0": explicit.i_l_ref_a, "Io_0": explicit.i_o_ref_a, "Rs_0": explicit.r_s_ohm,
+                            "Rsh_0": explicit.r_sh_ref_ohm, "a_0": explicit.a_ref_v},
+            )
+        fitted = DiodeParameters(
+            i_l_ref_a=float(full["I_L_ref"]), i_o_ref_a=float(full["I_o_ref"]), r_s_ohm=float(full["R_s"]),
+            r_sh_ref_ohm=float(full["R_sh_ref"]), a_ref_v=float(full["a_ref"]), alpha_sc_a_per_c=float(alpha),
+            cells_in_series=int(ds.cells_in_series),
+        )
+        validate_parameters(fitted, where)
+        stc = _stc_points(fitted)
+        err = _errors(stc, ds)
+        worst = max(abs(e) for e in err.values())
+        if not np.isfinite(worst) or worst > FULL_FIT_TOLERANCE:
+            reason = f"the full De Soto fit reproduces the datasheet only to {worst:.2%}"
+    except (RuntimeError, InputError, ValueError, FloatingPointError) as exc:
+        reason = f"the full De Soto fit failed ({' '.join(str(exc).split())[:120]})"
+
+    if reason:
+        return Module(
+            parameters=explicit,
+            fit=FitReport("batzelis", f"{reason}; kept the explicit Batzelis estimate", explicit_stc, explicit_err),
+            datasheet=ds, name=ds.name,
+        )
+    worst_explicit = max(abs(e) for e in explicit_err.values())
+    return Module(
+        parameters=fitted,
+        fit=FitReport(
+            "desoto",
+            f"full De Soto fit started from the explicit Batzelis estimate (which alone was off by up to {worst_explicit:.2%})",
+            stc, err,
+        ),
+        datasheet=ds, name=ds.name,
+    )
+
+
+def module_from_parameters(p: DiodeParameters, where: str = "module", name: str = "") -> Module:
+    """A module from explicit single-diode parameters, with its STC points."""
+    validate_parameters(p, where, prefix="[module].")
+    return Module(parameters=p, fit=FitReport("given", "single-diode parameters entered directly", _stc_points(p)),
+                  name=name)
+
+
+# ---------------------------------------------------------------- conditions
+
+def parameters_at(p: DiodeParameters, irradiance_w_m2, cell_temp_c) -> DiodeState:
+    """Single-diode parameters at the given effective irradiance and cell temperature.
+
+    Thin wrapper over :func:`pvlib.pvsystem.calcparams_desoto` [1]_.
+
+    Parameters
+    ----------
+    p : DiodeParameters
+    irradiance_w_m2 : float or array
+        Effective irradiance on the cells [W/m2]; zero is the dark.
+    cell_temp_c : float or array
+        Cell temperature [degC].
+    """
+    g = np.asarray(irradiance_w_m2, dtype=float)
+    t = np.asarray(cell_temp_c, dtype=float)
+    with np.errstate(divide="ignore"):
+        il, io, rs, rsh, a = pvsystem.calcparams_desoto(
+            g, t, p.alpha_sc_a_per_c, p.a_ref_v, p.i_l_ref_a, p.i_o_ref_a, p.r_sh_ref_ohm, p.r_s_ohm,
+            EgRef=p.eg_ref_ev, dEgdT=p.degdt_per_c,
+        )
+    shape = np.broadcast_shapes(g.shape, t.shape)
+    # In the dark pvlib returns I_L = 0 and R_sh = inf; a tiny negative I_L
+    # from the temperature term would only add noise.
+    il = np.maximum(np.broadcast_to(il, shape), 0.0)
+    return DiodeState(
+        i_l_a=il, i_o_a=np.broadcast_to(io, shape), r_s_ohm=np.broadcast_to(np.asarray(rs, float), shape),
+        r_sh_ohm=np.broadcast_to(rsh, shape), a_v=np.broadcast_to(a, shape),
+    )
+
+
+def diode_current(x_v, state: DiodeState):
+    """Module current and its first two derivatives at diode voltage ``x_v``.
+
+    I = I_L - I_0 (exp(x/a) - 1) - x / R_sh, the same equation as
+    :func:`pvlib.singlediode.bishop88` without its thin-film and breakdown
+    terms. Written out here because the solver needs d2I/dx2 and calls this
+    tens of times per condition; pvlib's gradient path costs about thirty
+    times more per call on a million points.
+
+    Parameters
+    ----------
+    x_v : array
+        Module diode voltage V + I R_s [V].
+    state : DiodeState
+
+    Returns
+    -------
+    i_a, di_dx, d2i_dx2 : arrays
+        Current [A], dI/dx [A/V], d2I/dx2 [A/V2].
+    """
+    e = state.i_o_a / state.a_v * np.exp(x_v / state.a_v)
+    di_dx = -e - 1.0 / state.r_sh_ohm
+    i = state.i_l_a - state.a_v * e + state.i_o_a - x_v / state.r_sh_ohm
+    return i, di_dx, -e / state.a_v
+
+
+def diode_voltage_upper_bound(state: DiodeState):
+    """A diode voltage above which the module current is never positive [V].
+
+    a ln(1 + I_L / I_0): pvlib's :func:`pvlib.singlediode.estimate_voc`,
+    which ignores the shunt and so bounds the true Voc from above.
+    """
+    return singlediode.estimate_voc(state.i_l_a, state.i_o_a, state.a_v)

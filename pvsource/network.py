@@ -1,0 +1,477 @@
+"""The exact operating point of string groups feeding a combiner bus and a load.
+
+Topology
+--------
+Each group g has ``n_p`` identical strings of ``n_s`` modules; each string has
+its own lead (loop resistance ``r_string``) and the group has a home run
+(``r_home``) to a common combiner bus. Beyond the bus, everything the array
+feeds is either a Thevenin branch (EMF ``E``, resistance ``R``, the feeder
+included) or a maximum-power load.
+
+Unknowns and equations
+----------------------
+Per condition: the diode voltage ``x_g`` of one module in each group, and the
+bus voltage ``V``. Group g imposes on the bus
+
+    F_g(x) = n_s x - I(x) (n_s R_s + r_string + n_p r_home),   J_g = n_p I(x),
+
+so KVL reads F_g(x_g) = V and KCL sum_g J_g = (V - E) / R.
+
+Why Newton is safe here
+-----------------------
+Seen from the bus, each group's current is a concave, falling function of V;
+F_g is convex and rising in x. One Newton step on the joint system replaces
+every group by its tangent (its Norton equivalent at the current point) and
+solves that linear network exactly. Tangents of a concave curve lie above it,
+so every step lands at or above the true bus voltage, and each x_g at or
+above its true value: from the first step on, the iterates approach the
+solution from one side and cannot overshoot. The only guard needed is a cap
+on the first step (a tangent taken in the flat current-source region can aim
+far above the open-circuit voltage).
+
+References
+----------
+.. [1] J. W. Bishop, Solar Cells 25 (1988) 73-89, doi:10.1016/0379-6787(88)90059-2
+       (diode-voltage form of the single-diode curve).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, replace
+from functools import cached_property
+
+import numpy as np
+
+from pvsource.module import DiodeState, diode_current, diode_voltage_upper_bound
+
+MAX_ITERATIONS = 100
+# Stop when KVL holds to this fraction of the bus voltage (plus 1 nV), then
+# take one more step: quadratic convergence squares the error, far below
+# what the 1e-9 energy-balance guard needs.
+RELATIVE_TOLERANCE = 1e-8
+ABSOLUTE_TOLERANCE_V = 1e-9
+# Joint Newton steps for the maximum-power problem before a condition is
+# handed to the slower nested solver.
+JOINT_MPP_ITERATIONS = 30
+# Below this fraction of conditions still iterating, gather them into smaller
+# arrays rather than recompute the converged ones.
+COMPACT_BELOW = 0.5
+
+
+@dataclass(frozen=True)
+class Network:
+    """Groups and their wiring, as arrays the solver broadcasts over.
+
+    Attributes
+    ----------
+    state : DiodeState
+        Module parameters at each condition, arrays of shape (N, G).
+    n_series, n_parallel : ndarray, shape (G,)
+        Modules per string and strings per group.
+    r_string_ohm, r_home_ohm : ndarray, shape (G,)
+        Loop resistance of one string lead and of the group's home run [ohm].
+    """
+
+    state: DiodeState
+    n_series: np.ndarray
+    n_parallel: np.ndarray
+    r_string_ohm: np.ndarray
+    r_home_ohm: np.ndarray
+
+    @property
+    def shape(self):
+        """(N, G): conditions by groups."""
+        return np.broadcast_shapes(self.state.i_l_a.shape, self.state.a_v.shape, (len(self.n_series),))
+
+    @cached_property
+    def series_resistance_ohm(self):
+        """Resistance per string between its diodes and the bus, shape (N, G) [ohm]."""
+        return self.n_series * self.state.r_s_ohm + self.r_string_ohm + self.n_parallel * self.r_home_ohm
+
+    def without_cables(self) -> "Network":
+        """The same groups joined directly: the ideal array with no wiring."""
+        zeros = np.zeros(len(self.n_series))
+        return replace(self, r_string_ohm=zeros, r_home_ohm=zeros)
+
+    @cached_property
+    def prepared(self) -> "_Prepared":
+        return _Prepared.build(self)
+
+
+@dataclass(frozen=True)
+class _Prepared:
+    """Per-condition constants of the diode equation, group-major (G, M).
+
+    Group-major so that sums over groups are plain additions of contiguous
+    rows; computed once per network so each Newton step costs few passes.
+    """
+
+    i_l: np.ndarray
+    i_l_plus_i_o: np.ndarray
+    i_o_over_a: np.ndarray
+    a: np.ndarray
+    inv_a: np.ndarray
+    g_sh: np.ndarray
+    rt: np.ndarray
+    x_oc: np.ndarray
+    n_s: np.ndarray
+    n_p: np.ndarray
+
+    @classmethod
+    def build(cls, net: Network) -> "_Prepared":
+        shape = net.shape
+        t = lambda a: np.ascontiguousarray(np.broadcast_to(a, shape).T, dtype=float)  # noqa: E731
+        st = net.state
+        a, i_o, i_l = t(st.a_v), t(st.i_o_a), t(st.i_l_a)
+        with np.errstate(divide="ignore"):
+            g_sh = 1.0 / t(st.r_sh_ohm)
+        return cls(
+            i_l=i_l, i_l_plus_i_o=i_l + i_o, i_o_over_a=i_o / a, a=a, inv_a=1.0 / a, g_sh=g_sh,
+            rt=t(net.series_resistance_ohm), x_oc=t(diode_voltage_upper_bound(st)),
+            n_s=np.asarray(net.n_series, float)[:, None], n_p=np.asarray(net.n_parallel, float)[:, None],
+        )
+
+    def take(self, idx) -> "_Prepared":
+        keep = ("n_s", "n_p")
+        return _Prepared(**{k: getattr(self, k) if k in keep else getattr(self, k)[:, idx]
+                            for k in self.__dataclass_fields__})
+
+    @property
+    def v_oc_bound(self):
+        """Upper bound of the open-circuit bus voltage, (M,) [V]."""
+        return np.max(self.n_s * self.x_oc, axis=0)
+
+    def x_cap(self, v_max):
+        """Diode voltages at which each group's bus voltage is at least ``v_max``.
+
+        Above a*ln(1 + I_L/I_0) the module current is not positive, and then
+        F(x) >= n_s x; so max(that bound, v_max / n_s) works.
+        """
+        return np.maximum(self.x_oc, v_max / self.n_s)
+
+
+def _evaluate(p: _Prepared, x, second=False):
+    """Group quantities at diode voltages x (G, M'): bus voltage F, dF/dx,
+    group current J, conductance -dJ/dV seen from the bus and, if asked, d2J/dV2."""
+    e = np.exp(x * p.inv_a)
+    e *= p.i_o_over_a
+    minus_di = e + p.g_sh
+    i = p.i_l_plus_i_o - p.a * e
+    i -= x * p.g_sh
+    dbus = minus_di * p.rt
+    dbus += p.n_s
+    bus = p.n_s * x
+    bus -= i * p.rt
+    cond = minus_di * p.n_p
+    cond /= dbus
+    j = p.n_p * i
+    if not second:
+        return bus, dbus, j, cond
+    d2j = e * (p.inv_a * p.n_p * p.n_s)
+    d2j /= -(dbus * dbus * dbus)
+    return bus, dbus, j, cond, d2j
+
+
+@dataclass(frozen=True)
+class GroupPoint:
+    """Every group evaluated at given diode voltages, shape (N, G).
+
+    Attributes
+    ----------
+    x_v : module diode voltage [V]
+    module_i_a, di_dx : module current [A] and dI/dx [A/V]
+    module_v : module terminal voltage x - I R_s [V]
+    bus_v : the bus voltage this point implies, F(x) [V]
+    group_i_a : group current J [A]
+    conductance_s : -dJ/dV seen from the bus [S]
+    """
+
+    x_v: np.ndarray
+    module_i_a: np.ndarray
+    di_dx: np.ndarray
+    module_v: np.ndarray
+    bus_v: np.ndarray
+    group_i_a: np.ndarray
+    conductance_s: np.ndarray
+
+
+def evaluate_groups(net: Network, x_v) -> GroupPoint:
+    """Evaluate every group at module diode voltages ``x_v`` (N, G)."""
+    i, di, _ = diode_current(x_v, net.state)
+    rt = net.series_resistance_ohm
+    dbus = net.n_series - di * rt
+    return GroupPoint(
+        x_v=x_v, module_i_a=i, di_dx=di, module_v=x_v - i * net.state.r_s_ohm,
+        bus_v=net.n_series * x_v - i * rt, group_i_a=net.n_parallel * i,
+        conductance_s=-net.n_parallel * di / dbus,
+    )
+
+
+@dataclass(frozen=True)
+class Solution:
+    """A solved network.
+
+    Attributes
+    ----------
+    x_v : ndarray (N, G)
+        Module diode voltage in each group [V].
+    bus_v : ndarray (N,)
+        Combiner-bus voltage [V].
+    converged : ndarray of bool (N,)
+    iterations : int
+        Newton steps taken by the slowest condition.
+    """
+
+    x_v: np.ndarray
+    bus_v: np.ndarray
+    converged: np.ndarray
+    iterations: int
+
+
+def _tolerance(v):
+    return RELATIVE_TOLERANCE * np.abs(v) + ABSOLUTE_TOLERANCE_V
+
+
+def _flat(value, m):
+    return np.array(np.broadcast_to(np.asarray(value, float).reshape(-1) if np.ndim(value) else value, (m,)))
+
+
+def _iterate(p: _Prepared, step, max_iterations=MAX_ITERATIONS):
+    """Call ``step(q, idx)`` until every condition reports done.
+
+    ``idx`` selects columns of the caller's full-size arrays and ``q`` holds
+    the prepared constants of the same columns. While more than half are
+    still active, the step runs on all columns of the current set (an extra
+    Newton step at a converged point leaves it there) because gathering the
+    active ones costs more than it saves; below half, the active ones are
+    gathered into smaller arrays once.
+    """
+    m = p.i_l.shape[1]
+    converged = np.zeros(m, bool)
+    q, members = p, None  # members: full-array indices of q's columns (None: all)
+    active = np.ones(m, bool)  # over q's columns
+    iteration = 0
+    for iteration in range(1, max_iterations + 1):
+        n_active = int(active.sum())
+        if n_active < COMPACT_BELOW * active.size:
+            local = np.flatnonzero(active)
+            q = q.take(local)
+            members = local if members is None else members[local]
+            active = np.ones(local.size, bool)
+        done = step(q, slice(None) if members is None else members)
+        newly = active & done
+        converged[newly if members is None else members[newly]] = True
+        active &= ~done
+        if not active.any():
+            break
+    return converged, iteration
+
+
+def _gsum(a):
+    """Sum over groups (axis 0); explicit for one or two groups, the common cases."""
+    if a.shape[0] == 1:
+        return a[0]
+    if a.shape[0] == 2:
+        return a[0] + a[1]
+    return a.sum(axis=0)
+
+
+def _gall(a):
+    """All over groups (axis 0)."""
+    if a.shape[0] == 1:
+        return a[0]
+    if a.shape[0] == 2:
+        return a[0] & a[1]
+    return a.all(axis=0)
+
+
+def _result(net: Network, x, v, converged, iterations) -> Solution:
+    return Solution(np.ascontiguousarray(x.T).reshape(net.shape), v.reshape(net.shape[:-1]),
+                    converged.reshape(net.shape[:-1]), iterations)
+
+
+def solve_thevenin(net: Network, emf_v, r_ohm, x0_v=None) -> Solution:
+    """Operating point of the array feeding a Thevenin branch (E, R) from its bus.
+
+    Parameters
+    ----------
+    net : Network
+    emf_v : float or array (N,)
+        EMF of the branch; opposes the array's current [V].
+    r_ohm : float or array (N,)
+        Branch resistance [ohm]: ``np.inf`` is an open circuit, 0 fixes the
+        bus voltage at ``emf_v``.
+    x0_v : array (N, G), optional
+        Starting diode voltages; by default a start from the current-source
+        estimate of the operating point.
+
+    Returns
+    -------
+    Solution
+    """
+    p = net.prepared
+    m = p.i_l.shape[1]
+    emf, r = _flat(emf_v, m), _flat(r_ohm, m)
+    fixed = r == 0.0
+    with np.errstate(divide="ignore"):
+        g_load = np.where(fixed, 0.0, 1.0 / r)
+    v_oc = p.v_oc_bound
+    x_hi = p.x_cap(np.maximum(v_oc, emf))
+    if x0_v is None:
+        # Current-source estimate: every string near I_L, so V ~ E + R sum(I_L),
+        # never above the open-circuit bound.
+        with np.errstate(invalid="ignore"):
+            v0 = np.minimum(emf + r * _gsum(p.n_p * p.i_l), v_oc)
+        v0 = np.where(fixed, emf, np.where(np.isfinite(v0), v0, v_oc))
+        x = np.minimum((v0 + p.i_l * p.rt) / p.n_s, p.x_oc)
+    else:
+        x = np.minimum(np.asarray(x0_v, float).reshape(m, -1).T, x_hi)
+    v = np.empty(m)
+
+    def step(q, idx):
+        bus, dbus, j, cond = _evaluate(q, x[:, idx])
+        e = emf[idx]
+        norton = _gsum(j + cond * bus)
+        vs = np.where(fixed[idx], e, (norton + g_load[idx] * e) / (_gsum(cond) + g_load[idx]))
+        resid = vs - bus
+        x[:, idx] = np.minimum(x[:, idx] + resid / dbus, x_hi[:, idx])
+        v[idx] = vs
+        return _gall(np.abs(resid) <= _tolerance(vs))
+
+    converged, iterations = _iterate(p, step)
+    return _result(net, x, v, converged, iterations)
+
+
+def solve_at_bus_voltage(net: Network, bus_v, x0_v=None) -> Solution:
+    """Diode voltages that put every group at the given bus voltage.
+
+    Each group's F(x) is convex and rising, so Newton from the right cannot
+    overshoot, and from the left it lands on the right after one step (capped).
+    """
+    p = net.prepared
+    m = p.i_l.shape[1]
+    v = _flat(bus_v, m)
+    x_hi = p.x_cap(np.maximum(v, p.v_oc_bound))
+    if x0_v is None:
+        x = np.minimum((v + p.i_l * p.rt) / p.n_s, x_hi)
+    else:
+        x = np.minimum(np.asarray(x0_v, float).reshape(m, -1).T, x_hi)
+
+    def step(q, idx):
+        bus, dbus, _, _ = _evaluate(q, x[:, idx])
+        vs = v[idx]
+        resid = vs - bus
+        x[:, idx] = np.minimum(x[:, idx] + resid / dbus, x_hi[:, idx])
+        return _gall(np.abs(resid) <= _tolerance(vs))
+
+    converged, iterations = _iterate(p, step)
+    return _result(net, x, v, converged, iterations)
+
+
+def _power_slope(i, di, d2i, v, r_f):
+    """dP/dV and d2P/dV2 of P = (V - I R_f) I, with I(V) and its derivatives."""
+    slope = i + v * di - 2.0 * r_f * i * di
+    curvature = 2.0 * di + v * d2i - 2.0 * r_f * (di * di + i * d2i)
+    return slope, curvature
+
+
+def solve_max_power(net: Network, r_feeder_ohm=0.0, open_circuit: Solution | None = None) -> Solution:
+    """Bus voltage that maximises the power delivered through the feeder.
+
+    This is what a maximum-power tracker at the far end of the feeder does:
+    P = (V - I R_f) I is maximised over the bus voltage V in [0, Voc].
+    A joint Newton step moves V by Newton on dP/dV, with each group's current
+    and slope carried to V by its Taylor expansion, and moves each group's
+    diode voltage toward V; a step that leaves the bracket or meets positive
+    curvature is replaced by bisection. Conditions that have not converged
+    after a few steps finish in a nested solver (exact inner solve per step).
+
+    Parameters
+    ----------
+    net : Network
+    r_feeder_ohm : float or array (N,)
+        Loop resistance between the bus and the load [ohm].
+    open_circuit : Solution, optional
+        The network's open-circuit solution, if already known.
+    """
+    oc = open_circuit if open_circuit is not None else solve_thevenin(net, 0.0, np.inf)
+    p = net.prepared
+    m = p.i_l.shape[1]
+    r_f = _flat(r_feeder_ohm, m)
+    v_oc = oc.bus_v.reshape(m)
+    lit = (p.i_l > 0.0).any(axis=0) & (v_oc > 0.0)
+    lo = np.zeros(m)
+    hi = np.where(lit, v_oc, 0.0)
+    x_oc = np.ascontiguousarray(oc.x_v.reshape(m, -1).T)
+    # Ideal-diode MPP: exp(x/a)(1 + x/a) = I_L/I_0 + 1, so x_mp ~ x_oc - a ln(1 + x_oc/a).
+    x = np.where(lit, x_oc - p.a * np.log1p(np.maximum(x_oc, 0.0) * p.inv_a), x_oc)
+    bus, _, j, _ = _evaluate(p, x)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        v = np.where(lit, _gsum(j * bus) / _gsum(j), 0.0)
+    v = np.clip(np.nan_to_num(v), lo, hi)
+    x_hi = p.x_cap(hi)
+
+    def step(q, idx):
+        bus, dbus, j, cond, d2j = _evaluate(q, x[:, idx], second=True)
+        vs, los, his, rf = v[idx], lo[idx], hi[idx], r_f[idx]
+        dv = vs - bus
+        i = _gsum(j - cond * dv)
+        di = _gsum(d2j * dv - cond)
+        d2i = _gsum(d2j)
+        slope, curvature = _power_slope(i, di, d2i, vs, rf)
+        tol = _tolerance(vs)
+        # The bracket only trusts a slope taken with every group at V.
+        consistent = _gall(np.abs(dv) <= 1e-6 * (np.abs(vs) + 1.0))
+        los = np.where(consistent & (slope > 0), vs, los)
+        his = np.where(consistent & (slope <= 0), vs, his)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            newton = vs - slope / curvature
+        ok = (curvature < 0) & (newton >= los) & (newton <= his)
+        v_new = np.where(lit[idx], np.where(ok, newton, 0.5 * (los + his)), 0.0)
+        done = (np.abs(v_new - vs) <= tol) & _gall(np.abs(dv) <= tol)
+        x[:, idx] = np.minimum(x[:, idx] + (v_new - bus) / dbus, x_hi[:, idx])
+        # With every condition active, idx is a slice and vs a view of v:
+        # assign only after the last read.
+        v[idx], lo[idx], hi[idx] = v_new, los, his
+        return done
+
+    converged, iterations = _iterate(p, step, JOINT_MPP_ITERATIONS)
+    if not converged.all():
+        rest = np.flatnonzero(~converged)
+        nested = _solve_max_power_nested(_subset(net, rest), r_f[rest], x[:, rest].T, lo[rest], hi[rest])
+        x[:, rest] = nested.x_v.T
+        v[rest] = nested.bus_v
+        converged[rest] = nested.converged
+        iterations += nested.iterations
+    converged &= oc.converged.reshape(m)
+    return _result(net, x, v, converged, iterations + oc.iterations)
+
+
+def _subset(net: Network, rows) -> Network:
+    g = net.shape[-1]
+    st = net.state
+    pick = lambda a: np.broadcast_to(a, net.shape).reshape(-1, g)[rows]  # noqa: E731
+    return replace(net, state=DiodeState(*(pick(getattr(st, k)) for k in st.__dataclass_fields__)))
+
+
+def _solve_max_power_nested(net: Network, r_f, x, lo, hi) -> Solution:
+    """Safeguarded Newton on dP/dV with an exact inner solve at every step, (M, G)."""
+    v = 0.5 * (lo + hi)
+    inner = solve_at_bus_voltage(net, v, x)
+    converged = np.zeros(v.shape, bool)
+    iteration = 0
+    for iteration in range(1, MAX_ITERATIONS + 1):
+        _, _, j, cond, d2j = _evaluate(net.prepared, np.ascontiguousarray(inner.x_v.T), second=True)
+        slope, curvature = _power_slope(_gsum(j), -_gsum(cond), _gsum(d2j), v, r_f)
+        lo = np.where(slope > 0, v, lo)
+        hi = np.where(slope > 0, hi, v)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            newton = v - slope / curvature
+        ok = (curvature < 0) & (newton >= lo) & (newton <= hi)
+        v_new = np.where(ok, newton, 0.5 * (lo + hi))
+        converged = (np.abs(v_new - v) <= _tolerance(v)) & inner.converged
+        v = v_new
+        inner = solve_at_bus_voltage(net, v, inner.x_v)
+        if converged.all():
+            break
+    return Solution(inner.x_v, v, converged & inner.converged, iteration)
