@@ -236,7 +236,7 @@ def _flat(value, m):
     return np.array(np.broadcast_to(np.asarray(value, float).reshape(-1) if np.ndim(value) else value, (m,)))
 
 
-def _iterate(p: _Prepared, step, max_iterations=MAX_ITERATIONS):
+def _iterate(p: _Prepared, step, max_iterations=None):
     """Call ``step(q, idx)`` until every condition reports done.
 
     ``idx`` selects columns of the caller's full-size arrays and ``q`` holds
@@ -246,6 +246,7 @@ def _iterate(p: _Prepared, step, max_iterations=MAX_ITERATIONS):
     active ones costs more than it saves; below half, the active ones are
     gathered into smaller arrays once.
     """
+    max_iterations = MAX_ITERATIONS if max_iterations is None else min(max_iterations, MAX_ITERATIONS)
     m = p.i_l.shape[1]
     converged = np.zeros(m, bool)
     q, members = p, None  # members: full-array indices of q's columns (None: all)

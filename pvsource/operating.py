@@ -285,3 +285,58 @@ def operating_points(system: System, irradiance_w_m2=None, cell_temp_c=None, *, 
     if np.any(eff > 1.0 + 1e-12):
         raise PhysicsGuardError("an efficiency above 1 was computed; result withheld")
     return frame
+
+
+def _clean(value):
+    """A JSON-safe float: NaN and infinities become None."""
+    value = float(value)
+    return value if np.isfinite(value) else None
+
+
+def point_record(system: System, row: pd.Series) -> dict:
+    """One operating point as a nested, JSON-ready dict (SI units, NaN as None).
+
+    The top-level keys ``source``, ``operating_point``, ``thevenin``,
+    ``norton``, ``matching_ratio``, ``delivered_w``, ``cable_loss_w``,
+    ``efficiency`` and ``mpp_shortfall_w`` are the stable interface; the rest
+    add detail.
+    """
+    r = {k: (_clean(v) if k != "converged" else bool(v)) for k, v in row.items()}
+    groups = []
+    for g in system.groups:
+        pre = f"group_{g.name}_"
+        groups.append({
+            "name": g.name, "modules_per_string": g.modules_per_string, "strings": g.strings,
+            "irradiance_w_m2": r[pre + "irradiance_w_m2"], "cell_temp_c": r[pre + "cell_temp_c"],
+            "v": r[pre + "v"], "i": r[pre + "i_a"], "p": r[pre + "p_w"],
+            "thevenin": {"e_v": r[pre + "thevenin_e_v"], "r_ohm": r[pre + "thevenin_r_ohm"]},
+            "matching_ratio": r[pre + "matching_ratio"],
+            "load_current_share_a": r[f"share_{g.name}_a"],
+        })
+    drift = {tag: {"v": r[f"drift_{tag}_v"], "i_exact_a": r[f"drift_{tag}_i_exact_a"],
+                   "i_linear_a": r[f"drift_{tag}_i_linear_a"], "error_fraction_of_i": r[f"drift_{tag}_error"]}
+             for tag in ("low", "high")}
+    return {
+        "source": {k: r[f"source_{k}"] for k in ("v_oc", "i_sc", "v_mp", "i_mp", "p_mp")},
+        "operating_point": {"v": r["v"], "i": r["i"], "p": r["p"]},
+        "thevenin": {"e_v": r["thevenin_e_v"], "r_ohm": r["thevenin_r_ohm"]},
+        "norton": {"i_a": r["norton_i_a"], "r_ohm": r["norton_r_ohm"]},
+        "matching_ratio": r["matching_ratio"],
+        "delivered_w": r["delivered_w"],
+        "cable_loss_w": r["cable_loss_w"],
+        "efficiency": r["efficiency"],
+        "mpp_shortfall_w": r["mpp_shortfall_w"],
+        "generated_w": r["generated_w"],
+        "losses_w": {"string_leads": r["string_loss_w"], "home_runs": r["home_run_loss_w"],
+                     "feeder": r["feeder_loss_w"]},
+        "load": {"kind": system.load.kind, "v": r["load_v"], "i": r["i"]},
+        "load_side": {"e_v": r["load_side_e_v"], "r_ohm": r["load_side_r_ohm"],
+                      "matching_ratio": r["load_side_matching_ratio"]},
+        "linear_drift": drift,
+        "superposition": {"groups_a": {g["name"]: g["load_current_share_a"] for g in groups},
+                          "load_emf_a": r["share_load_emf_a"], "total_a": r["superposition_total_a"]},
+        "groups": groups,
+        "residuals": {"kvl_v": r["kvl_residual_v"], "kcl_a": r["kcl_residual_a"],
+                      "energy_balance": r["energy_balance_residual"]},
+        "converged": r["converged"],
+    }
