@@ -1,0 +1,5 @@
+"""``python -m pvsource``: the same as the ``pvsource`` command."""
+
+from pvsource.cli import main
+
+main()
