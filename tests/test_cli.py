@@ -1,0 +1,139 @@
+"""The command line: output forms, exit codes, and one-line errors."""
+
+import json
+import re
+import subprocess
+import sys
+
+import pytest
+
+import pvsource
+from pvsource.cli import main, parse_condition
+from pvsource.errors import InputError
+
+from conftest import DATA, ROOT
+
+EXAMPLE = str(DATA / "example-system.toml")
+TWO_FACES = str(DATA / "example-two-faces.toml")
+
+
+def run(capsys, *args):
+    with pytest.raises(SystemExit) as exc:
+        main(list(args))
+        raise SystemExit(0)
+    out = capsys.readouterr()
+    return exc.value.code or 0, out.out, out.err
+
+
+def test_point_json_has_the_documented_keys_in_si_units(capsys):
+    code, out, err = run(capsys, "point", EXAMPLE, "--irradiance", "800", "--cell-temp", "45", "--json")
+    assert code == 0 and err == ""
+    rec = json.loads(out)
+    assert set(rec["source"]) == {"v_oc", "i_sc", "v_mp", "i_mp", "p_mp"}
+    assert set(rec["operating_point"]) == {"v", "i", "p"}
+    assert set(rec["thevenin"]) == {"e_v", "r_ohm"} and set(rec["norton"]) == {"i_a", "r_ohm"}
+    for key in ("matching_ratio", "delivered_w", "cable_loss_w", "efficiency", "mpp_shortfall_w"):
+        assert isinstance(rec[key], float)
+    # The same numbers as the library gives.
+    system = pvsource.load_system(EXAMPLE)
+    row = pvsource.operating_points(system, 800.0, 45.0).iloc[0]
+    assert rec["operating_point"]["v"] == pytest.approx(row["v"], rel=1e-12)
+    assert rec["thevenin"]["e_v"] == pytest.approx(row["thevenin_e_v"], rel=1e-12)
+    assert rec["delivered_w"] + rec["cable_loss_w"] == pytest.approx(rec["generated_w"], rel=1e-9)
+
+
+def test_point_table_shows_the_linearised_view_and_the_cautions(capsys):
+    code, out, _ = run(capsys, "point", EXAMPLE)
+    assert code == 0
+    for words in ("Thevenin", "Norton", "matching ratio", "Superposition", "shortfall against the MPP",
+                  "Cautions", "DC arcs", "licensed practitioners"):
+        assert words in out
+
+
+def test_point_takes_per_group_conditions(capsys):
+    code, out, _ = run(capsys, "point", TWO_FACES, "--irradiance", "west=900", "--irradiance", "400",
+                       "--cell-temp", "30", "--json")
+    assert code == 0
+    groups = {g["name"]: g for g in json.loads(out)["groups"]}
+    assert groups["west"]["irradiance_w_m2"] == 900.0
+    assert groups["east"]["irradiance_w_m2"] == 400.0
+
+
+def test_fit_reports_parameters_and_errors(capsys):
+    code, out, _ = run(capsys, "fit", str(DATA / "modules" / "ashgrove-ag300.toml"), "--json")
+    rec = json.loads(out)
+    assert code == 0 and rec["method"] == "desoto"
+    assert set(rec["relative_error"]) == {"v_oc", "i_sc", "v_mp", "i_mp", "p_mp"}
+    assert max(abs(e) for e in rec["relative_error"].values()) < 1e-6
+    code, out, _ = run(capsys, "fit", str(DATA / "modules" / "ashgrove-ag300.toml"))
+    assert "De Soto" in out and "i_mp" in out
+
+
+def _bad_file(tmp_path, text):
+    path = tmp_path / "system.toml"
+    path.write_text(text)
+    return str(path)
+
+
+GOOD = (DATA / "example-system.toml").read_text().replace('file = "modules/ashgrove-ag300.toml"',
+                                                         (DATA / "modules" / "ashgrove-ag300.toml").read_text()
+                                                         .split("[module]")[1])
+
+
+@pytest.mark.parametrize("edit, field", [
+    (("strings = 3\n", ""), "[array].strings"),
+    (("strings = 3", "strings = 3\ncolour = 2"), "[array].colour"),
+    (("length_m = 12", "length_m = -1"), "[[cable]] #1.length_m"),
+    (("v_mp = 33.0", "v_mp = 45.0"), "[module].v_mp"),
+    (("emf_v = 26.4", 'emf_v = "twenty"'), "[load].emf_v"),
+])
+def test_bad_system_files_exit_2_with_one_line(capsys, tmp_path, edit, field):
+    assert edit[0] in GOOD
+    path = _bad_file(tmp_path, GOOD.replace(*edit))
+    code, out, err = run(capsys, "point", path)
+    assert code == 2 and out == ""
+    assert err.count("\n") == 1 and "Traceback" not in err
+    assert path in err and field in err
+
+
+@pytest.mark.parametrize("args, words", [
+    (["point", EXAMPLE, "--irradiance", "lots"], "--irradiance"),
+    (["point", EXAMPLE, "--cell-temp", "east=hot"], "--cell-temp"),
+    (["point", EXAMPLE, "--irradiance", "-20"], "irradiance_w_m2"),
+    (["point", EXAMPLE, "--irradiance", "north=500"], "no such group"),
+    (["point", EXAMPLE, "--frobnicate"], "No such option"),
+    (["point"], "Missing argument"),
+    (["point", "does-not-exist.toml"], "does-not-exist.toml"),
+])
+def test_bad_command_lines_exit_2_with_one_line(capsys, args, words):
+    code, out, err = run(capsys, *args)
+    assert code == 2 and out == ""
+    assert err.count("\n") == 1 and words in err and "Traceback" not in err
+
+
+def test_parse_condition_forms():
+    assert parse_condition(None, "--x") is None
+    assert parse_condition(["800"], "--x") == 800.0
+    assert parse_condition(["a=1", "2"], "--x") == {"__default__": 2.0, "a": 1.0}
+    with pytest.raises(InputError):
+        parse_condition(["1", "2"], "--x")
+
+
+def test_the_installed_entry_point_reports_errors_in_one_line(tmp_path):
+    path = tmp_path / "empty.toml"
+    path.write_text("")
+    proc = subprocess.run([sys.executable, "-m", "pvsource", "point", str(path)], capture_output=True, text=True)
+    assert proc.returncode == 2
+    assert proc.stderr.strip() == f"pvsource: error: {path}: is empty (expected a TOML system description)"
+    proc = subprocess.run([sys.executable, "-m", "pvsource", "--version"], capture_output=True, text=True)
+    assert proc.returncode == 0 and pvsource.__version__ in proc.stdout
+
+
+def test_readme_quick_start_has_exactly_two_commands():
+    text = (ROOT / "README.md").read_text()
+    section = text.split("## Quick start", 1)[1].split("\n## ", 1)[0]
+    commands = re.findall(r"```(?:sh|bash|console)?\n(.*?)```", section, re.S)
+    lines = [ln for block in commands for ln in block.strip().splitlines() if ln.strip()]
+    assert len(lines) == 2
+    ci = (ROOT / ".ci" / "run").read_text()
+    assert lines[1].strip() in ci  # CI runs the README's test command

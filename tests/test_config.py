@@ -1,0 +1,140 @@
+"""System and datasheet files: what is accepted, and how bad files are refused."""
+
+import pytest
+
+from pvsource.config import load_module, load_system
+from pvsource.errors import InputError
+
+from conftest import DATA
+
+GOOD = """
+name = "test"
+[module]
+v_oc = 40.1
+i_sc = 9.8
+v_mp = 33.0
+i_mp = 9.2
+isc_temp_coeff_pct = 0.05
+voc_temp_coeff_pct = -0.29
+cells_in_series = 60
+
+[array]
+modules_per_string = 3
+strings = 2
+
+[[cable]]
+length_m = 12
+resistance_ohm_per_km = 3.4
+
+[load]
+kind = "battery"
+emf_v = 25.6
+resistance_ohm = 0.03
+"""
+
+
+def write(tmp_path, text, name="system.toml"):
+    path = tmp_path / name
+    path.write_text(text)
+    return path
+
+
+def test_the_issue_form_is_accepted(tmp_path):
+    system = load_system(write(tmp_path, GOOD))
+    assert system.groups[0].modules_per_string == 3 and system.groups[0].strings == 2
+    assert system.cables[0].role == "feeder"
+    assert system.wiring.r_feeder_ohm == pytest.approx(2 * 12 * 3.4 / 1000)
+    assert system.load.kind == "battery" and system.load.emf_v == 25.6
+
+
+def test_shipped_examples_load():
+    one = load_system(DATA / "example-system.toml")
+    two = load_system(DATA / "example-two-faces.toml")
+    assert one.module.fit.method == "desoto"
+    assert two.group_names == ("east", "west")
+    assert two.wiring.r_home_ohm[1] == pytest.approx(2 * 15 * 5.09 / 1000)
+
+
+def test_a_system_without_a_load_works_at_the_mpp(tmp_path):
+    text = GOOD.split("[load]")[0]
+    assert load_system(write(tmp_path, text)).load.kind == "mpp"
+
+
+def test_explicit_single_diode_parameters_are_accepted(tmp_path):
+    text = """
+[module]
+i_l_ref_a = 9.81
+i_o_ref_a = 2.2e-11
+r_s_ohm = 0.27
+r_sh_ref_ohm = 211.0
+a_ref_v = 1.497
+alpha_sc_a_per_c = 0.0049
+cells_in_series = 60
+[array]
+modules_per_string = 2
+strings = 1
+"""
+    system = load_system(write(tmp_path, text))
+    assert system.module.fit.method == "given"
+    assert system.module.fit.stc["v_oc"] == pytest.approx(40.1, rel=0.01)
+
+
+def test_datasheet_file_for_fit():
+    m = load_module(DATA / "modules" / "ashgrove-ag300.toml")
+    assert m.name.startswith("Ashgrove")
+
+
+BAD_CASES = {
+    "missing key": (GOOD.replace("strings = 2\n", ""), "[array].strings", "missing"),
+    "unknown key": (GOOD.replace("strings = 2", "strings = 2\nstirngs = 3"), "[array].stirngs", "unknown key"),
+    "negative length": (GOOD.replace("length_m = 12", "length_m = -12"), "[[cable]] #1.length_m", "greater than zero"),
+    "v_mp above v_oc": (GOOD.replace("v_mp = 33.0", "v_mp = 41.0"), "[module].v_mp", "below v_oc"),
+    "text for a number": (GOOD.replace("emf_v = 25.6", 'emf_v = "abc"'), "[load].emf_v", "expected a number"),
+    "unknown load kind": (GOOD.replace('kind = "battery"', 'kind = "supercap"'), "[load].kind", "expected one of"),
+    "zero strings": (GOOD.replace("strings = 2", "strings = 0"), "[array].strings", "greater than zero"),
+    "fractional modules": (GOOD.replace("modules_per_string = 3", "modules_per_string = 2.5"),
+                           "[array].modules_per_string", "whole number"),
+    "infinite irradiance": (GOOD.replace("strings = 2", "strings = 2\nirradiance_w_m2 = inf"),
+                            "[array].irradiance_w_m2", "finite"),
+    "unknown section": (GOOD + "\n[inverter]\nsize = 3\n", "[inverter]", "unknown section"),
+    "no module": (GOOD.split("[array]")[0].split("[module]")[0] + "[array]" + GOOD.split("[array]")[1],
+                  "[module]", "missing"),
+    "both forms of module": (GOOD.replace("cells_in_series = 60", "cells_in_series = 60\nr_s_ohm = 0.2"),
+                             "[module]", "not both"),
+    "cable for a missing group": (GOOD.replace("length_m = 12", 'group = "north"\nlength_m = 12'),
+                                  "[[cable]] #1.group", "no group named"),
+    "array and groups": (GOOD + '\n[[group]]\nname = "x"\nmodules_per_string = 1\nstrings = 1\n', "[array]",
+                         "not both"),
+}
+
+
+@pytest.mark.parametrize("case", sorted(BAD_CASES))
+def test_bad_system_files_name_the_file_and_the_field(tmp_path, case):
+    text, field, words = BAD_CASES[case]
+    path = write(tmp_path, text)
+    with pytest.raises(InputError) as exc:
+        load_system(path)
+    assert exc.value.where == str(path)
+    assert exc.value.field == field
+    assert words in exc.value.expected
+    assert "\n" not in str(exc.value)
+
+
+@pytest.mark.parametrize("content, words", [
+    (b"", "is empty"),
+    (b"\x00\x01\xff\xfe binary", "not UTF-8"),
+    (b"[module]\n[module]\nv_oc = 1\n", "not valid TOML"),
+    (b"name = \n", "not valid TOML"),
+])
+def test_unreadable_files_are_refused_in_one_line(tmp_path, content, words):
+    path = tmp_path / "bad.toml"
+    path.write_bytes(content)
+    with pytest.raises(InputError) as exc:
+        load_system(path)
+    assert words in str(exc.value) and str(path) in str(exc.value)
+    assert "\n" not in str(exc.value)
+
+
+def test_a_missing_file_is_named(tmp_path):
+    with pytest.raises(InputError, match="cannot be read"):
+        load_system(tmp_path / "nowhere.toml")

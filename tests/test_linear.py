@@ -1,0 +1,72 @@
+"""Thevenin/Norton equivalents, matching ratio and superposition (circuit laws)."""
+
+import numpy as np
+import pytest
+
+from pvsource import linear
+
+
+def test_maximum_power_transfer_of_a_linear_source():
+    # Law (maximum power transfer theorem; Alexander & Sadiku, Fundamentals of
+    # Electric Circuits, sec. 4.8): a source E behind R delivers at most
+    # E^2 / (4 R), into R_L = R (m = 1), at 50 % efficiency.
+    e, r = 48.0, 1.7
+    at_match = linear.linear_transfer(e, r, r)
+    assert at_match["p_load_w"] == pytest.approx(e**2 / (4 * r), rel=1e-12)
+    assert at_match["efficiency"] == pytest.approx(0.5)
+    assert at_match["matching_ratio"] == pytest.approx(1.0)
+    loads = np.geomspace(r / 50, r * 50, 20001)
+    sweep = linear.linear_transfer(e, r, loads)
+    best = np.argmax(sweep["p_load_w"])
+    assert sweep["matching_ratio"][best] == pytest.approx(1.0, rel=1e-3)
+    assert sweep["p_load_w"].max() <= e**2 / (4 * r) * (1 + 1e-12)
+
+
+def test_efficiency_is_m_over_one_plus_m():
+    # Law: eta = R_L / (R + R_L) = m / (1 + m) for a linear source and a resistor.
+    m = np.array([0.1, 0.5, 1.0, 2.0, 9.0])
+    out = linear.linear_transfer(10.0, 2.0, 2.0 * m)
+    np.testing.assert_allclose(out["efficiency"], m / (1 + m), rtol=1e-14)
+    np.testing.assert_allclose(out["p_load_w"] / out["p_source_w"], out["efficiency"], rtol=1e-14)
+
+
+def test_linearise_round_trips_the_point():
+    v, i, g = np.array([30.0, 80.0]), np.array([9.0, 2.0]), np.array([0.01, 3.0])
+    eq = linear.linearise(v, i, g)
+    np.testing.assert_allclose(eq.e_v, v + i / g)
+    np.testing.assert_allclose(eq.i_a, eq.e_v / eq.r_ohm)
+    np.testing.assert_allclose(eq.current_at(v), i)
+    # Below V_mp (small conductance) the EMF lies far above the terminal voltage.
+    assert eq.e_v[0] > 10 * v[0]
+
+
+def test_matching_ratio_is_undefined_without_current():
+    m = linear.matching_ratio(np.array([10.0, 0.0]), np.array([2.0, 0.0]), np.array([5.0, 1.0]))
+    assert m[0] == pytest.approx(1.0)
+    assert np.isnan(m[1])
+
+
+def test_superposition_matches_nodal_analysis(rng):
+    # Reference: the same one-node network solved directly with numpy.linalg.
+    for _ in range(50):
+        k = rng.integers(1, 5)
+        e = rng.uniform(10, 200, k)
+        r = rng.uniform(0.1, 50, k)
+        e_l, r_l = rng.uniform(0, 100), rng.uniform(0.0, 5.0)
+        shares, load_share, total = linear.superposition(e, r, e_l, r_l)
+        if r_l == 0.0:
+            v = e_l
+        else:
+            a = np.array([[np.sum(1 / r) + 1 / r_l]])
+            b = np.array([np.sum(e / r) + e_l / r_l])
+            v = np.linalg.solve(a, b)[0]
+        i_load = np.sum((e - v) / r)
+        assert total == pytest.approx(i_load, rel=1e-10, abs=1e-12)
+        assert shares.sum() + load_share == pytest.approx(total, rel=1e-12)
+
+
+def test_superposition_with_a_stiff_load_stays_finite():
+    shares, load_share, total = linear.superposition(np.array([100.0]), np.array([10.0]), 60.0, 0.0)
+    assert shares[0] == pytest.approx(10.0)
+    assert load_share == pytest.approx(-6.0)
+    assert total == pytest.approx(4.0)
