@@ -35,8 +35,8 @@ def bench_system() -> System:
     module = fit_datasheet(Datasheet(40.1, 9.8, 33.0, 9.2, 0.05, -0.29, 60, name="bench module"))
     groups = (StringGroup("east", 2, 3), StringGroup("west", 2, 2))
     cables = (
-        CableRun("east home run", "group", 9.0, 5.09, "east"),
-        CableRun("west home run", "group", 15.0, 5.09, "west"),
+        CableRun("east home run", "home-run", 9.0, 5.09, "east"),
+        CableRun("west home run", "home-run", 15.0, 5.09, "west"),
         CableRun("feeder", "feeder", 12.0, 1.95),
     )
     return System(module, groups, cables, Load("battery", resistance_ohm=0.02, emf_v=53.0))

@@ -40,8 +40,10 @@ KCMIL_MM2 = 0.506707
 #: IEC 60228 nominal cross-sections [mm²].
 IEC_60228_SIZES_MM2 = (0.5, 0.75, 1, 1.5, 2.5, 4, 6, 10, 16, 25, 35, 50, 70,
                        95, 120, 150, 185, 240, 300, 400, 500, 630)
-#: AWG numbers of the "awg" series, 18 to 1 then 1/0 (n = 0) to 4/0 (n = -3).
-AWG_STANDARD = tuple(range(18, 0, -1)) + (0, -1, -2, -3)
+#: AWG numbers of the "awg" series: the building-wire sizes of NEC Chapter 9
+#: Table 8, 18 to 1 without the odd sizes below 4, then 1/0 (n = 0) to 4/0
+#: (n = -3). Odd sizes still parse; they are rarely stocked.
+AWG_STANDARD = (18, 16, 14, 12, 10, 8, 6, 4, 3, 2, 1, 0, -1, -2, -3)
 #: kcmil sizes of the "awg" series above 4/0.
 KCMIL_STANDARD = (250, 300, 350, 400, 500, 600, 750, 1000)
 # NEC Chapter 9 Table 8 lists these too, so they parse without the flag, but

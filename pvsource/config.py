@@ -11,11 +11,13 @@ import math
 import tomllib
 from pathlib import Path
 
+from pvsource import conductors
 from pvsource.array import StringGroup
+from pvsource.controller import Controller
 from pvsource.errors import InputError
 from pvsource.module import Datasheet, DiodeParameters, Module, fit_datasheet, module_from_parameters
 from pvsource.system import LOAD_KINDS, Load, System
-from pvsource.wiring import ROLES, CableRun
+from pvsource.wiring import GROUP_ROLES, ROLES, CableRun
 
 DATASHEET_KEYS = ("v_oc", "i_sc", "v_mp", "i_mp", "isc_temp_coeff_pct", "voc_temp_coeff_pct", "cells_in_series")
 PARAMETER_KEYS = ("i_l_ref_a", "i_o_ref_a", "r_s_ohm", "r_sh_ref_ohm", "a_ref_v", "alpha_sc_a_per_c", "cells_in_series")
@@ -27,6 +29,7 @@ MAX_STRINGS = 10_000
 MAX_LENGTH_M = 10_000.0
 MAX_IRRADIANCE_W_M2 = 2000.0
 CELL_TEMP_RANGE_C = (-60.0, 120.0)
+MATERIAL_NAMES = ("copper", "aluminium", "aluminum", "cu", "al")
 
 
 class Table:
@@ -154,29 +157,69 @@ def parse_group(table: Table, default_name: str) -> StringGroup:
 
 
 def parse_cable(table: Table, index: int, group_names) -> CableRun:
+    """A ``[[cable]]`` table: a size and material, or a resistance per km, or both (the resistance wins)."""
+    where = table.where
     group = table.text("group", "") or None
-    role = table.text("role", "group" if group else "feeder", choices=ROLES)
-    if role in ("string", "group"):
+    role = table.text("role", "home-run" if group else "feeder", choices=ROLES)
+    if role in GROUP_ROLES:
         if group is None:
             if len(group_names) > 1:
-                raise InputError(table.where, table.field("group"),
+                raise InputError(where, table.field("group"),
                                  f"a {role} run must name its group: one of {', '.join(group_names)}")
             group = group_names[0]
         elif group not in group_names:
-            raise InputError(table.where, table.field("group"),
+            raise InputError(where, table.field("group"),
                              f"no group named {group!r}; expected one of {', '.join(group_names)}")
     elif group is not None:
-        raise InputError(table.where, table.field("group"), "a feeder serves the whole array; remove the group")
+        raise InputError(where, table.field("group"), f"a {role} run serves the whole array; remove the group")
+
+    size = None
+    if table.has("size"):
+        try:
+            size = conductors.parse_size(table.text("size"), where=where)
+        except InputError as exc:
+            raise InputError(where, table.field("size"), exc.expected) from None
+    material = table.text("material", "copper", choices=MATERIAL_NAMES)
+    material = conductors.material_properties(material).name
+    temp_c = table.number("temp_c", conductors.DEFAULT_CONDUCTOR_TEMP_C, minimum=-60.0, maximum=250.0)
+    conductor_class = int(table.number("conductor_class", 2, integer=True))
+    if conductor_class not in conductors.STRANDING_FACTORS:
+        raise InputError(where, table.field("conductor_class"),
+                         f"expected one of {sorted(conductors.STRANDING_FACTORS)} (IEC 60228 class)")
+    if table.has("resistance_ohm_per_km"):
+        r_km = table.number("resistance_ohm_per_km", positive=True, maximum=1.0e5)
+    elif size is not None:
+        r_km = 1000.0 * float(conductors.resistance_per_m_ohm(size.area_mm2, material, temp_c,
+                                                               conductor_class=conductor_class))
+    else:
+        raise InputError(where, table.field("size"),
+                         "is missing: give the conductor size (e.g. \"10 AWG\" or \"6 mm2\") "
+                         "or resistance_ohm_per_km")
+    ampacity = table.number("ampacity_a", float("nan"), positive=True, maximum=1.0e5)
     run = CableRun(
         name=table.text("name", f"cable {index + 1}"),
         role=role,
         length_m=table.number("length_m", positive=True, maximum=MAX_LENGTH_M),
-        resistance_ohm_per_km=table.number("resistance_ohm_per_km", positive=True, maximum=1.0e5),
+        resistance_ohm_per_km=r_km,
         group=group,
         conductors_in_parallel=table.number("conductors_in_parallel", 1, integer=True, positive=True, maximum=100),
+        size=size, material=material, temp_c=temp_c, conductor_class=conductor_class,
+        ampacity_a=None if math.isnan(ampacity) else ampacity,
     )
     table.finish()
     return run
+
+
+def parse_controller(table: Table) -> Controller:
+    max_v = table.number("max_input_v", float("nan"), positive=True, maximum=1.0e4)
+    min_v = table.number("min_input_v", float("nan"), minimum=0.0, maximum=1.0e4)
+    controller = Controller(name=table.text("name", ""), max_input_v=None if math.isnan(max_v) else max_v,
+                            min_input_v=None if math.isnan(min_v) else min_v)
+    if controller.max_input_v is not None and controller.min_input_v is not None \
+            and controller.min_input_v >= controller.max_input_v:
+        raise InputError(table.where, table.field("min_input_v"), "must be below max_input_v")
+    table.finish()
+    return controller
 
 
 def parse_load(table: Table) -> Load:
@@ -198,7 +241,7 @@ def parse_system(data: dict, where: str, base_dir: Path) -> System:
     """Build a :class:`System` from parsed TOML; errors name ``where`` and the field."""
     top = Table(where, "", data)
     name = top.text("name", "")
-    top.used.update({"module", "array", "group", "cable", "load"})
+    top.used.update({"module", "array", "group", "cable", "load", "controller"})
     unknown = sorted(set(data) - top.used)
     if unknown:
         raise InputError(where, f"[{unknown[0]}]", "unknown section or key (check the spelling)")
@@ -228,7 +271,9 @@ def parse_system(data: dict, where: str, base_dir: Path) -> System:
         raise InputError(where, "[[cable]]", "expected a list of [[cable]] tables")
     cables = [parse_cable(Table(where, f"[[cable]] #{k + 1}", c), k, group_names) for k, c in enumerate(raw_cables)]
     load = parse_load(Table(where, "[load]", data["load"])) if "load" in data else Load("mpp")
-    return System(module=module, groups=tuple(groups), cables=tuple(cables), load=load, name=name, source=where)
+    controller = parse_controller(Table(where, "[controller]", data["controller"])) if "controller" in data else None
+    return System(module=module, groups=tuple(groups), cables=tuple(cables), load=load, name=name, source=where,
+                  controller=controller)
 
 
 def load_system(path) -> System:

@@ -10,7 +10,7 @@ Conventions
 -----------
 - The array's terminals are the combiner bus: string leads and group home
   runs belong to the array (as PV source circuits do); the feeder and all
-  beyond it are the load side. ``v``, ``i``, ``p`` and the Thevenin/Norton
+  beyond it (bank and interconnect runs too) are the load side. ``v``, ``i``, ``p`` and the Thevenin/Norton
   equivalents refer to the bus.
 - ``source_*`` are the key points of the ideal array: every group joined
   directly, no cables, at the same conditions.
@@ -82,7 +82,7 @@ def _load_branch(system: System):
     th = system.load.thevenin()
     if th is None:
         return None
-    return th[0], th[1] + system.wiring.r_feeder_ohm
+    return th[0], th[1] + system.wiring.r_load_side_ohm
 
 
 def _solve_chunk(system: System, g_w_m2, t_c) -> dict:
@@ -92,7 +92,7 @@ def _solve_chunk(system: System, g_w_m2, t_c) -> dict:
     state = parameters_at(system.module.parameters, g_w_m2, t_c)
     net = Network(state, n_s, n_p, wiring.r_string_ohm, wiring.r_home_ohm)
     ideal = net.without_cables()
-    r_f = wiring.r_feeder_ohm
+    r_f = wiring.r_load_side_ohm
 
     # Key points of the ideal array.
     oc_ideal = solve_thevenin(ideal, 0.0, np.inf)
@@ -119,10 +119,11 @@ def _solve_chunk(system: System, g_w_m2, t_c) -> dict:
     generated = (v_string * j).sum(axis=-1)
     string_loss = (n_p * (j / n_p) ** 2 * wiring.r_string_ohm).sum(axis=-1)
     home_loss = (j**2 * wiring.r_home_ohm).sum(axis=-1)
-    feeder_loss = i**2 * r_f
+    feeder_loss = i**2 * wiring.r_feeder_ohm
+    bank_loss = i**2 * wiring.r_bank_ohm
     v_load = v - i * r_f
     delivered = v_load * i
-    cable_loss = string_loss + home_loss + feeder_loss
+    cable_loss = string_loss + home_loss + feeder_loss + bank_loss
 
     # Residuals of the laws the solution must satisfy.
     kvl = np.max(np.abs(pt.bus_v - v[:, None]), axis=-1)
@@ -181,7 +182,7 @@ def _solve_chunk(system: System, g_w_m2, t_c) -> dict:
         "matching_ratio": m_array,
         "load_v": v_load, "delivered_w": delivered, "generated_w": generated,
         "cable_loss_w": cable_loss, "string_loss_w": string_loss, "home_run_loss_w": home_loss,
-        "feeder_loss_w": feeder_loss, "efficiency": efficiency,
+        "feeder_loss_w": feeder_loss, "bank_loss_w": bank_loss, "efficiency": efficiency,
         "mpp_shortfall_w": mp_ideal.bus_v * i_mp - generated,
         "load_side_e_v": array_eq.e_v, "load_side_r_ohm": r_seen, "load_side_matching_ratio": m_load,
         "share_load_emf_a": load_share, "superposition_total_a": share_total,
@@ -328,7 +329,7 @@ def point_record(system: System, row: pd.Series) -> dict:
         "mpp_shortfall_w": r["mpp_shortfall_w"],
         "generated_w": r["generated_w"],
         "losses_w": {"string_leads": r["string_loss_w"], "home_runs": r["home_run_loss_w"],
-                     "feeder": r["feeder_loss_w"]},
+                     "feeder": r["feeder_loss_w"], "bank_side": r["bank_loss_w"]},
         "load": {"kind": system.load.kind, "v": r["load_v"], "i": r["i"]},
         "load_side": {"e_v": r["load_side_e_v"], "r_ohm": r["load_side_r_ohm"],
                       "matching_ratio": r["load_side_matching_ratio"]},

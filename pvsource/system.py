@@ -11,6 +11,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from pvsource.array import StringGroup
+from pvsource.controller import Controller
 from pvsource.module import Module
 from pvsource.wiring import CableRun, GroupWiring, group_wiring
 
@@ -60,6 +61,8 @@ class System:
     groups : tuple of StringGroup
     cables : tuple of CableRun
     load : Load
+    controller : Controller or None
+        Equipment limits, when the file gives a ``[controller]``.
     name : str
     source : str
         Where the description came from (a file name), for messages.
@@ -71,6 +74,7 @@ class System:
     load: Load = field(default_factory=Load)
     name: str = ""
     source: str = ""
+    controller: Controller | None = None
 
     @property
     def group_names(self) -> tuple[str, ...]:

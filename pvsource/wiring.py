@@ -1,12 +1,17 @@
 """Cable runs and where they sit in the circuit.
 
 A run is a two-conductor DC circuit: its loop resistance is twice the one-way
-route length times the resistance per conductor length, divided by the
-conductors in parallel. Its role places it in the network:
+route length times the resistance of one conductor per length, divided by the
+conductors in parallel on each pole. Its role places it in the network:
 
-- ``string``: a lead of every string in one group (each string has its own);
-- ``group``: the home run from a group to the combiner bus;
-- ``feeder``: from the combiner bus to the load (several feeders add up).
+- ``string``: the lead of every string in one group (each string has its own);
+- ``home-run``: from a group to the combiner bus;
+- ``feeder``: from the combiner bus to the controller (or the load);
+- ``bank``: from the controller to the battery bank;
+- ``interconnect``: between the bank's terminals and its cells or batteries.
+
+Until a controller is modelled, feeder, bank and interconnect runs carry the
+same current in series between the bus and the load.
 """
 
 from __future__ import annotations
@@ -15,7 +20,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
-ROLES = ("string", "group", "feeder")
+from pvsource.conductors import ConductorSize
+
+ROLES = ("string", "home-run", "feeder", "bank", "interconnect")
+PV_SIDE_ROLES = ("string", "home-run", "feeder")
+GROUP_ROLES = ("string", "home-run")
 
 
 @dataclass(frozen=True)
@@ -31,11 +40,22 @@ class CableRun:
     length_m : float
         One-way route length [m].
     resistance_ohm_per_km : float
-        Resistance of one conductor per km [ohm/km].
+        Resistance of one conductor per km at its temperature [ohm/km]:
+        computed from the size, or given by the user (which then wins).
     group : str or None
-        The group a ``string`` or ``group`` run belongs to.
+        The group a ``string`` or ``home-run`` run belongs to.
     conductors_in_parallel : int
         Conductors sharing each pole.
+    size : ConductorSize or None
+        The conductor size, if given.
+    material : str
+        ``copper`` or ``aluminium``.
+    temp_c : float
+        Conductor temperature used for the resistance [degC].
+    conductor_class : int
+        IEC 60228 class: 1 solid, 2 stranded, 5 flexible.
+    ampacity_a : float or None
+        The conductor's current rating, if the user gives one [A].
     """
 
     name: str
@@ -44,6 +64,11 @@ class CableRun:
     resistance_ohm_per_km: float
     group: str | None = None
     conductors_in_parallel: int = 1
+    size: ConductorSize | None = None
+    material: str = "copper"
+    temp_c: float = 75.0
+    conductor_class: int = 2
+    ampacity_a: float | None = None
 
     @property
     def loop_resistance_ohm(self) -> float:
@@ -53,7 +78,7 @@ class CableRun:
 
 @dataclass(frozen=True)
 class GroupWiring:
-    """Loop resistances per group and of the feeder, in the solver's form.
+    """Loop resistances per group and on the load side, in the solver's form.
 
     Attributes
     ----------
@@ -62,12 +87,20 @@ class GroupWiring:
     r_home_ohm : ndarray, shape (G,)
         Loop resistance of each group's home run [ohm].
     r_feeder_ohm : float
-        Total loop resistance between the combiner bus and the load [ohm].
+        Loop resistance of the feeder runs, bus to controller [ohm].
+    r_bank_ohm : float
+        Loop resistance of the bank and interconnect runs [ohm].
     """
 
     r_string_ohm: np.ndarray
     r_home_ohm: np.ndarray
     r_feeder_ohm: float
+    r_bank_ohm: float
+
+    @property
+    def r_load_side_ohm(self) -> float:
+        """All resistance in series between the bus and the load [ohm]."""
+        return self.r_feeder_ohm + self.r_bank_ohm
 
 
 def group_wiring(cables, group_names) -> GroupWiring:
@@ -75,12 +108,14 @@ def group_wiring(cables, group_names) -> GroupWiring:
     index = {name: k for k, name in enumerate(group_names)}
     r_string = np.zeros(len(group_names))
     r_home = np.zeros(len(group_names))
-    r_feeder = 0.0
+    r_feeder = r_bank = 0.0
     for run in cables:
         if run.role == "feeder":
             r_feeder += run.loop_resistance_ohm
+        elif run.role in ("bank", "interconnect"):
+            r_bank += run.loop_resistance_ohm
         elif run.role == "string":
             r_string[index[run.group]] += run.loop_resistance_ohm
         else:
             r_home[index[run.group]] += run.loop_resistance_ohm
-    return GroupWiring(r_string, r_home, r_feeder)
+    return GroupWiring(r_string, r_home, r_feeder, r_bank)

@@ -242,8 +242,9 @@ def test_nonstandard_sizes_need_the_flag():
 
 def test_standard_series():
     awg = [s.label for s in c.standard_sizes("awg")]
-    assert awg[:3] == ["18 AWG", "17 AWG", "16 AWG"] and awg[17:22] == ["1 AWG", "1/0 AWG", "2/0 AWG",
-                                                                         "3/0 AWG", "4/0 AWG"]
+    # Building-wire sizes as listed in NEC Chapter 9 Table 8 (no odd sizes below 4 AWG).
+    assert awg[:7] == ["18 AWG", "16 AWG", "14 AWG", "12 AWG", "10 AWG", "8 AWG", "6 AWG"]
+    assert awg[7:15] == ["4 AWG", "3 AWG", "2 AWG", "1 AWG", "1/0 AWG", "2/0 AWG", "3/0 AWG", "4/0 AWG"]
     assert awg[-8:] == ["250 kcmil", "300 kcmil", "350 kcmil", "400 kcmil", "500 kcmil",
                         "600 kcmil", "750 kcmil", "1000 kcmil"]
     metric = [s.area_mm2 for s in c.standard_sizes("metric")]
@@ -259,7 +260,8 @@ def test_standard_series():
 
 def test_next_sizes_up():
     assert [s.label for s in c.next_sizes_up("4/0", 2)] == ["250 kcmil", "300 kcmil"]
-    assert [s.label for s in c.next_sizes_up("10 AWG")] == ["9 AWG"]
+    assert [s.label for s in c.next_sizes_up("10 AWG")] == ["8 AWG"]
+    assert [s.label for s in c.next_sizes_up("9 AWG", 2)] == ["8 AWG", "6 AWG"]
     assert [s.label for s in c.next_sizes_up("6 mm2", 3)] == ["10 mm2", "16 mm2", "25 mm2"]
     assert [s.label for s in c.next_sizes_up("700 kcmil", 5)] == ["750 kcmil", "1000 kcmil"]
     assert c.next_sizes_up("630 mm2") == []

@@ -19,8 +19,8 @@ LOADS = [Load("mpp"), Load("resistor", resistance_ohm=6.0), Load("voltage", emf_
 
 
 def _two_group_system(module, load):
-    cables = (cable("string", 4.0, 8.0, "g1"), cable("group", 9.0, 5.09, "g1"),
-              cable("group", 15.0, 5.09, "g2"), cable("feeder", 12.0, 1.95))
+    cables = (cable("string", 4.0, 8.0, "g1"), cable("home-run", 9.0, 5.09, "g1"),
+              cable("home-run", 15.0, 5.09, "g2"), cable("feeder", 12.0, 1.95))
     return make_system(module, groups=((2, 3), (2, 2)), cables=cables, load=load)
 
 
