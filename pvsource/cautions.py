@@ -16,3 +16,12 @@ GENERAL = (
     "These results are estimates from a model; the design must follow local electrical codes and be "
     "reviewed and installed by licensed practitioners.",
 )
+
+WIRING = (
+    "Voc rises as cells cool: check the string against the site's record low, not a design day.",
+    "A voltage-drop budget is about efficiency. Conductor ampacity, insulation rated for DC, sunlight and wet "
+    "locations, and overcurrent protection are separate requirements.",
+    "Size battery cables and their fuses for the bank's fault current, not for the PV current.",
+    "Terminations carry the same current as the cable: torque them as the maker specifies and use lugs rated "
+    "for the conductor's metal.",
+)

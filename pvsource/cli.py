@@ -8,7 +8,9 @@ here computes physics.
 from __future__ import annotations
 
 import json
+import math
 import sys
+from dataclasses import replace
 from pathlib import Path
 from typing import Annotated, Optional
 
@@ -19,11 +21,14 @@ try:  # Typer 0.26 and later carry their own copy of Click.
 except ImportError:  # pragma: no cover - older Typer depends on Click itself
     from click import exceptions as _cli_errors
 
-from pvsource import __version__
+from pvsource import __version__, cautions
+from pvsource.checks import DEFAULT_CELL_RISE_C, design_checks, design_currents
 from pvsource.config import load_module, load_system
 from pvsource.errors import ConvergenceError, InputError, PhysicsGuardError
 from pvsource.operating import operating_points, point_record
-from pvsource.terminal import fit_record, render_fit, render_point
+from pvsource.runs import quick_record, wire_record
+from pvsource.system import Load
+from pvsource.terminal import fit_record, render_checks, render_fit, render_point, render_quick_wire, render_wire
 
 app = typer.Typer(
     name="pvsource",
@@ -49,8 +54,19 @@ def _root(
     """pvsource command line."""
 
 
+def json_ready(obj):
+    """Replace NaN and infinities with None, recursively, so the output is strict JSON."""
+    if isinstance(obj, dict):
+        return {k: json_ready(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [json_ready(v) for v in obj]
+    if isinstance(obj, float) and not math.isfinite(obj):
+        return None
+    return obj
+
+
 def _emit_json(obj) -> None:
-    typer.echo(json.dumps(obj, indent=2, allow_nan=False))
+    typer.echo(json.dumps(json_ready(obj), indent=2, allow_nan=False))
 
 
 def parse_condition(values: list[str] | None, option: str):
@@ -116,6 +132,103 @@ def point(
         _emit_json(rec)
     else:
         typer.echo(render_point(system, rec))
+
+
+def _budget_fraction(budget_pct):
+    if budget_pct is None:
+        return None
+    if not math.isfinite(budget_pct) or not 0.0 < budget_pct < 100.0:
+        raise InputError("--budget-pct", None, f"expected a percentage between 0 and 100, got {budget_pct!r}")
+    return budget_pct / 100.0
+
+
+@app.command()
+def wire(
+    system_file: Annotated[Optional[Path], typer.Argument(
+        metavar="[SYSTEM.toml]", help="The system file; leave out for one run given by the options below.")] = None,
+    budget_pct: Annotated[Optional[float], typer.Option(
+        "--budget-pct", help="Voltage-drop budget per run [% of the circuit voltage].")] = None,
+    irradiance: Annotated[Optional[list[str]], typer.Option(
+        "--irradiance", metavar="W_M2|GROUP=W_M2", help="Design irradiance [W/m2]; default 1000 (STC).")] = None,
+    cell_temp: Annotated[Optional[list[str]], typer.Option(
+        "--cell-temp", metavar="C|GROUP=C", help="Design cell temperature [degC]; default 25 (STC).")] = None,
+    with_load: Annotated[bool, typer.Option(
+        "--with-load", help="Use the system's own load instead of the maximum power point.")] = False,
+    current: Annotated[Optional[float], typer.Option("--current", help="One run: current [A].")] = None,
+    length_m: Annotated[Optional[float], typer.Option(
+        "--length-m", help="One run: one-way route length of the two-conductor circuit [m].")] = None,
+    size: Annotated[Optional[str], typer.Option(
+        "--size", help='One run: conductor size, e.g. "10 AWG", "2/0 AWG", "250 kcmil", "6 mm2".')] = None,
+    material: Annotated[str, typer.Option("--material", help="One run: copper or aluminium.")] = "copper",
+    temp_c: Annotated[float, typer.Option("--temp-c", help="One run: conductor temperature [degC].")] = 75.0,
+    volts: Annotated[Optional[float], typer.Option(
+        "--volts", help="One run: circuit voltage the drop is compared with [V].")] = None,
+    parallel: Annotated[int, typer.Option("--parallel", help="One run: conductors in parallel per pole.")] = 1,
+    as_json: Annotated[bool, typer.Option("--json", help="Print one JSON object instead of tables.")] = False,
+):
+    """Voltage drop and loss of every cable run, and the smallest size that meets a budget."""
+    budget = _budget_fraction(budget_pct)
+    single = {"--current": current, "--length-m": length_m, "--size": size, "--volts": volts}
+    if system_file is None:
+        missing = [k for k in ("--current", "--length-m", "--size") if single[k] is None]
+        if missing:
+            raise InputError(missing[0], None, "is needed without a system file (or give SYSTEM.toml)")
+        rec = quick_record(current, length_m, size, material, temp_c, volts, budget, parallel)
+        rec["cautions"] = [*cautions.WIRING, *cautions.GENERAL]
+        _emit_json(rec) if as_json else typer.echo(render_quick_wire(rec))
+        return
+    given = [k for k, v in single.items() if v is not None]
+    if given:
+        raise InputError(given[0], None, "describes one run without a system file; the system file's runs are used")
+    system = load_system(system_file)
+    if not with_load:
+        system = replace(system, load=Load("mpp"))
+    g_opt = _conditions_for(system, parse_condition(irradiance, "--irradiance"))
+    t_opt = _conditions_for(system, parse_condition(cell_temp, "--cell-temp"))
+    g = 1000.0 if g_opt is None else g_opt
+    t = 25.0 if t_opt is None else t_opt
+    row = operating_points(system, g, t).iloc[0]
+    rec = wire_record(system, row, budget)
+    point = "maximum power point" if not with_load else "the system's load"
+    shown = ", ".join(f"{grp.name} {row[f'group_{grp.name}_irradiance_w_m2']:g} W/m2 "
+                      f"{row[f'group_{grp.name}_cell_temp_c']:g} degC" for grp in system.groups)
+    conditions = f"{point} at {shown}" + (" (STC)" if g_opt is None and t_opt is None else "")
+    rec["design_point"] = {"conditions": conditions, "at_mpp": not with_load, "v": float(row["v"]),
+                           "i": float(row["i"]), "generated_w": float(row["generated_w"])}
+    rec["cautions"] = [*cautions.WIRING, *cautions.GENERAL]
+    _emit_json(rec) if as_json else typer.echo(render_wire(system, rec, conditions))
+
+
+@app.command()
+def check(
+    system_file: Annotated[Path, typer.Argument(metavar="SYSTEM.toml", help="The system file.")],
+    min_temp: Annotated[Optional[float], typer.Option(
+        "--min-temp", help="The site's record low air temperature [degC].")] = None,
+    max_temp: Annotated[Optional[float], typer.Option(
+        "--max-temp", help="The site's record high air temperature [degC].")] = None,
+    cell_rise: Annotated[float, typer.Option(
+        "--cell-rise", help="Cells above the air in full sun, for the hot case [degC].")] = DEFAULT_CELL_RISE_C,
+    as_json: Annotated[bool, typer.Option("--json", help="Print one JSON object instead of tables.")] = False,
+):
+    """String voltage and circuit current checks against the site's extremes and the equipment."""
+    if min_temp is None:
+        raise InputError("--min-temp", None, "is needed: the site's record low air temperature in degC")
+    if max_temp is None:
+        raise InputError("--max-temp", None, "is needed: the site's record high air temperature in degC")
+    for name, value, lo, hi in (("--min-temp", min_temp, -70.0, 40.0), ("--max-temp", max_temp, -20.0, 65.0),
+                                ("--cell-rise", cell_rise, 0.0, 60.0)):
+        if not math.isfinite(value) or not lo <= value <= hi:
+            raise InputError(name, None, f"expected {lo:g} to {hi:g} degC, got {value!r}")
+    if min_temp >= max_temp:
+        raise InputError("--min-temp", None, f"must be below --max-temp ({max_temp:g} degC)")
+    system = load_system(system_file)
+    checks = design_checks(system, min_temp, max_temp, cell_rise)
+    verdicts = [c.passed for c in checks if c.passed is not None]
+    rec = {"system": system.name, "min_air_c": min_temp, "max_air_c": max_temp, "cell_rise_c": cell_rise,
+           "checks": [c.record() for c in checks], "design_currents": design_currents(system),
+           "all_passed": all(verdicts) if verdicts else None,
+           "cautions": [*cautions.WIRING, *cautions.GENERAL]}
+    _emit_json(rec) if as_json else typer.echo(render_checks(system, rec))
 
 
 @app.command()

@@ -30,8 +30,8 @@ def _rule(title: str) -> str:
 
 def describe_load(system: System) -> str:
     load = system.load
-    r_f = system.wiring.r_feeder_ohm
-    through = f", through {r_f:.4g} ohm of feeder" if r_f else ""
+    r_f = system.wiring.r_load_side_ohm
+    through = f", through {r_f:.4g} ohm of load-side cables" if r_f else ""
     if load.kind == "mpp":
         return f"maximum-power tracker{through}"
     if load.kind == "resistor":
@@ -120,8 +120,8 @@ def render_point(system: System, rec: dict) -> str:
     return "\n".join(lines)
 
 
-def render_cautions() -> str:
-    return _rule("Cautions") + "\n" + "\n".join(f"  ! {c}" for c in cautions.GENERAL)
+def render_cautions(extra=()) -> str:
+    return _rule("Cautions") + "\n" + "\n".join(f"  ! {c}" for c in (*extra, *cautions.GENERAL))
 
 
 def fit_record(module: Module) -> dict:
@@ -170,4 +170,101 @@ def render_fit(rec: dict) -> str:
         if ds:
             row += f" {ds[k]:>10.4f} {unit} {100 * rec['relative_error'][k]:>+9.4f} %"
         lines.append(row)
+    return "\n".join(lines)
+
+
+def _options_table(options, indent="      ") -> list[str]:
+    lines = [f"{indent}{'size':<11}{'loop R':>11}{'drop':>10}{'drop %':>8}{'loss':>10}{'loss %':>8}{'metal':>9}"]
+    for o in options:
+        lines.append(f"{indent}{o['size']:<11}{o['resistance_ohm']:>7.4f} ohm{o['drop_v']:>8.3f} V"
+                     f"{_num(o['drop_pct'], 2):>8}{o['loss_w']:>8.2f} W{_num(o['loss_pct'], 2):>8}"
+                     f"{o['mass_kg']:>6.2f} kg")
+    return lines
+
+
+def render_wire(system: System, rec: dict, conditions: str) -> str:
+    """The readable table of ``pvsource wire`` for a system file."""
+    lines = [f"pvsource wiring budget: {system.name or system.source}", f"file        {system.source}",
+             f"design point {conditions}; load: {describe_load(system)}"]
+    budget = rec["budget_pct"]
+    if budget is not None:
+        lines.append(f"budget      {budget:g} % voltage drop per run")
+    if not rec["runs"]:
+        lines.append("\nThe system file has no [[cable]] runs.")
+    for r in rec["runs"]:
+        where = f", group {r['group']}" if r["group"] else ""
+        size = r["size"] or "given as ohm/km"
+        lines.append(_rule(f"{r['name']} ({r['role']}{where}): {size} {r['material']}, {r['length_m']:g} m one way"
+                           + (f", {r['conductors_in_parallel']} in parallel" if r["conductors_in_parallel"] > 1 else "")))
+        each = " per string" if r["copies"] > 1 else ""
+        lines.append(f"  current {_num(r['current_a'], 2, 'A')}{each}   loop R {_num(r['resistance_ohm'], 4, 'ohm')} "
+                     f"at {r['temp_c']:g} degC   circuit {_num(r['circuit_v'], 2, 'V')}")
+        flag = ""
+        if r["breaks_budget"]:
+            flag = "   OVER BUDGET"
+        lines.append(f"  drop {_num(r['drop_v'], 3, 'V')} ({_num(r['drop_pct'], 2)} %)   loss "
+                     f"{_num(r['loss_w'], 2, 'W')} ({_num(r['loss_pct'], 2)} % of {_num(r['power_w'], 1, 'W')})"
+                     + (f" over {r['copies']} strings" if r["copies"] > 1 else "") + flag)
+        if budget is not None:
+            if r["recommended_size"]:
+                lines.append(f"  smallest size within {budget:g} %: {r['recommended_size']}"
+                             + (f" ({r['size_note']})" if r["size_note"] else ""))
+            elif r["recommendation_note"]:
+                lines.append(f"  no size recommended: {r['recommendation_note']}")
+        if r["options"]:
+            lines.append("  this size and the next ones up:")
+            lines.extend(_options_table(r["options"]))
+    t = rec["total"]
+    lines.append(_rule("Total"))
+    lines.append(f"  cable loss {_num(t['loss_w'], 2, 'W')} ({_num(t['loss_pct'], 2)} % of the generated power)")
+    lines.append(f"  worst path, group {t['worst_path_group']} to the load: {_num(t['worst_path_drop_v'], 3, 'V')} "
+                 f"({_num(t['worst_path_drop_pct'], 2)} %)")
+    if budget is not None:
+        over = rec["over_budget"]
+        lines.append(f"  runs over the {budget:g} % budget: {', '.join(over) if over else 'none'}")
+    lines.append(render_cautions(cautions.WIRING))
+    return "\n".join(lines)
+
+
+def render_quick_wire(rec: dict) -> str:
+    """The readable result of ``pvsource wire`` without a system file."""
+    lines = [f"pvsource wiring: {rec['size']} {rec['material']}, {rec['length_m']:g} m one way "
+             f"(a {2 * rec['length_m']:g} m loop), {rec['current_a']:g} A at {rec['temp_c']:g} degC"
+             + (f", {rec['conductors_in_parallel']} in parallel" if rec["conductors_in_parallel"] > 1 else "")]
+    lines.append(f"  loop resistance {rec['resistance_ohm']:.5f} ohm   drop {rec['drop_v']:.3f} V"
+                 + (f" ({rec['drop_pct']:.2f} % of the circuit)" if rec["drop_pct"] is not None else "")
+                 + f"   loss {rec['loss_w']:.2f} W   metal {rec['mass_kg']:.2f} kg")
+    if "budget_pct" in rec:
+        if rec.get("recommended_size"):
+            lines.append(f"  smallest size within {rec['budget_pct']:g} %: {rec['recommended_size']}")
+        else:
+            lines.append(f"  no size recommended: {rec.get('recommendation_note', '')}")
+    if rec["options"]:
+        lines.append("  this size and the next ones up:")
+        lines.extend(_options_table(rec["options"], "    "))
+    lines.append(render_cautions(cautions.WIRING))
+    return "\n".join(lines)
+
+
+def render_checks(system: System, rec: dict) -> str:
+    """The readable table of ``pvsource check``."""
+    lines = [f"pvsource design checks: {system.name or system.source}", f"file        {system.source}",
+             f"site        record low {rec['min_air_c']:g} degC, record high {rec['max_air_c']:g} degC "
+             f"(cells {rec['cell_rise_c']:g} degC above the air in full sun)"]
+    lines.append(_rule("Checks"))
+    for c in rec["checks"]:
+        state = {True: "pass", False: "FAIL", None: "----"}[c["passed"]]
+        limit = "no limit given" if c["limit"] is None else f"{'<=' if c['sense'] == 'max' else '>='} " \
+                                                             f"{c['limit']:.2f} {c['unit']}"
+        margin = "" if c["margin"] is None else f"  margin {100 * c['margin']:+.1f} %"
+        lines.append(f"  [{state}] {c['name']}: {c['value']:.2f} {c['unit']} ({limit}){margin}")
+        lines.append(f"         {c['detail']}")
+        lines.append(f"         basis: {c['basis']}")
+    if rec["design_currents"]:
+        lines.append(_rule("Design currents of the PV-side runs (NEC 690.8)"))
+        for d in rec["design_currents"]:
+            rating = "no rating given" if d["ampacity_a"] is None else f"rating {d['ampacity_a']:g} A"
+            lines.append(f"  {d['run']:<24} circuit {d['circuit_current_a']:7.2f} A   conductor "
+                         f"{d['conductor_current_a']:7.2f} A   {rating}")
+    lines.append(render_cautions(cautions.WIRING))
     return "\n".join(lines)

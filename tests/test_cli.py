@@ -137,3 +137,83 @@ def test_readme_quick_start_has_exactly_two_commands():
     assert len(lines) == 2
     ci = (ROOT / ".ci" / "run").read_text()
     assert lines[1].strip() in ci  # CI runs the README's test command
+
+
+def test_wire_on_a_system_file_reports_every_run(capsys):
+    code, out, err = run(capsys, "wire", EXAMPLE, "--budget-pct", "3", "--json")
+    assert code == 0 and err == ""
+    rec = json.loads(out)
+    assert [r["name"] for r in rec["runs"]] == ["array to bank", "bank link"]
+    feeder = rec["runs"][0]
+    for key in ("current_a", "resistance_ohm", "drop_v", "drop_pct", "loss_w", "loss_pct", "recommended_size",
+                "options", "breaks_budget"):
+        assert key in feeder
+    assert feeder["breaks_budget"] is True and rec["over_budget"] == ["array to bank"]
+    assert rec["design_point"]["at_mpp"] is True and "STC" in rec["design_point"]["conditions"]
+    assert [o["size"] for o in feeder["options"]][:2] == ["6 mm2", "10 mm2"]
+    assert rec["cautions"]
+
+
+def test_wire_table_names_the_budget_and_the_cautions(capsys):
+    code, out, _ = run(capsys, "wire", TWO_FACES, "--budget-pct", "2", "--irradiance", "800", "--cell-temp", "40")
+    assert code == 0
+    assert "Total" in out and "worst path" in out and "DC arcs" in out
+
+
+def test_wire_one_run_json(capsys):
+    code, out, _ = run(capsys, "wire", "--current", "20", "--length-m", "15", "--size", "10 AWG",
+                       "--volts", "48", "--budget-pct", "2", "--json")
+    rec = json.loads(out)
+    assert code == 0
+    assert {"resistance_ohm", "drop_v", "drop_pct", "loss_w", "recommended_size"} <= set(rec)
+    # A 30 m loop of 10 AWG copper at 75 degC: 1.24 ohm/kft (NEC Ch. 9 Table 8, from memory).
+    assert rec["resistance_ohm"] == pytest.approx(1.24 * 30 / 304.8, rel=0.02)
+    assert rec["recommended_size"] == "4 AWG"
+
+
+@pytest.mark.parametrize("args, words", [
+    (["wire", "--current", "20", "--length-m", "15", "--size", "banana"], "accepted forms"),
+    (["wire", "--current", "20", "--length-m", "15", "--size", "12 furlongs"], "--size"),
+    (["wire", "--current", "20", "--length-m", "-15", "--size", "10 AWG"], "--length-m"),
+    (["wire", "--current", "20", "--length-m", "15", "--size", "10 AWG", "--material", "gold"], "--material"),
+    (["wire", "--current", "0", "--length-m", "15", "--size", "10 AWG", "--volts", "48", "--budget-pct", "2"],
+     "--current"),
+    (["wire", "--current", "20", "--length-m", "15"], "--size"),
+    (["wire", EXAMPLE, "--current", "20"], "--current"),
+    (["wire", EXAMPLE, "--budget-pct", "140"], "--budget-pct"),
+    (["check", EXAMPLE, "--max-temp", "40"], "--min-temp"),
+    (["check", EXAMPLE, "--min-temp", "30", "--max-temp", "20"], "--min-temp"),
+    (["check", EXAMPLE, "--min-temp", "nan", "--max-temp", "20"], "--min-temp"),
+])
+def test_bad_wiring_and_check_inputs_exit_2_with_one_line(capsys, args, words):
+    code, out, err = run(capsys, *args)
+    assert code == 2 and out == ""
+    assert err.count("\n") == 1 and words in err and "Traceback" not in err
+
+
+def test_check_json_lists_the_checks_with_their_basis(capsys):
+    code, out, _ = run(capsys, "check", EXAMPLE, "--min-temp", "-15", "--max-temp", "38", "--json")
+    rec = json.loads(out)
+    assert code == 0
+    names = [c["name"] for c in rec["checks"]]
+    assert names[0] == "max_string_voc"
+    for c in rec["checks"]:
+        assert {"name", "value", "limit", "unit", "passed", "basis"} <= set(c)
+        assert c["basis"]
+    voc = rec["checks"][0]
+    assert voc["value"] == pytest.approx(40.1 * (1 - 0.0029 * (-15 - 25)))
+    assert voc["passed"] is True
+    assert any(c["name"].startswith("conductor_current") and c["passed"] is False for c in rec["checks"])
+    assert rec["all_passed"] is False
+
+
+def test_check_without_a_load_or_controller_still_runs(capsys, tmp_path):
+    text = (DATA / "example-system.toml").read_text()
+    text = text.split("[controller]")[0]
+    path = tmp_path / "bare.toml"
+    path.write_text(text.replace('file = "modules/ashgrove-ag300.toml"',
+                                 f'file = "{(DATA / "modules" / "ashgrove-ag300.toml").as_posix()}"'))
+    code, out, _ = run(capsys, "check", str(path), "--min-temp", "-10", "--max-temp", "35", "--json")
+    rec = json.loads(out)
+    assert code == 0
+    assert rec["checks"][0]["limit"] is None and rec["checks"][0]["passed"] is None

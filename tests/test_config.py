@@ -138,3 +138,43 @@ def test_unreadable_files_are_refused_in_one_line(tmp_path, content, words):
 def test_a_missing_file_is_named(tmp_path):
     with pytest.raises(InputError, match="cannot be read"):
         load_system(tmp_path / "nowhere.toml")
+
+
+def test_cables_by_size_and_material(tmp_path):
+    text = GOOD.replace("resistance_ohm_per_km = 3.4", 'size = "4 AWG"\nmaterial = "aluminium"\ntemp_c = 50')
+    run = load_system(write(tmp_path, text)).cables[0]
+    # NEC Chapter 9 Table 8: 4 AWG aluminium 0.508 ohm/kft at 75 degC (from memory),
+    # corrected to 50 degC with the Table 8 note formula (alpha 0.00330).
+    expected_per_km = 0.508 / 0.3048 * (1 + 0.00330 * (50 - 75))
+    assert run.resistance_ohm_per_km == pytest.approx(expected_per_km, rel=0.02)
+    assert run.size.label == "4 AWG" and run.material == "aluminium"
+
+
+def test_a_given_resistance_wins_over_the_size(tmp_path):
+    text = GOOD.replace("resistance_ohm_per_km = 3.4", 'resistance_ohm_per_km = 3.4\nsize = "6 mm2"')
+    run = load_system(write(tmp_path, text)).cables[0]
+    assert run.resistance_ohm_per_km == 3.4 and run.size.label == "6 mm2"
+
+
+@pytest.mark.parametrize("edit, field, words", [
+    (("resistance_ohm_per_km = 3.4", 'size = "banana"'), "[[cable]] #1.size", "accepted forms"),
+    (("resistance_ohm_per_km = 3.4", 'size = "6 mm2"\nmaterial = "gold"'), "[[cable]] #1.material", "one of"),
+    (("resistance_ohm_per_km = 3.4", ""), "[[cable]] #1.size", "is missing"),
+    (("resistance_ohm_per_km = 3.4", 'size = "6 mm2"\nrole = "sideways"'), "[[cable]] #1.role", "one of"),
+    (("resistance_ohm_per_km = 3.4", 'size = "6 mm2"\nconductor_class = 3'), "[[cable]] #1.conductor_class",
+     "IEC 60228"),
+    (("resistance_ohm_per_km = 3.4", 'size = "6 mm2"\nampacity_a = -5'), "[[cable]] #1.ampacity_a", "greater"),
+])
+def test_bad_cable_tables(tmp_path, edit, field, words):
+    with pytest.raises(InputError) as exc:
+        load_system(write(tmp_path, GOOD.replace(*edit)))
+    assert exc.value.field == field and words in exc.value.expected
+
+
+def test_controller_limits(tmp_path):
+    system = load_system(write(tmp_path, GOOD + "\n[controller]\nmax_input_v = 150\nmin_input_v = 30\n"))
+    assert system.controller.max_input_v == 150 and system.controller.min_input_v == 30
+    with pytest.raises(InputError, match="below max_input_v"):
+        load_system(write(tmp_path, GOOD + "\n[controller]\nmax_input_v = 30\nmin_input_v = 150\n"))
+    with pytest.raises(InputError, match="unknown key"):
+        load_system(write(tmp_path, GOOD + "\n[controller]\nmax_input_volts = 30\n"))

@@ -1,0 +1,271 @@
+"""Each cable run at an operating point: current, drop, loss, and the sizes that meet a budget.
+
+The currents and voltages come from a solved operating point
+(:func:`pvsource.operating.operating_points`); this module only walks the
+circuit from the strings to the load and accounts for each run in turn.
+Runs of one role in one group are in series, in the order of the file.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from pvsource import conductors
+from pvsource.errors import InputError
+from pvsource.system import System
+from pvsource.wiring import CableRun
+
+OPTIONS_SHOWN = 3
+
+
+@dataclass(frozen=True)
+class RunFlow:
+    """One run at one operating point.
+
+    Attributes
+    ----------
+    run : CableRun
+    current_a : float
+        Current in each conductor loop of the run (one string's, for a string lead) [A].
+    circuit_v : float
+        Voltage at the run's source end, the one its drop is compared with [V].
+    resistance_ohm : float
+        Loop resistance of the run (one string's lead, for string leads) [ohm].
+    drop_v : float
+        Voltage drop along the run [V].
+    loss_w : float
+        Power lost in the run (all strings' leads together, for string leads) [W].
+    power_w : float
+        Power entering the run (all strings together, for string leads) [W].
+    copies : int
+        Identical loops the run stands for (the strings of the group, for string leads).
+    """
+
+    run: CableRun
+    current_a: float
+    circuit_v: float
+    resistance_ohm: float
+    drop_v: float
+    loss_w: float
+    power_w: float
+    copies: int = 1
+
+    @property
+    def drop_fraction(self) -> float:
+        return abs(self.drop_v) / self.circuit_v if self.circuit_v > 0 else float("nan")
+
+    @property
+    def loss_fraction(self) -> float:
+        return self.loss_w / self.power_w if self.power_w > 0 else float("nan")
+
+
+def run_flows(system: System, row) -> list[RunFlow]:
+    """Walk the circuit at one solved operating point (a row of ``operating_points``).
+
+    Returns the runs in file order.
+    """
+    flows: dict[int, RunFlow] = {}
+    runs = list(enumerate(system.cables))
+    for g in system.groups:
+        v = float(row[f"group_{g.name}_v"])
+        j = float(row[f"group_{g.name}_i_a"])
+        for role, current, copies in (("string", j / g.strings, g.strings), ("home-run", j, 1)):
+            for k, run in runs:
+                if run.role == role and run.group == g.name:
+                    r = run.loop_resistance_ohm
+                    drop = current * r
+                    flows[k] = RunFlow(run, current, v, r, drop, copies * current * drop, copies * v * current,
+                                       copies)
+                    v -= drop
+    i = float(row["i"])
+    v = float(row["v"])
+    for role in ("feeder", "bank", "interconnect"):
+        for k, run in runs:
+            if run.role == role:
+                r = run.loop_resistance_ohm
+                drop = i * r
+                flows[k] = RunFlow(run, i, v, r, drop, i * drop, v * i)
+                v -= drop
+    return [flows[k] for k, _ in runs]
+
+
+def path_drops(system: System, flows: list[RunFlow]) -> dict[str, float]:
+    """Total drop from each group's string terminals to the load [V]."""
+    load_side = sum(f.drop_v for f in flows if f.run.group is None)
+    return {g.name: load_side + sum(f.drop_v for f in flows if f.run.group == g.name) for g in system.groups}
+
+
+@dataclass(frozen=True)
+class SizeOption:
+    """The same run in another conductor size."""
+
+    size: conductors.ConductorSize
+    resistance_ohm: float
+    drop_v: float
+    drop_fraction: float
+    loss_w: float
+    loss_fraction: float
+    mass_kg: float
+
+
+def size_options(flow: RunFlow, count: int = OPTIONS_SHOWN) -> list[SizeOption]:
+    """The run in its own size and the next ``count`` standard sizes up, at the same current."""
+    run = flow.run
+    if run.size is None:
+        return []
+    sizes = [run.size] + conductors.next_sizes_up(run.size, count)
+    areas = [s.area_mm2 for s in sizes]
+    r = np.atleast_1d(conductors.loop_resistance_ohm(run.length_m, areas, run.material, run.temp_c,
+                                                     run.conductors_in_parallel, conductor_class=run.conductor_class))
+    mass = np.atleast_1d(conductors.conductor_mass_kg(run.length_m, areas, run.material, run.conductors_in_parallel,
+                                                      stranded=run.conductor_class != 1)) * flow.copies
+    out = []
+    for s, rk, mk in zip(sizes, r, mass):
+        drop = flow.current_a * rk
+        loss = flow.copies * flow.current_a * drop
+        out.append(SizeOption(s, float(rk), float(drop), abs(drop) / flow.circuit_v if flow.circuit_v > 0 else np.nan,
+                              float(loss), loss / flow.power_w if flow.power_w > 0 else np.nan, float(mk)))
+    return out
+
+
+def recommend_size(flow: RunFlow, budget_fraction: float):
+    """Smallest standard size in the run's own series whose drop is within the budget.
+
+    Returns
+    -------
+    ConductorSize or None
+        None when the run has no size (given as resistance per km) or carries
+        no current.
+
+    Raises
+    ------
+    InputError
+        When no size in the series meets the budget.
+    """
+    run = flow.run
+    if run.size is None or flow.current_a <= 0 or flow.circuit_v <= 0:
+        return None
+    try:
+        return conductors.smallest_size_meeting(
+            abs(flow.current_a), run.length_m, flow.circuit_v, budget_fraction, series=run.size.series,
+            material=run.material, temp_c=run.temp_c, conductors_in_parallel=run.conductors_in_parallel,
+            conductor_class=run.conductor_class)
+    except InputError as exc:
+        raise InputError(run.name, None, exc.expected) from None
+
+
+def _option_record(opt: SizeOption) -> dict:
+    return {"size": opt.size.label, "resistance_ohm": opt.resistance_ohm, "drop_v": opt.drop_v,
+            "drop_pct": 100.0 * opt.drop_fraction, "loss_w": opt.loss_w, "loss_pct": 100.0 * opt.loss_fraction,
+            "mass_kg": opt.mass_kg}
+
+
+def _recommendation(flow: RunFlow, budget_fraction):
+    """(label or None, note) for a run and a budget."""
+    if budget_fraction is None:
+        return None, ""
+    if flow.run.size is None:
+        return None, "no size given (resistance per km only), so no size series to choose from"
+    try:
+        size = recommend_size(flow, budget_fraction)
+    except InputError as exc:
+        return None, exc.expected
+    if size is None:
+        return None, "no current flows at the design point"
+    return size.label, ""
+
+
+def wire_record(system: System, row, budget_fraction=None) -> dict:
+    """Every run at one operating point, the total, and sizes that meet a budget (JSON-ready)."""
+    flows = run_flows(system, row)
+    runs = []
+    for f in flows:
+        rec_size, note = _recommendation(f, budget_fraction)
+        breaks = None if budget_fraction is None else bool(f.drop_fraction > budget_fraction)
+        size_note = ""
+        if rec_size and f.run.size and conductors.parse_size(rec_size).area_mm2 < f.run.size.area_mm2:
+            size_note = (f"smaller than the chosen {f.run.size.label}: voltage drop allows it, "
+                         "but only the conductor's ampacity and its protection can")
+        runs.append({
+            "name": f.run.name, "role": f.run.role, "group": f.run.group,
+            "size": f.run.size.label if f.run.size else None, "material": f.run.material,
+            "length_m": f.run.length_m, "conductors_in_parallel": f.run.conductors_in_parallel,
+            "temp_c": f.run.temp_c, "copies": f.copies,
+            "current_a": f.current_a, "resistance_ohm": f.resistance_ohm, "circuit_v": f.circuit_v,
+            "drop_v": f.drop_v, "drop_pct": 100.0 * f.drop_fraction,
+            "loss_w": f.loss_w, "loss_pct": 100.0 * f.loss_fraction, "power_w": f.power_w,
+            "breaks_budget": breaks, "recommended_size": rec_size, "recommendation_note": note,
+            "size_note": size_note,
+            "options": [_option_record(o) for o in size_options(f)],
+        })
+    drops = path_drops(system, flows)
+    generated = float(row["generated_w"])
+    worst = max(drops, key=lambda k: drops[k] / max(float(row[f"group_{k}_v"]), 1e-12))
+    worst_pct = 100.0 * drops[worst] / float(row[f"group_{worst}_v"]) if float(row[f"group_{worst}_v"]) > 0 else None
+    return {
+        "runs": runs,
+        "total": {"loss_w": float(row["cable_loss_w"]),
+                  "loss_pct": 100.0 * float(row["cable_loss_w"]) / generated if generated > 0 else None,
+                  "worst_path_group": worst, "worst_path_drop_v": drops[worst], "worst_path_drop_pct": worst_pct},
+        "budget_pct": None if budget_fraction is None else 100.0 * budget_fraction,
+        "over_budget": [] if budget_fraction is None else [r["name"] for r in runs if r["breaks_budget"]],
+    }
+
+
+def quick_record(current_a: float, length_m: float, size_text: str, material: str = "copper",
+                 temp_c: float = conductors.DEFAULT_CONDUCTOR_TEMP_C, volts: float | None = None,
+                 budget_fraction: float | None = None, conductors_in_parallel: int = 1,
+                 conductor_class: int = 2) -> dict:
+    """One two-conductor DC run from its current, one-way length and size (JSON-ready).
+
+    Raises
+    ------
+    InputError
+        Naming the option at fault.
+    """
+    size = conductors.parse_size(size_text, where="--size")
+    mat = conductors.material_properties(material, where="--material").name
+    if not np.isfinite(current_a):
+        raise InputError("--current", None, f"expected a finite current in A, got {current_a!r}")
+    if not np.isfinite(length_m) or length_m <= 0:
+        raise InputError("--length-m", None, f"expected a one-way length above 0 m, got {length_m!r}")
+    if volts is not None and (not np.isfinite(volts) or volts <= 0):
+        raise InputError("--volts", None, f"expected a circuit voltage above 0 V, got {volts!r}")
+    if budget_fraction is not None:
+        if not (np.isfinite(budget_fraction) and 0 < budget_fraction < 1):
+            raise InputError("--budget-pct", None, f"expected a percentage between 0 and 100, "
+                                                   f"got {100 * budget_fraction!r}")
+        if volts is None:
+            raise InputError("--budget-pct", None, "needs --volts: a drop budget is a share of the circuit voltage")
+        if current_a <= 0:
+            raise InputError("--current", None, f"a budget needs a current above 0 A, got {current_a!r}")
+    if not np.isfinite(temp_c) or not -60.0 <= temp_c <= 250.0:
+        raise InputError("--temp-c", None, f"expected a conductor temperature from -60 to 250 degC, got {temp_c!r}")
+    if int(conductors_in_parallel) != conductors_in_parallel or conductors_in_parallel < 1:
+        raise InputError("--parallel", None, f"expected a whole number of conductors, 1 or more, "
+                                             f"got {conductors_in_parallel!r}")
+    r_km = 1000.0 * float(conductors.resistance_per_m_ohm(size.area_mm2, mat, temp_c, conductor_class=conductor_class))
+    run = CableRun("run", "feeder", length_m, r_km, conductors_in_parallel=int(conductors_in_parallel), size=size,
+                   material=mat, temp_c=temp_c, conductor_class=conductor_class)
+    r = run.loop_resistance_ohm
+    drop = current_a * r
+    flow = RunFlow(run, current_a, volts if volts else float("nan"), r, drop, current_a * drop,
+                   current_a * volts if volts else float("nan"))
+    rec_size, note = _recommendation(flow, budget_fraction)
+    rec = {
+        "current_a": current_a, "length_m": length_m, "size": size.label, "material": mat, "temp_c": temp_c,
+        "conductors_in_parallel": conductors_in_parallel, "resistance_ohm": r, "drop_v": drop,
+        "drop_pct": 100.0 * abs(drop) / volts if volts else None, "loss_w": current_a * drop,
+        "loss_pct": 100.0 * abs(drop) / volts if volts else None,
+        "mass_kg": float(conductors.conductor_mass_kg(length_m, size.area_mm2, mat, conductors_in_parallel,
+                                                      stranded=conductor_class != 1)),
+        "options": [_option_record(o) for o in size_options(flow)],
+    }
+    if budget_fraction is not None:
+        rec.update({"budget_pct": 100.0 * budget_fraction, "recommended_size": rec_size,
+                    "breaks_budget": bool(abs(drop) / volts > budget_fraction)})
+        if note:
+            rec["recommendation_note"] = note
+    return rec
