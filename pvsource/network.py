@@ -107,6 +107,7 @@ class _Prepared:
     """
 
     i_l: np.ndarray
+    i_o: np.ndarray
     i_l_plus_i_o: np.ndarray
     i_o_over_a: np.ndarray
     a: np.ndarray
@@ -126,7 +127,7 @@ class _Prepared:
         with np.errstate(divide="ignore"):
             g_sh = 1.0 / t(st.r_sh_ohm)
         return cls(
-            i_l=i_l, i_l_plus_i_o=i_l + i_o, i_o_over_a=i_o / a, a=a, inv_a=1.0 / a, g_sh=g_sh,
+            i_l=i_l, i_o=i_o, i_l_plus_i_o=i_l + i_o, i_o_over_a=i_o / a, a=a, inv_a=1.0 / a, g_sh=g_sh,
             rt=t(net.series_resistance_ohm), x_oc=t(diode_voltage_upper_bound(st)),
             n_s=np.asarray(net.n_series, float)[:, None], n_p=np.asarray(net.n_parallel, float)[:, None],
         )
@@ -141,13 +142,60 @@ class _Prepared:
         """Upper bound of the open-circuit bus voltage, (M,) [V]."""
         return np.max(self.n_s * self.x_oc, axis=0)
 
-    def x_cap(self, v_max):
-        """Diode voltages at which each group's bus voltage is at least ``v_max``.
+    def x_at(self, v):
+        """Diode voltages that put each group near bus voltage ``v`` (M,): a start, not a solution.
 
-        Above a*ln(1 + I_L/I_0) the module current is not positive, and then
-        F(x) >= n_s x; so max(that bound, v_max / n_s) works.
+        Each string's current is estimated from its ideal-diode curve,
+        I ~ I_L (1 - exp((V - n_s x_oc) / (n_s a))), and x = (V + I R_t) / n_s.
         """
-        return np.maximum(self.x_oc, v_max / self.n_s)
+        with np.errstate(over="ignore"):
+            i = self.i_l * -np.expm1(np.minimum((v - self.n_s * self.x_oc) / (self.n_s * self.a), 50.0))
+        return (v + i * self.rt) / self.n_s
+
+    def open_circuit_estimate(self):
+        """The array's open-circuit bus voltage for ideal diodes, (M,) [V].
+
+        With I_g = I_L (1 - exp((V - Voc_g) / s)), zero total current gives
+        V = -s ln(sum w_g exp(-Voc_g / s)): a soft minimum of the groups'
+        open-circuit voltages, weighted by their currents w_g.
+        """
+        w = self.n_p * self.i_l
+        total = _gsum(w)
+        lit = total > 0.0
+        share = w / np.where(lit, total, 1.0)
+        scale = _gsum(share * self.n_s * self.a)
+        voc = self.n_s * self.x_oc
+        top = voc.max(axis=0)
+        with np.errstate(divide="ignore", over="ignore"):
+            v = top - scale * np.log(_gsum(share * np.exp(np.minimum((top - voc) / scale, 700.0))))
+        return np.where(lit, np.clip(v, voc.min(axis=0), top), 0.0)
+
+    def x_cap(self, v_max, load_back_a=0.0, stiff_v=None):
+        """Upper bounds on each group's diode voltage at the solution, (G, M) [V].
+
+        Two bounds, both valid, and the tighter is kept:
+
+        - above max(a ln(1 + I_L/I_0), v_max / n_s) a string's current is not
+          positive and its bus voltage exceeds ``v_max``;
+        - the current driven back into a string is limited by what the rest
+          of the network can push: the other groups (at most n_p (I_L + I_0)
+          each while the bus is not negative) plus ``load_back_a`` from the
+          load; or, on a stiff bus at ``stiff_v``, stiff_v / R_t per string.
+          The diode voltage at which that current flows backwards is
+          a ln((I_L + I_0 + back) / I_0).
+
+        Without the second bound a short string paralleled with a long one, or
+        a bank far above Voc, would start Newton hundreds of volts to the right
+        of the solution, from where it walks back only about ``a`` per step.
+        """
+        cap = np.maximum(self.x_oc, v_max / self.n_s)
+        supply = self.n_p * (self.i_l + self.i_o)
+        back = (_gsum(supply) - supply + load_back_a) / self.n_p
+        with np.errstate(divide="ignore", invalid="ignore"):
+            if stiff_v is not None:
+                back = np.where(np.isfinite(stiff_v), np.maximum(stiff_v, 0.0) / self.rt, back)
+            cap_current = self.a * np.log((self.i_l + self.i_o + back) / self.i_o)
+        return np.minimum(cap, np.where(np.isnan(cap_current), cap, cap_current))
 
 
 def _evaluate(p: _Prepared, x, second=False):
@@ -317,7 +365,9 @@ def solve_thevenin(net: Network, emf_v, r_ohm, x0_v=None) -> Solution:
     with np.errstate(divide="ignore"):
         g_load = np.where(fixed, 0.0, 1.0 / r)
     v_oc = p.v_oc_bound
-    x_hi = p.x_cap(np.maximum(v_oc, emf))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        load_back = np.where(fixed | ~np.isfinite(r), 0.0, np.maximum(emf, 0.0) / r)
+    x_hi = p.x_cap(np.maximum(v_oc, emf), load_back, np.where(fixed, emf, np.nan))
     if x0_v is None:
         # Current-source estimate: every string near I_L, so V ~ E + R sum(I_L),
         # never above the open-circuit bound.
@@ -325,6 +375,11 @@ def solve_thevenin(net: Network, emf_v, r_ohm, x0_v=None) -> Solution:
             v0 = np.minimum(emf + r * _gsum(p.n_p * p.i_l), v_oc)
         v0 = np.where(fixed, emf, np.where(np.isfinite(v0), v0, v_oc))
         x = np.minimum((v0 + p.i_l * p.rt) / p.n_s, p.x_oc)
+        open_ = ~np.isfinite(r)
+        if open_.any() and p.n_s.shape[0] > 1:
+            # Mismatched groups settle near the soft minimum of their Vocs.
+            x = np.where(open_, np.minimum(p.x_at(p.open_circuit_estimate()), x_hi), x)
+
     else:
         x = np.minimum(np.asarray(x0_v, float).reshape(m, -1).T, x_hi)
     v = np.empty(m)
@@ -343,16 +398,17 @@ def solve_thevenin(net: Network, emf_v, r_ohm, x0_v=None) -> Solution:
     return _result(net, x, v, converged, iterations)
 
 
-def solve_at_bus_voltage(net: Network, bus_v, x0_v=None) -> Solution:
+def solve_at_bus_voltage(net: Network, bus_v, x0_v=None, relative_tolerance=RELATIVE_TOLERANCE) -> Solution:
     """Diode voltages that put every group at the given bus voltage.
 
     Each group's F(x) is convex and rising, so Newton from the right cannot
     overshoot, and from the left it lands on the right after one step (capped).
+    ``relative_tolerance`` may be loosened where fewer digits are needed.
     """
     p = net.prepared
     m = p.i_l.shape[1]
     v = _flat(bus_v, m)
-    x_hi = p.x_cap(np.maximum(v, p.v_oc_bound))
+    x_hi = p.x_cap(np.maximum(v, p.v_oc_bound), 0.0, v)
     if x0_v is None:
         x = np.minimum((v + p.i_l * p.rt) / p.n_s, x_hi)
     else:
@@ -363,7 +419,7 @@ def solve_at_bus_voltage(net: Network, bus_v, x0_v=None) -> Solution:
         vs = v[idx]
         resid = vs - bus
         x[:, idx] = np.minimum(x[:, idx] + resid / dbus, x_hi[:, idx])
-        return _gall(np.abs(resid) <= _tolerance(vs))
+        return _gall(np.abs(resid) <= relative_tolerance * np.abs(vs) + ABSOLUTE_TOLERANCE_V)
 
     converged, iterations = _iterate(p, step)
     return _result(net, x, v, converged, iterations)
@@ -376,7 +432,8 @@ def _power_slope(i, di, d2i, v, r_f):
     return slope, curvature
 
 
-def solve_max_power(net: Network, r_feeder_ohm=0.0, open_circuit: Solution | None = None) -> Solution:
+def solve_max_power(net: Network, r_feeder_ohm=0.0, open_circuit: Solution | None = None,
+                    x0_v=None, relative_tolerance=RELATIVE_TOLERANCE) -> Solution:
     """Bus voltage that maximises the power delivered through the feeder.
 
     This is what a maximum-power tracker at the far end of the feeder does:
@@ -394,6 +451,12 @@ def solve_max_power(net: Network, r_feeder_ohm=0.0, open_circuit: Solution | Non
         Loop resistance between the bus and the load [ohm].
     open_circuit : Solution, optional
         The network's open-circuit solution, if already known.
+    x0_v : array (N, G), optional
+        Starting diode voltages (each group's own MPP is a good start); by
+        default the ideal-diode estimate x_oc - a ln(1 + x_oc / a).
+    relative_tolerance : float
+        On the bus voltage. Power is flat at its maximum, so 1e-6 still gives
+        P to about 1e-12; the matching ratio needs the default.
     """
     oc = open_circuit if open_circuit is not None else solve_thevenin(net, 0.0, np.inf)
     p = net.prepared
@@ -405,11 +468,22 @@ def solve_max_power(net: Network, r_feeder_ohm=0.0, open_circuit: Solution | Non
     hi = np.where(lit, v_oc, 0.0)
     x_oc = np.ascontiguousarray(oc.x_v.reshape(m, -1).T)
     # Ideal-diode MPP: exp(x/a)(1 + x/a) = I_L/I_0 + 1, so x_mp ~ x_oc - a ln(1 + x_oc/a).
-    x = np.where(lit, x_oc - p.a * np.log1p(np.maximum(x_oc, 0.0) * p.inv_a), x_oc)
-    bus, _, j, _ = _evaluate(p, x)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        v = np.where(lit, _gsum(j * bus) / _gsum(j), 0.0)
-    v = np.clip(np.nan_to_num(v), lo, hi)
+    if x0_v is None:
+        # The array as one ideal diode of the current-weighted scale s:
+        # Vmp ~ Voc - s ln(1 + Voc / s); every group starts at that voltage.
+        w = p.n_p * p.i_l
+        total = _gsum(w)
+        s_scale = _gsum(w * p.n_s * p.a) / np.where(total > 0, total, 1.0)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            v = np.where(lit, v_oc - s_scale * np.log1p(v_oc / s_scale), 0.0)
+        v = np.clip(np.nan_to_num(v), lo, hi)
+        x = np.where(lit, np.minimum(p.x_at(v), x_oc + 50.0 * p.a), x_oc)
+    else:
+        x = np.where(lit, np.minimum(np.asarray(x0_v, float).reshape(m, -1).T, x_oc), x_oc)
+        bus, _, j, _ = _evaluate(p, x)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            v = np.where(lit, _gsum(j * bus) / _gsum(j), 0.0)
+        v = np.clip(np.nan_to_num(v), lo, hi)
     x_hi = p.x_cap(hi)
 
     def step(q, idx):
@@ -420,7 +494,7 @@ def solve_max_power(net: Network, r_feeder_ohm=0.0, open_circuit: Solution | Non
         di = _gsum(d2j * dv - cond)
         d2i = _gsum(d2j)
         slope, curvature = _power_slope(i, di, d2i, vs, rf)
-        tol = _tolerance(vs)
+        tol = relative_tolerance * np.abs(vs) + ABSOLUTE_TOLERANCE_V
         # The bracket only trusts a slope taken with every group at V.
         consistent = _gall(np.abs(dv) <= 1e-6 * (np.abs(vs) + 1.0))
         los = np.where(consistent & (slope > 0), vs, los)
