@@ -272,6 +272,15 @@ def validate_datasheet(ds: Datasheet, where: str = "datasheet", prefix: str = ""
         )
     ff = ds.fill_factor
     ff_max = float(ideal_fill_factor(ds.v_oc, ds.cells_in_series))
+    if ff >= ff_max and ds.v_oc / ds.cells_in_series < 0.5:
+        # Half-cut modules wire two halves in parallel: counting every half
+        # cell doubles the cells in series and halves the voltage per cell.
+        raise InputError(
+            where, f("cells_in_series"),
+            f"fill factor {ff:.3f} exceeds the ideal-cell limit {ff_max:.3f} for {ds.cells_in_series} cells in "
+            f"series ({ds.v_oc / ds.cells_in_series:.3f} V per cell); for half-cut modules give the cells in "
+            "series of one half (e.g. 72 for 144 half cells)",
+        )
     if not FILL_FACTOR_MIN <= ff < ff_max:
         raise InputError(
             where, f("v_mp"),
@@ -291,6 +300,17 @@ def validate_parameters(p: DiodeParameters, where: str = "module", prefix: str =
             raise InputError(where, f"{prefix}{name}", f"expected a finite number, got {value!r}")
     if p.r_s_ohm < 0:
         raise InputError(where, f"{prefix}r_s_ohm", f"must not be negative, got {p.r_s_ohm:g}")
+    if not 0.5 <= p.eg_ref_ev <= 3.5:
+        raise InputError(where, f"{prefix}eg_ref_ev", f"expected a band gap of 0.5-3.5 eV, got {p.eg_ref_ev:g}")
+    if not -0.005 <= p.degdt_per_c <= 0.005:
+        raise InputError(where, f"{prefix}degdt_per_c",
+                         f"expected a relative band-gap slope within +/-0.005 /degC (silicon: -0.0002677), "
+                         f"got {p.degdt_per_c:g}")
+    lo, hi = ISC_COEFF_RANGE_PCT
+    alpha_pct = 100.0 * p.alpha_sc_a_per_c / p.i_l_ref_a
+    if not lo <= alpha_pct <= hi:
+        raise InputError(where, f"{prefix}alpha_sc_a_per_c",
+                         f"is {alpha_pct:.3g} %/degC of i_l_ref_a; expected {lo} to {hi} %/degC")
     if p.i_o_ref_a >= p.i_l_ref_a:
         raise InputError(where, f"{prefix}i_o_ref_a", "must be far below i_l_ref_a (no open-circuit voltage otherwise)")
     per_cell = p.a_ref_v / p.cells_in_series / (BOLTZMANN_OVER_Q_V_PER_K * (STC_CELL_TEMP_C + 273.15))
@@ -330,8 +350,9 @@ def fit_datasheet(ds: Datasheet, where: str = "datasheet") -> Module:
     The explicit method of Batzelis and Papathanassiou [2]_
     (:func:`pvlib.ivtools.sdm.fit_desoto_batzelis`) never fails and starts the
     full De Soto fit (:func:`pvlib.ivtools.sdm.fit_desoto`). If the full fit
-    fails, gives non-physical parameters, or reproduces the datasheet worse
-    than the estimate, the estimate is kept and the report says so.
+    fails, gives non-physical parameters, or misses any datasheet point by
+    more than :data:`FULL_FIT_TOLERANCE`, the estimate is kept and the report
+    says so.
 
     Parameters
     ----------
@@ -378,7 +399,7 @@ def fit_datasheet(ds: Datasheet, where: str = "datasheet") -> Module:
         if not np.isfinite(worst) or worst > FULL_FIT_TOLERANCE:
             reason = f"the full De Soto fit reproduces the datasheet only to {worst:.2%}"
     except (RuntimeError, InputError, ValueError, FloatingPointError) as exc:
-        reason = f"the full De Soto fit failed ({' '.join(str(exc).split())[:120]})"
+        reason = f"the full De Soto fit failed ({' '.join(str(exc).split())})"
 
     if reason:
         return Module(
@@ -399,10 +420,29 @@ def fit_datasheet(ds: Datasheet, where: str = "datasheet") -> Module:
 
 
 def module_from_parameters(p: DiodeParameters, where: str = "module", name: str = "") -> Module:
-    """A module from explicit single-diode parameters, with its STC points."""
+    """A module from explicit single-diode parameters, with its STC points.
+
+    The parameters must describe a plausible module at STC: the same
+    per-cell Voc and fill-factor limits as a datasheet.
+    """
     validate_parameters(p, where, prefix="[module].")
-    return Module(parameters=p, fit=FitReport("given", "single-diode parameters entered directly", _stc_points(p)),
-                  name=name)
+    stc = _stc_points(p)
+    per_cell = stc["v_oc"] / p.cells_in_series
+    lo, hi = VOC_PER_CELL_RANGE_V
+    if not lo <= per_cell <= hi and p.i_l_ref_a * p.r_sh_ref_ohm < lo * p.cells_in_series:
+        raise InputError(where, "[module].r_sh_ref_ohm",
+                         f"a shunt of {p.r_sh_ref_ohm:g} ohm holds Voc at {stc['v_oc']:.3g} V; "
+                         f"expected {lo}-{hi} V per cell")
+    if not lo <= per_cell <= hi:
+        raise InputError(where, "[module].i_o_ref_a",
+                         f"the parameters give Voc {stc['v_oc']:.3g} V at STC, {per_cell:.3f} V per cell; "
+                         f"expected {lo}-{hi} V per cell (check i_o_ref_a, a_ref_v and cells_in_series)")
+    ff = stc["p_mp"] / (stc["v_oc"] * stc["i_sc"])
+    if ff < FILL_FACTOR_MIN or stc["i_sc"] < 0.5 * p.i_l_ref_a:
+        raise InputError(where, "[module].r_sh_ref_ohm",
+                         f"the parameters give a fill factor of {ff:.2f} and Isc {stc['i_sc']:.3g} A at STC; "
+                         f"no working module is that poor (check r_s_ohm and r_sh_ref_ohm)")
+    return Module(parameters=p, fit=FitReport("given", "single-diode parameters entered directly", stc), name=name)
 
 
 # ---------------------------------------------------------------- conditions
@@ -470,3 +510,98 @@ def diode_voltage_upper_bound(state: DiodeState):
     which ignores the shunt and so bounds the true Voc from above.
     """
     return singlediode.estimate_voc(state.i_l_a, state.i_o_a, state.a_v)
+
+
+KEY_POINT_ITERATIONS = 60
+# A Newton step below this (relative) means the one just taken left an error
+# of about its square: 1e-14.
+KEY_POINT_TOLERANCE_V = 1e-7
+
+
+def key_points(state: DiodeState):
+    """Voc, Isc, Vmp and Imp of one module at each condition.
+
+    The same numbers as :func:`pvlib.pvsystem.singlediode` (and checked
+    against it in the tests), computed in the diode-voltage form with a few
+    Newton steps each, several times faster on large arrays: the season study
+    and the operating-point pipeline need them for every condition.
+
+    - Voc: I(x) = 0, Newton from the upper bound a ln(1 + I_L/I_0); I is
+      concave and falling, so the iterates fall monotonically to the root.
+    - Isc: x = I(x) R_s, Newton from x = I_L R_s, which lies right of the
+      root of this convex, rising function.
+    - MPP: dP/dx = 0 with P = (x - I R_s) I, Newton safeguarded by
+      bisection in [0, x_oc], started at the ideal-diode estimate
+      x_oc - a ln(1 + x_oc / a).
+
+    Parameters
+    ----------
+    state : DiodeState
+
+    Returns
+    -------
+    dict of arrays
+        ``v_oc``, ``i_sc``, ``v_mp``, ``i_mp``, ``p_mp`` [V, A, W], and
+        ``converged`` (bool).
+    """
+    shape = np.broadcast_shapes(*(np.shape(getattr(state, k)) for k in state.__dataclass_fields__))
+    il, io, rs, rsh, a = (np.broadcast_to(getattr(state, k), shape).astype(float)
+                          for k in state.__dataclass_fields__)
+    with np.errstate(divide="ignore"):
+        g = 1.0 / rsh
+    inv_a = 1.0 / a
+    io_a = io * inv_a
+    lit = il > 0.0
+
+    def current(x):
+        e = io_a * np.exp(x * inv_a)
+        return il + io - a * e - x * g, -(e + g), -e * inv_a
+
+    converged = np.ones(shape, bool)
+    # Voc
+    x = np.where(lit, diode_voltage_upper_bound(state), 0.0)
+    for _ in range(KEY_POINT_ITERATIONS):
+        i, di, _ = current(x)
+        step = i / di
+        x = x - step
+        if np.all(np.abs(step) <= KEY_POINT_TOLERANCE_V * (1.0 + np.abs(x))):
+            break
+    else:
+        converged &= np.abs(step) <= 1e-9 * (1.0 + np.abs(x))
+    x_oc = np.where(lit, x, 0.0)
+    # Isc
+    x = il * rs
+    for _ in range(KEY_POINT_ITERATIONS):
+        i, di, _ = current(x)
+        step = (x - i * rs) / (1.0 - di * rs)
+        x = x - step
+        if np.all(np.abs(step) <= KEY_POINT_TOLERANCE_V * (1.0 + np.abs(x))):
+            break
+    else:
+        converged &= np.abs(step) <= 1e-9 * (1.0 + np.abs(x))
+    i_sc = np.where(lit, current(x)[0], 0.0)
+    # MPP
+    lo, hi = np.zeros(shape), x_oc.copy()
+    x = np.where(lit, x_oc - a * np.log1p(np.maximum(x_oc, 0.0) * inv_a), 0.0)
+    for _ in range(KEY_POINT_ITERATIONS):
+        i, di, d2i = current(x)
+        v = x - i * rs
+        dv = 1.0 - di * rs
+        slope = dv * i + v * di
+        curvature = -d2i * rs * i + 2.0 * dv * di + v * d2i
+        lo = np.where(slope > 0, x, lo)
+        hi = np.where(slope > 0, hi, x)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            newton = x - slope / curvature
+        ok = (curvature < 0) & (newton >= lo) & (newton <= hi)
+        x_new = np.where(lit, np.where(ok, newton, 0.5 * (lo + hi)), 0.0)
+        done = np.abs(x_new - x) <= KEY_POINT_TOLERANCE_V * (1.0 + np.abs(x))
+        x = x_new
+        if np.all(done):
+            break
+    else:
+        converged &= done
+    i_mp, _, _ = current(x)
+    v_mp = np.where(lit, x - i_mp * rs, 0.0)
+    i_mp = np.where(lit, i_mp, 0.0)
+    return {"v_oc": x_oc, "i_sc": i_sc, "v_mp": v_mp, "i_mp": i_mp, "p_mp": v_mp * i_mp, "converged": converged}
