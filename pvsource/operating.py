@@ -16,8 +16,10 @@ Conventions
   directly, no cables, at the same conditions.
 - ``generated_w`` is the power the modules produce; ``efficiency`` is
   ``delivered_w / generated_w`` and ``cable_loss_w`` their difference.
-- ``mpp_shortfall_w`` is ``source_p_mp - generated_w``: the power left on the
-  curve by working away from the maximum power point.
+- ``mpp_shortfall_w`` is ``groups_p_mp_w - generated_w``: the power left on
+  the curves, with ``groups_p_mp_w`` the sum of each group's own maximum
+  power. ``parallel_mismatch_w = groups_p_mp_w - source_p_mp`` is what joining
+  mismatched groups directly would cost. One group: both references agree.
 """
 
 from __future__ import annotations
@@ -27,14 +29,21 @@ import pandas as pd
 
 from pvsource import linear
 from pvsource.errors import ConvergenceError, InputError, PhysicsGuardError
-from pvsource.module import parameters_at
+from pvsource.module import key_points, parameters_at
 from pvsource.network import (
-    Network, evaluate_groups, solve_at_bus_voltage, solve_max_power, solve_thevenin,
+    Network, Solution, evaluate_groups, solve_at_bus_voltage, solve_max_power, solve_thevenin,
 )
 from pvsource.system import System
 
 CHUNK_SIZE = 8192
 DRIFT_FRACTION = 0.10
+# The drift is reported as a fraction to a few digits; its two extra solves
+# need not reach the operating point's precision (the step after the check
+# squares a 1e-4 residual to about 1e-8).
+DRIFT_TOLERANCE = 1e-4
+# The ideal array's MPP is reported, not operated at: P is flat there, and
+# the Newton step after the check brings V well inside 1e-5.
+SOURCE_MPP_TOLERANCE = 1e-5
 ENERGY_BALANCE_TOLERANCE = 1e-9
 IRRADIANCE_RANGE_W_M2 = (0.0, 2000.0)
 CELL_TEMP_RANGE_C = (-60.0, 120.0)
@@ -46,7 +55,8 @@ def _condition_array(system: System, value, name: str, attr: str, valid: tuple[f
     if value is None:
         missing = [g.name for g in groups if getattr(g, attr) is None]
         if missing:
-            raise InputError(name, None, f"no value given, and the system file gives none for group {missing[0]!r}")
+            raise InputError(system.source or name, f"group {missing[0]!r}",
+                             f"has no {attr}, and none was given in the call")
         value = [getattr(g, attr) for g in groups]
         arr = np.asarray(value, float)[None, :]
     elif isinstance(value, dict):
@@ -58,8 +68,15 @@ def _condition_array(system: System, value, name: str, attr: str, valid: tuple[f
             v = value.get(g.name, getattr(g, attr))
             if v is None:
                 raise InputError(name, g.name, "no value given for this group")
-            cols.append(np.asarray(v, float))
-        arr = np.stack(np.broadcast_arrays(*cols), axis=-1)
+            col = np.asarray(v, float)
+            if col.ndim > 1:
+                raise InputError(name, g.name, f"expected a scalar or shape (N,), got shape {col.shape}")
+            cols.append(col)
+        try:
+            arr = np.stack(np.broadcast_arrays(*cols), axis=-1)
+        except ValueError:
+            raise InputError(name, None, f"the groups' arrays have different lengths: "
+                                         f"{[c.shape for c in cols]}") from None
         arr = arr.reshape(-1, len(groups))
     else:
         arr = np.asarray(value, float)
@@ -73,8 +90,17 @@ def _condition_array(system: System, value, name: str, attr: str, valid: tuple[f
     if bad.any():
         row, col = np.argwhere(bad)[0]
         raise InputError(name, f"condition {row}, group {groups[col].name!r}",
-                         f"expected {valid[0]:g} to {valid[1]:g} {unit}, got {arr[row, col]!r}")
+                         f"expected {valid[0]:g} to {valid[1]:g} {unit}, got {float(arr[row, col])!r}")
     return arr
+
+
+def _over_groups(a):
+    """Sum over the last (group) axis; column by column, which numpy does far
+    faster than a reduction over a short inner axis."""
+    total = a[..., 0].copy()
+    for k in range(1, a.shape[-1]):
+        total += a[..., k]
+    return total
 
 
 def _load_branch(system: System):
@@ -94,31 +120,48 @@ def _solve_chunk(system: System, g_w_m2, t_c) -> dict:
     ideal = net.without_cables()
     r_f = wiring.r_load_side_ohm
 
-    # Key points of the ideal array.
-    oc_ideal = solve_thevenin(ideal, 0.0, np.inf)
-    sc_ideal = solve_at_bus_voltage(ideal, 0.0)
-    mp_ideal = solve_max_power(ideal, 0.0, open_circuit=oc_ideal)
-    i_sc = evaluate_groups(ideal, sc_ideal.x_v).group_i_a.sum(axis=-1)
-    i_mp = evaluate_groups(ideal, mp_ideal.x_v).group_i_a.sum(axis=-1)
-    converged = oc_ideal.converged & sc_ideal.converged & mp_ideal.converged
+    # Key points of each module, and of the ideal array. One group: the array
+    # is the module scaled. Several: the groups paralleled directly are
+    # solved as a network, and each group's own MPP bounds what it can give.
+    own = key_points(state)
+    converged = own["converged"].all(axis=-1)
+    groups_p_mp = _over_groups(n_s * n_p * own["p_mp"])
+    if len(n_s) == 1:
+        v_oc, i_sc = n_s[0] * own["v_oc"][:, 0], n_p[0] * own["i_sc"][:, 0]
+        v_mp, i_mp = n_s[0] * own["v_mp"][:, 0], n_p[0] * own["i_mp"][:, 0]
+        # With no current flowing, cables change nothing: the open circuit of
+        # the wired array is the module's.
+        open_circuit = Solution(own["v_oc"].copy(), v_oc, converged, 0)
+        p_mp = groups_p_mp
+    else:
+        oc_ideal = solve_thevenin(ideal, 0.0, np.inf)
+        mp_ideal = solve_max_power(ideal, 0.0, open_circuit=oc_ideal, relative_tolerance=SOURCE_MPP_TOLERANCE)
+        v_oc, v_mp = oc_ideal.bus_v, mp_ideal.bus_v
+        # A shorted bus with no cables shorts every module: the array's Isc
+        # is the sum of the strings' own.
+        i_sc = _over_groups(n_p * own["i_sc"])
+        i_mp = _over_groups(evaluate_groups(ideal, mp_ideal.x_v).group_i_a)
+        p_mp = v_mp * i_mp
+        converged &= oc_ideal.converged & mp_ideal.converged
+        no_cables = not wiring.r_string_ohm.any() and not wiring.r_home_ohm.any()
+        open_circuit = oc_ideal if no_cables else None
 
     # The operating point.
     branch = _load_branch(system)
     if branch is None:
-        oc = oc_ideal if not wiring.r_string_ohm.any() and not wiring.r_home_ohm.any() else None
-        sol = solve_max_power(net, r_f, open_circuit=oc)
+        sol = solve_max_power(net, r_f, open_circuit=open_circuit)
     else:
         sol = solve_thevenin(net, branch[0], branch[1])
     converged &= sol.converged
     pt = evaluate_groups(net, sol.x_v)
     v = sol.bus_v
     j = pt.group_i_a
-    i = j.sum(axis=-1)
+    i = _over_groups(j)
     p = v * i
     v_string = n_s * pt.module_v
-    generated = (v_string * j).sum(axis=-1)
-    string_loss = (n_p * (j / n_p) ** 2 * wiring.r_string_ohm).sum(axis=-1)
-    home_loss = (j**2 * wiring.r_home_ohm).sum(axis=-1)
+    generated = _over_groups(v_string * j)
+    string_loss = _over_groups(n_p * (j / n_p) ** 2 * wiring.r_string_ohm)
+    home_loss = _over_groups(j**2 * wiring.r_home_ohm)
     feeder_loss = i**2 * wiring.r_feeder_ohm
     bank_loss = i**2 * wiring.r_bank_ohm
     v_load = v - i * r_f
@@ -126,7 +169,7 @@ def _solve_chunk(system: System, g_w_m2, t_c) -> dict:
     cable_loss = string_loss + home_loss + feeder_loss + bank_loss
 
     # Residuals of the laws the solution must satisfy.
-    kvl = np.max(np.abs(pt.bus_v - v[:, None]), axis=-1)
+    kvl = np.abs(pt.bus_v - v[:, None]).max(axis=-1)
     if branch is None:
         kcl = np.zeros_like(i)
     else:
@@ -134,7 +177,12 @@ def _solve_chunk(system: System, g_w_m2, t_c) -> dict:
         with np.errstate(divide="ignore", invalid="ignore"):
             expected_i = np.where(r_l == 0.0, i, (v - e_l) / np.where(r_l == 0.0, 1.0, r_l))
         kcl = np.abs(i - expected_i)
-    scale = np.maximum(np.abs(generated), np.abs(delivered)) + 1e-12
+    # Relative to everything flowing, not to the net: mismatched groups can
+    # circulate far more power among themselves than reaches the load.
+    # The diode-voltage term n_s |x| |J| bounds the rounding of each string
+    # voltage (x - I R_s cancels near short circuit).
+    scale = _over_groups(n_s * (np.abs(pt.x_v) + np.abs(pt.module_i_a * state.r_s_ohm)) * np.abs(j)) \
+        + cable_loss + np.abs(delivered) + 1e-12
     balance = (generated - cable_loss - delivered) / scale
 
     # Linearised views: each group at its string terminals, the array at the
@@ -142,7 +190,7 @@ def _solve_chunk(system: System, g_w_m2, t_c) -> dict:
     g_string = -n_p * pt.di_dx / (n_s * (1.0 - pt.di_dx * state.r_s_ohm))
     group_eq = linear.linearise(v_string, j, g_string)
     g_bus = pt.conductance_s
-    array_eq = linear.linearise(v, i, g_bus.sum(axis=-1))
+    array_eq = linear.linearise(v, i, _over_groups(g_bus))
     m_array = linear.matching_ratio(v, i, array_eq.r_ohm)
     r_seen = array_eq.r_ohm + r_f
     m_load = linear.matching_ratio(v_load, i, r_seen)
@@ -161,30 +209,29 @@ def _solve_chunk(system: System, g_w_m2, t_c) -> dict:
     drift = {}
     for tag, factor in (("low", 1.0 - DRIFT_FRACTION), ("high", 1.0 + DRIFT_FRACTION)):
         v_d = v * factor
-        sol_d = solve_at_bus_voltage(net, v_d, sol.x_v)
+        sol_d = solve_at_bus_voltage(net, v_d, sol.x_v, relative_tolerance=DRIFT_TOLERANCE)
         converged &= sol_d.converged
-        i_exact = evaluate_groups(net, sol_d.x_v).group_i_a.sum(axis=-1)
+        i_exact = _over_groups(evaluate_groups(net, sol_d.x_v).group_i_a)
         i_lin = array_eq.current_at(v_d)
         with np.errstate(divide="ignore", invalid="ignore"):
             err = np.where(i != 0.0, (i_lin - i_exact) / np.abs(i), np.nan)
-        drift.update({f"drift_{tag}_v": v_d, f"drift_{tag}_i_exact_a": i_exact,
-                      f"drift_{tag}_i_linear_a": i_lin, f"drift_{tag}_error": err})
+        drift.update({f"drift_{tag}_i_exact_a": i_exact, f"drift_{tag}_error": err})
 
     with np.errstate(divide="ignore", invalid="ignore"):
         efficiency = np.where(generated > 0.0, delivered / generated, np.nan)
 
     out = {
-        "source_v_oc": oc_ideal.bus_v, "source_i_sc": i_sc, "source_v_mp": mp_ideal.bus_v,
-        "source_i_mp": i_mp, "source_p_mp": mp_ideal.bus_v * i_mp,
+        "source_v_oc": v_oc, "source_i_sc": i_sc, "source_v_mp": v_mp,
+        "source_i_mp": i_mp, "source_p_mp": p_mp, "groups_p_mp_w": groups_p_mp,
+        "parallel_mismatch_w": groups_p_mp - p_mp,
         "v": v, "i": i, "p": p,
-        "thevenin_e_v": array_eq.e_v, "thevenin_r_ohm": array_eq.r_ohm,
-        "norton_i_a": array_eq.i_a, "norton_r_ohm": array_eq.r_ohm,
+        "thevenin_e_v": array_eq.e_v, "thevenin_r_ohm": array_eq.r_ohm, "norton_i_a": array_eq.i_a,
         "matching_ratio": m_array,
         "load_v": v_load, "delivered_w": delivered, "generated_w": generated,
         "cable_loss_w": cable_loss, "string_loss_w": string_loss, "home_run_loss_w": home_loss,
         "feeder_loss_w": feeder_loss, "bank_loss_w": bank_loss, "efficiency": efficiency,
-        "mpp_shortfall_w": mp_ideal.bus_v * i_mp - generated,
-        "load_side_e_v": array_eq.e_v, "load_side_r_ohm": r_seen, "load_side_matching_ratio": m_load,
+        "mpp_shortfall_w": groups_p_mp - generated,
+        "load_side_r_ohm": r_seen, "load_side_matching_ratio": m_load,
         "share_load_emf_a": load_share, "superposition_total_a": share_total,
         **drift,
         "kvl_residual_v": kvl, "kcl_residual_a": kcl, "energy_balance_residual": balance,
@@ -249,7 +296,7 @@ def operating_points(system: System, irradiance_w_m2=None, cell_temp_c=None, *, 
     -------
     pandas.DataFrame
         A row per condition; see the module docstring for the conventions and
-        DEVELOPERS.md for every column.
+        DEVELOPERS.md for the columns.
 
     Raises
     ------
@@ -265,7 +312,15 @@ def operating_points(system: System, irradiance_w_m2=None, cell_temp_c=None, *, 
     g = _condition_array(system, irradiance_w_m2, "irradiance_w_m2", "irradiance_w_m2", IRRADIANCE_RANGE_W_M2,
                          "W/m2")
     t = _condition_array(system, cell_temp_c, "cell_temp_c", "cell_temp_c", CELL_TEMP_RANGE_C, "degC")
-    g, t = np.broadcast_arrays(g, t)
+    if isinstance(chunk_size, bool) or not isinstance(chunk_size, (int, np.integer)) or chunk_size < 1:
+        raise InputError("chunk_size", None, f"expected a whole number of conditions, 1 or more, got {chunk_size!r}")
+    try:
+        g, t = np.broadcast_arrays(g, t)
+    except ValueError:
+        raise InputError("cell_temp_c", None, f"has {len(t)} conditions but irradiance_w_m2 has {len(g)}; "
+                                              "give the same number, or a scalar") from None
+    if len(g) == 0:
+        raise InputError("irradiance_w_m2", None, "no conditions given (an empty array)")
     frame = _frame_from_chunks(system, g, t, chunk_size)
 
     bad = ~frame["converged"].to_numpy()
@@ -283,7 +338,7 @@ def operating_points(system: System, irradiance_w_m2=None, cell_temp_c=None, *, 
     if worst > ENERGY_BALANCE_TOLERANCE:
         raise PhysicsGuardError(f"energy balance broken by {worst:.2e} (relative); result withheld")
     eff = frame["efficiency"].to_numpy()[ok]
-    if np.any(eff > 1.0 + 1e-12):
+    if np.any(eff > 1.0 + ENERGY_BALANCE_TOLERANCE):
         raise PhysicsGuardError("an efficiency above 1 was computed; result withheld")
     return frame
 
@@ -314,24 +369,30 @@ def point_record(system: System, row: pd.Series) -> dict:
             "matching_ratio": r[pre + "matching_ratio"],
             "load_current_share_a": r[f"share_{g.name}_a"],
         })
-    drift = {tag: {"v": r[f"drift_{tag}_v"], "i_exact_a": r[f"drift_{tag}_i_exact_a"],
-                   "i_linear_a": r[f"drift_{tag}_i_linear_a"], "error_fraction_of_i": r[f"drift_{tag}_error"]}
-             for tag in ("low", "high")}
+    drift = {}
+    for tag, factor in (("low", 1.0 - DRIFT_FRACTION), ("high", 1.0 + DRIFT_FRACTION)):
+        v_d = None if r["v"] is None else r["v"] * factor
+        i_lin = None if v_d is None or r["thevenin_r_ohm"] is None else \
+            (r["thevenin_e_v"] - v_d) / r["thevenin_r_ohm"]
+        drift[tag] = {"v": v_d, "i_exact_a": r[f"drift_{tag}_i_exact_a"], "i_linear_a": _clean(i_lin)
+                      if i_lin is not None else None, "error_fraction_of_i": r[f"drift_{tag}_error"]}
     return {
         "source": {k: r[f"source_{k}"] for k in ("v_oc", "i_sc", "v_mp", "i_mp", "p_mp")},
         "operating_point": {"v": r["v"], "i": r["i"], "p": r["p"]},
         "thevenin": {"e_v": r["thevenin_e_v"], "r_ohm": r["thevenin_r_ohm"]},
-        "norton": {"i_a": r["norton_i_a"], "r_ohm": r["norton_r_ohm"]},
+        "norton": {"i_a": r["norton_i_a"], "r_ohm": r["thevenin_r_ohm"]},
         "matching_ratio": r["matching_ratio"],
         "delivered_w": r["delivered_w"],
         "cable_loss_w": r["cable_loss_w"],
         "efficiency": r["efficiency"],
         "mpp_shortfall_w": r["mpp_shortfall_w"],
         "generated_w": r["generated_w"],
+        "groups_p_mp_w": r["groups_p_mp_w"],
+        "parallel_mismatch_w": r["parallel_mismatch_w"],
         "losses_w": {"string_leads": r["string_loss_w"], "home_runs": r["home_run_loss_w"],
                      "feeder": r["feeder_loss_w"], "bank_side": r["bank_loss_w"]},
         "load": {"kind": system.load.kind, "v": r["load_v"], "i": r["i"]},
-        "load_side": {"e_v": r["load_side_e_v"], "r_ohm": r["load_side_r_ohm"],
+        "load_side": {"e_v": r["thevenin_e_v"], "r_ohm": r["load_side_r_ohm"],
                       "matching_ratio": r["load_side_matching_ratio"]},
         "linear_drift": drift,
         "superposition": {"groups_a": {g["name"]: g["load_current_share_a"] for g in groups},
