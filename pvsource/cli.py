@@ -10,6 +10,7 @@ from __future__ import annotations
 import json
 import math
 import sys
+import warnings
 from dataclasses import replace
 from pathlib import Path
 from typing import Annotated, Optional
@@ -21,11 +22,15 @@ try:  # Typer 0.26 and later carry their own copy of Click.
 except ImportError:  # pragma: no cover - older Typer depends on Click itself
     from click import exceptions as _cli_errors
 
+# Exit and Abort live in Typer itself or in Click, depending on the version.
+_EXITS = tuple({typer.Exit, getattr(_cli_errors, "Exit", typer.Exit)})
+_ABORTS = tuple({typer.Abort, getattr(_cli_errors, "Abort", typer.Abort), KeyboardInterrupt})
+
 from pvsource import __version__, cautions
 from pvsource.checks import DEFAULT_CELL_RISE_C, design_checks, design_currents
 from pvsource.config import load_module, load_system
 from pvsource.errors import ConvergenceError, InputError, PhysicsGuardError
-from pvsource.operating import operating_points, point_record
+from pvsource.operating import CELL_TEMP_RANGE_C, IRRADIANCE_RANGE_W_M2, operating_points, point_record
 from pvsource.runs import quick_record, wire_record
 from pvsource.system import Load
 from pvsource.terminal import fit_record, render_checks, render_fit, render_point, render_quick_wire, render_wire
@@ -84,9 +89,13 @@ def parse_condition(values: list[str] | None, option: str):
             value = float(number)
         except ValueError:
             raise InputError(option, None, f"expected a number or GROUP=NUMBER, got {text!r}") from None
+        if not math.isfinite(value):
+            raise InputError(option, None, f"expected a finite number, got {text!r}")
         if sep:
             if not name.strip():
                 raise InputError(option, None, f"expected GROUP=NUMBER, got {text!r}")
+            if name.strip() in per_group:
+                raise InputError(option, None, f"group {name.strip()!r} is given twice")
             per_group[name.strip()] = value
         elif default is not None:
             raise InputError(option, None, "a bare number may be given once; name groups as GROUP=NUMBER")
@@ -97,16 +106,36 @@ def parse_condition(values: list[str] | None, option: str):
     return {"__default__": default, **per_group}
 
 
-def _conditions_for(system, parsed):
-    """Turn a parsed option into what ``operating_points`` takes (unknown groups are rejected there)."""
-    if not isinstance(parsed, dict):
-        return parsed
-    named = {k: v for k, v in parsed.items() if k != "__default__"}
-    default = parsed["__default__"]
-    if default is not None:
-        for name in system.group_names:
-            named.setdefault(name, default)
-    return named
+CONDITION_OPTIONS = {
+    "--irradiance": ("irradiance_w_m2", IRRADIANCE_RANGE_W_M2, "W/m2"),
+    "--cell-temp": ("cell_temp_c", CELL_TEMP_RANGE_C, "degC"),
+}
+
+
+def _conditions_for(system, parsed, option: str, default=None):
+    """Turn a parsed option into what ``operating_points`` takes, checked against the file.
+
+    Errors name the option, or the system file when neither gives a value.
+    """
+    attr, (lo, hi), unit = CONDITION_OPTIONS[option]
+    if isinstance(parsed, dict):
+        unknown = sorted(set(parsed) - {"__default__", *system.group_names})
+        if unknown:
+            raise InputError(option, None, f"no group named {unknown[0]!r} in {system.source}; expected one of "
+                                           f"{', '.join(system.group_names)}")
+        values = {g.name: parsed.get(g.name, parsed["__default__"]) for g in system.groups}
+    else:
+        values = {g.name: parsed for g in system.groups}
+    for g in system.groups:
+        if values[g.name] is None:
+            values[g.name] = getattr(g, attr) if getattr(g, attr) is not None else default
+        if values[g.name] is None:
+            raise InputError(system.source, f"group {g.name!r}",
+                             f"has no {attr} in the file; give it there or with {option}")
+        if not lo <= values[g.name] <= hi:
+            raise InputError(option, None, f"expected {lo:g} to {hi:g} {unit} for group {g.name!r}, "
+                                           f"got {values[g.name]:g}")
+    return values
 
 
 @app.command()
@@ -124,10 +153,11 @@ def point(
 ):
     """Solve the operating point at one set of conditions and show the array's Thevenin/Norton view."""
     system = load_system(system_file)
-    g = _conditions_for(system, parse_condition(irradiance, "--irradiance"))
-    t = _conditions_for(system, parse_condition(cell_temp, "--cell-temp"))
+    g = _conditions_for(system, parse_condition(irradiance, "--irradiance"), "--irradiance")
+    t = _conditions_for(system, parse_condition(cell_temp, "--cell-temp"), "--cell-temp")
     frame = operating_points(system, g, t)
     rec = point_record(system, frame.iloc[0])
+    rec["cautions"] = list(cautions.GENERAL)
     if as_json:
         _emit_json(rec)
     else:
@@ -183,10 +213,14 @@ def wire(
     system = load_system(system_file)
     if not with_load:
         system = replace(system, load=Load("mpp"))
-    g_opt = _conditions_for(system, parse_condition(irradiance, "--irradiance"))
-    t_opt = _conditions_for(system, parse_condition(cell_temp, "--cell-temp"))
-    g = 1000.0 if g_opt is None else g_opt
-    t = 25.0 if t_opt is None else t_opt
+    # The design point is STC unless the options say otherwise: the file's
+    # own conditions describe an example hour, not a design case.
+    stc_system = replace(system, groups=tuple(replace(grp, irradiance_w_m2=None, cell_temp_c=None)
+                                              for grp in system.groups))
+    g_opt = parse_condition(irradiance, "--irradiance")
+    t_opt = parse_condition(cell_temp, "--cell-temp")
+    g = _conditions_for(stc_system, g_opt, "--irradiance", default=1000.0)
+    t = _conditions_for(stc_system, t_opt, "--cell-temp", default=25.0)
     row = operating_points(system, g, t).iloc[0]
     rec = wire_record(system, row, budget)
     point = "maximum power point" if not with_load else "the system's load"
@@ -254,7 +288,11 @@ def _fail(message: str, code: int) -> None:
 def main(argv: list[str] | None = None) -> None:
     """Console entry point: run the app and map every failure to one line and an exit code."""
     try:
-        app(args=argv, prog_name="pvsource", standalone_mode=False)
+        with warnings.catch_warnings():
+            # Numerical warnings are not messages for a user: results that
+            # matter are guarded (convergence, energy balance) and reported.
+            warnings.simplefilter("ignore")
+            app(args=argv, prog_name="pvsource", standalone_mode=False)
     except InputError as exc:
         _fail(exc.one_line(), 2)
     except _cli_errors.NoArgsIsHelpError:
@@ -264,12 +302,14 @@ def main(argv: list[str] | None = None) -> None:
         _fail(exc.format_message(), 2)
     except (ConvergenceError, PhysicsGuardError) as exc:
         _fail(str(exc), 1)
-    except (_cli_errors.Exit, typer.Exit) as exc:
+    except _EXITS as exc:
         sys.exit(exc.exit_code)
-    except (_cli_errors.Abort, typer.Abort, KeyboardInterrupt):
+    except _ABORTS:
         _fail("interrupted", 130)
     except BrokenPipeError:
         sys.exit(0)
+    except Exception as exc:  # noqa: BLE001 - the last line of defence: one line, never a traceback
+        _fail(f"internal error ({type(exc).__name__}: {exc}); please report it with the input that caused it", 1)
 
 
 if __name__ == "__main__":

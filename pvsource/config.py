@@ -88,7 +88,7 @@ class Table:
         unknown = sorted(set(self.data) - self.used)
         if unknown:
             raise InputError(self.where, self.field(unknown[0]),
-                             "unknown key (check the spelling; see DEVELOPERS.md for the file format)")
+                             "unknown key (check the spelling; README.md describes the file format)")
 
 
 def read_toml(path) -> tuple[dict, str]:
@@ -111,19 +111,25 @@ def read_toml(path) -> tuple[dict, str]:
         raise InputError(where, None, f"is not valid TOML: {exc}") from None
 
 
-def parse_module(table: Table, base_dir: Path) -> Module:
-    """A module from datasheet values, single-diode parameters, or another file."""
+def parse_module(table: Table, base_dir: Path, _seen: frozenset = frozenset()) -> Module:
+    """A module from datasheet values, single-diode parameters, or another file.
+
+    ``file = "..."`` is read relative to the file that names it.
+    """
     where = table.where
     if table.has("file"):
         ref = table.text("file")
         table.finish()
+        path = (base_dir / ref).resolve()
+        if path in _seen:
+            raise InputError(where, table.field("file"), f"refers back to {ref!r}: module files form a loop")
         data, ref_where = read_toml(base_dir / ref)
         if "module" not in data:
             raise InputError(ref_where, "[module]", "is missing (expected the module's datasheet values)")
         extra = sorted(set(data) - {"module"})
         if extra:
             raise InputError(ref_where, extra[0], "unknown section (a module file holds only [module])")
-        return parse_module(Table(ref_where, "[module]", data["module"]), base_dir)
+        return parse_module(Table(ref_where, "[module]", data["module"]), path.parent, _seen | {path})
     name = table.text("name", "")
     has_ds = any(table.has(k) for k in DATASHEET_KEYS if k != "cells_in_series")
     has_p = any(table.has(k) for k in PARAMETER_KEYS if k != "cells_in_series")
@@ -302,4 +308,5 @@ def load_module(path) -> Module:
     extra = sorted(set(data) - {"module"})
     if extra:
         raise InputError(where, extra[0], "unknown section (a datasheet file holds only [module])")
-    return parse_module(Table(where, "[module]", data["module"]), Path(path).parent)
+    return parse_module(Table(where, "[module]", data["module"]), Path(path).parent,
+                        frozenset({Path(path).resolve()}))

@@ -41,10 +41,13 @@ def describe_load(system: System) -> str:
     return f"battery: EMF {load.emf_v:.4g} V behind {load.resistance_ohm:.4g} ohm{through}"
 
 
-def matching_note(m) -> str:
+def matching_note(m, i=None) -> str:
     """Where the point sits relative to the MPP, read from the matching ratio."""
     if m is None:
         return "no current flows: the ratio is undefined"
+    if i is not None and i < 0:
+        return ("current flows back into the array: the load's voltage is above what the array reaches, "
+                "and the ratio says nothing about power transfer")
     if abs(m - 1.0) <= 0.02:
         return "at the maximum power point: the load's static resistance equals the source's dynamic resistance"
     if m < 1.0:
@@ -75,7 +78,7 @@ def render_point(system: System, rec: dict) -> str:
     lines.append(f"  Thevenin   E_th {_num(th['e_v'], 2, 'V')} behind R_th {_num(th['r_ohm'], 4, 'ohm')}")
     lines.append(f"  Norton     I_N  {_num(no['i_a'], 3, 'A')} beside R_N {_num(no['r_ohm'], 4, 'ohm')}")
     lines.append(f"  matching ratio m = (V/I)/R_th = {_num(rec['matching_ratio'], 4)}")
-    lines.append(f"    {matching_note(rec['matching_ratio'])}")
+    lines.append(f"    {matching_note(rec['matching_ratio'], op['i'])}")
     ls = rec["load_side"]
     lines.append(f"  seen from the load (array + feeder): E {_num(ls['e_v'], 2, 'V')} behind "
                  f"{_num(ls['r_ohm'], 4, 'ohm')}, m = {_num(ls['matching_ratio'], 4)}")
@@ -90,9 +93,13 @@ def render_point(system: System, rec: dict) -> str:
     lines.append(f"  lost in cables            {_num(loss, 2, 'W')} ({_pct(share)})" + (f": {detail}" if detail else ""))
     lines.append(f"  delivered to the load     {_num(rec['delivered_w'], 1, 'W')}")
     lines.append(f"  efficiency (delivered / generated) {_pct(rec['efficiency'])}")
-    short = rec["mpp_shortfall_w"]
-    frac = None if not src["p_mp"] else short / src["p_mp"]
-    lines.append(f"  shortfall against the MPP {_num(short, 1, 'W')} ({_pct(frac, 1)} of Pmp)")
+    short, avail = rec["mpp_shortfall_w"], rec["groups_p_mp_w"]
+    frac = None if not avail else short / avail
+    lines.append(f"  shortfall against the MPP {_num(short, 1, 'W')} ({_pct(frac, 1)} of the {_num(avail, 1, 'W')} "
+                 "the groups could give at their own MPPs)")
+    if len(rec["groups"]) > 1:
+        lines.append(f"  of which joining mismatched groups costs {_num(rec['parallel_mismatch_w'], 1, 'W')} "
+                     "(their own MPPs against the directly paralleled array's)")
 
     lines.append(_rule("How far the linear model holds (exact curve vs Thevenin line)"))
     for tag, label in (("low", "-10 %"), ("high", "+10 %")):
