@@ -99,8 +99,11 @@ def test_bad_system_files_exit_2_with_one_line(capsys, tmp_path, edit, field):
 @pytest.mark.parametrize("args, words", [
     (["point", EXAMPLE, "--irradiance", "lots"], "--irradiance"),
     (["point", EXAMPLE, "--cell-temp", "east=hot"], "--cell-temp"),
-    (["point", EXAMPLE, "--irradiance", "-20"], "irradiance_w_m2"),
-    (["point", EXAMPLE, "--irradiance", "north=500"], "no such group"),
+    (["point", EXAMPLE, "--irradiance", "-20"], "--irradiance"),
+    (["point", EXAMPLE, "--irradiance", "1e999"], "--irradiance"),
+    (["point", EXAMPLE, "--cell-temp", "nan"], "--cell-temp"),
+    (["point", EXAMPLE, "--irradiance", "north=500"], "no group named"),
+    (["point", TWO_FACES, "--irradiance", "east=500", "--irradiance", "east=600"], "given twice"),
     (["point", EXAMPLE, "--frobnicate"], "No such option"),
     (["point"], "Missing argument"),
     (["point", "does-not-exist.toml"], "does-not-exist.toml"),
@@ -217,3 +220,36 @@ def test_check_without_a_load_or_controller_still_runs(capsys, tmp_path):
     rec = json.loads(out)
     assert code == 0
     assert rec["checks"][0]["limit"] is None and rec["checks"][0]["passed"] is None
+
+
+def test_a_group_without_conditions_names_the_file_and_the_option(capsys, tmp_path):
+    text = GOOD.replace("irradiance_w_m2 = 800\n", "")
+    path = _bad_file(tmp_path, text)
+    code, _, err = run(capsys, "point", path)
+    assert code == 2 and path in err and "--irradiance" in err
+
+
+def test_module_files_that_refer_to_each_other_are_refused(capsys, tmp_path):
+    (tmp_path / "a.toml").write_text('[module]\nfile = "b.toml"\n')
+    (tmp_path / "b.toml").write_text('[module]\nfile = "a.toml"\n')
+    code, out, err = run(capsys, "fit", str(tmp_path / "a.toml"))
+    assert code == 2 and "loop" in err and err.count("\n") == 1
+
+
+def test_nested_module_files_resolve_from_their_own_folder(capsys, tmp_path):
+    (tmp_path / "lib").mkdir()
+    (tmp_path / "lib" / "alias.toml").write_text('[module]\nfile = "real.toml"\n')
+    (tmp_path / "lib" / "real.toml").write_text((DATA / "modules" / "ashgrove-ag300.toml").read_text())
+    code, out, _ = run(capsys, "fit", str(tmp_path / "lib" / "alias.toml"), "--json")
+    assert code == 0 and json.loads(out)["method"] == "desoto"
+
+
+def test_an_unexpected_failure_is_still_one_line(capsys, monkeypatch):
+    import pvsource.cli as cli
+
+    def boom(*args, **kwargs):
+        raise ZeroDivisionError("synthetic")
+
+    monkeypatch.setattr(cli, "load_module", boom)
+    code, _, err = run(capsys, "fit", "anything.toml")
+    assert code == 1 and err.count("\n") == 1 and "internal error" in err and "Traceback" not in err

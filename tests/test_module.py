@@ -102,6 +102,7 @@ def test_explicit_estimate_is_kept_and_said_when_the_full_fit_fails(monkeypatch)
     (dict(i_sc=float("nan")), "i_sc"),
     (dict(v_mp=20.0, i_mp=5.0), "v_mp"),          # fill factor 0.25: no module is that poor
     (dict(v_mp=39.0, i_mp=9.7), "v_mp"),          # fill factor 0.96: above the ideal-cell limit
+    (dict(cells_in_series=120), "cells_in_series"),  # half cells counted twice
 ])
 def test_inconsistent_datasheets_are_rejected_naming_the_field(change, field):
     with pytest.raises(InputError) as exc:
@@ -157,4 +158,14 @@ def test_explicit_parameters_are_accepted_and_checked(demo_module):
         module_from_parameters(replace(p, a_ref_v=15.0))
     with pytest.raises(InputError, match="i_o_ref_a"):
         module_from_parameters(replace(p, i_o_ref_a=20.0))
+    with pytest.raises(InputError, match="i_o_ref_a"):
+        module_from_parameters(replace(p, i_o_ref_a=9.7))          # Voc of a few millivolts
+    with pytest.raises(InputError, match="eg_ref_ev"):
+        module_from_parameters(replace(p, eg_ref_ev=100.0))
+    with pytest.raises(InputError, match="degdt_per_c"):
+        module_from_parameters(replace(p, degdt_per_c=1e3))
+    with pytest.raises(InputError, match="alpha_sc_a_per_c"):
+        module_from_parameters(replace(p, alpha_sc_a_per_c=-1000.0))
+    with pytest.raises(InputError, match="r_sh_ref_ohm"):
+        module_from_parameters(replace(p, r_sh_ref_ohm=1e-3))
     assert isinstance(p, DiodeParameters)
