@@ -13,7 +13,8 @@ from pathlib import Path
 
 from pvsource import conductors
 from pvsource.array import StringGroup
-from pvsource.controller import Controller
+from pvsource.bank import CHEMISTRIES, Bank, make_bank
+from pvsource.controller import DEFAULT_EFFICIENCY_CURVE, KINDS, Controller
 from pvsource.errors import InputError
 from pvsource.module import Datasheet, DiodeParameters, Module, fit_datasheet, module_from_parameters
 from pvsource.system import LOAD_KINDS, Load, System
@@ -217,15 +218,78 @@ def parse_cable(table: Table, index: int, group_names) -> CableRun:
 
 
 def parse_controller(table: Table) -> Controller:
+    """A ``[controller]``: its kind and behaviour, or just input limits for the checks."""
+    where = table.where
+    kind = table.text("kind", "", choices=("", *KINDS)) or None
     max_v = table.number("max_input_v", float("nan"), positive=True, maximum=1.0e4)
     min_v = table.number("min_input_v", float("nan"), minimum=0.0, maximum=1.0e4)
-    controller = Controller(name=table.text("name", ""), max_input_v=None if math.isnan(max_v) else max_v,
-                            min_input_v=None if math.isnan(min_v) else min_v)
+    max_a = table.number("max_output_a", float("nan"), positive=True, maximum=1.0e5)
+    rated = table.number("rated_power_w", float("nan"), positive=True, maximum=1.0e7)
+    curve = DEFAULT_EFFICIENCY_CURVE
+    if table.has("efficiency") and table.has("efficiency_curve"):
+        raise InputError(where, table.field("efficiency"), "give efficiency or efficiency_curve, not both")
+    if table.has("efficiency"):
+        eta = table.number("efficiency", minimum=0.5, maximum=1.0)
+        curve = ((0.0, eta), (1.0, eta))
+    elif table.has("efficiency_curve"):
+        table.used.add("efficiency_curve")
+        raw = table.data["efficiency_curve"]
+        ok = isinstance(raw, list) and len(raw) >= 2 and all(
+            isinstance(pt, list) and len(pt) == 2 and all(isinstance(v, (int, float)) and not isinstance(v, bool)
+                                                          and math.isfinite(v) for v in pt) for pt in raw)
+        if not ok:
+            raise InputError(where, table.field("efficiency_curve"),
+                             "expected a list of [output fraction, efficiency] pairs, e.g. [[0.1, 0.92], [1.0, 0.96]]")
+        fractions = [float(pt[0]) for pt in raw]
+        etas = [float(pt[1]) for pt in raw]
+        if any(b <= a for a, b in zip(fractions, fractions[1:])) or min(fractions) < 0:
+            raise InputError(where, table.field("efficiency_curve"), "output fractions must rise from 0 or more")
+        if not all(0.0 < e <= 1.0 for e in etas):
+            raise InputError(where, table.field("efficiency_curve"), "efficiencies must lie in (0, 1]")
+        curve = tuple(zip(fractions, etas))
+    controller = Controller(
+        name=table.text("name", ""), kind=kind,
+        max_input_v=None if math.isnan(max_v) else max_v, min_input_v=None if math.isnan(min_v) else min_v,
+        max_output_a=None if math.isnan(max_a) else max_a, efficiency_curve=curve,
+        rated_power_w=None if math.isnan(rated) else rated,
+        min_headroom_v=table.number("min_headroom_v", 2.0, minimum=0.0, maximum=100.0),
+        diode_drop_v=table.number("diode_drop_v", 0.0, minimum=0.0, maximum=5.0),
+    )
     if controller.max_input_v is not None and controller.min_input_v is not None \
             and controller.min_input_v >= controller.max_input_v:
-        raise InputError(table.where, table.field("min_input_v"), "must be below max_input_v")
+        raise InputError(where, table.field("min_input_v"), "must be below max_input_v")
+    if kind != "mppt":
+        for key in ("max_output_a", "rated_power_w", "efficiency", "efficiency_curve", "min_headroom_v"):
+            if table.has(key):
+                raise InputError(where, table.field(key), f"applies to kind = \"mppt\" only")
     table.finish()
     return controller
+
+
+def parse_bank(table: Table) -> Bank:
+    """A ``[bank]``: chemistry preset, cells, strings, capacity, state of charge, temperature, overrides."""
+    where = table.where
+    chemistry = table.text("chemistry", choices=CHEMISTRIES)
+    overrides = {}
+    if table.has("overrides"):
+        table.used.add("overrides")
+        raw = table.data["overrides"]
+        if not isinstance(raw, dict):
+            raise InputError(where, table.field("overrides"), "expected a table of preset values to replace")
+        overrides = dict(raw)
+    values = dict(
+        cells_in_series=table.number("cells_in_series", integer=True, positive=True, maximum=1000),
+        strings=table.number("strings", integer=True, positive=True, maximum=1000),
+        capacity_ah=table.number("capacity_ah", positive=True, maximum=1.0e6),
+        soc=table.number("soc", minimum=0.0, maximum=1.0),
+        temp_c=table.number("temp_c", 25.0, minimum=-40.0, maximum=70.0),
+    )
+    table.finish()
+    try:
+        return make_bank(chemistry, overrides=overrides, where=where, **values)
+    except InputError as exc:
+        field = exc.field if exc.field and exc.field.startswith("[") else f"[bank].{exc.field}" if exc.field else "[bank]"
+        raise InputError(where, field, exc.expected) from None
 
 
 def parse_load(table: Table) -> Load:
@@ -247,7 +311,7 @@ def parse_system(data: dict, where: str, base_dir: Path) -> System:
     """Build a :class:`System` from parsed TOML; errors name ``where`` and the field."""
     top = Table(where, "", data)
     name = top.text("name", "")
-    top.used.update({"module", "array", "group", "cable", "load", "controller"})
+    top.used.update({"module", "array", "group", "cable", "load", "controller", "bank"})
     unknown = sorted(set(data) - top.used)
     if unknown:
         raise InputError(where, f"[{unknown[0]}]", "unknown section or key (check the spelling)")
@@ -278,8 +342,16 @@ def parse_system(data: dict, where: str, base_dir: Path) -> System:
     cables = [parse_cable(Table(where, f"[[cable]] #{k + 1}", c), k, group_names) for k, c in enumerate(raw_cables)]
     load = parse_load(Table(where, "[load]", data["load"])) if "load" in data else Load("mpp")
     controller = parse_controller(Table(where, "[controller]", data["controller"])) if "controller" in data else None
+    bank = parse_bank(Table(where, "[bank]", data["bank"])) if "bank" in data else None
+    if bank is not None:
+        if "load" in data:
+            raise InputError(where, "[load]", "a [bank] is the load; give one or the other")
+        if controller is None or controller.kind is None:
+            raise InputError(where, "[controller].kind", "a [bank] needs a controller: kind = direct, pwm or mppt")
+    elif controller is not None and controller.kind is not None:
+        raise InputError(where, "[controller].kind", "a controller kind needs a [bank] to charge")
     return System(module=module, groups=tuple(groups), cables=tuple(cables), load=load, name=name, source=where,
-                  controller=controller)
+                  controller=controller, bank=bank)
 
 
 def load_system(path) -> System:

@@ -513,7 +513,7 @@ def solve_max_power(net: Network, r_feeder_ohm=0.0, open_circuit: Solution | Non
     converged, iterations = _iterate(p, step, JOINT_MPP_ITERATIONS)
     if not converged.all():
         rest = np.flatnonzero(~converged)
-        nested = _solve_max_power_nested(_subset(net, rest), r_f[rest], x[:, rest].T, lo[rest], hi[rest])
+        nested = _solve_max_power_nested(subset_rows(net, rest), r_f[rest], x[:, rest].T, lo[rest], hi[rest])
         x[:, rest] = nested.x_v.T
         v[rest] = nested.bus_v
         converged[rest] = nested.converged
@@ -522,7 +522,8 @@ def solve_max_power(net: Network, r_feeder_ohm=0.0, open_circuit: Solution | Non
     return _result(net, x, v, converged, iterations + oc.iterations)
 
 
-def _subset(net: Network, rows) -> Network:
+def subset_rows(net: Network, rows) -> Network:
+    """The same network at a subset of its conditions (rows of the (N, G) state)."""
     g = net.shape[-1]
     st = net.state
     pick = lambda a: np.broadcast_to(a, net.shape).reshape(-1, g)[rows]  # noqa: E731
@@ -550,3 +551,53 @@ def _solve_max_power_nested(net: Network, r_f, x, lo, hi) -> Solution:
         if converged.all():
             break
     return Solution(inner.x_v, v, converged & inner.converged, iteration)
+
+
+def solve_power_above_mpp(net: Network, p_target_w, r_feeder_ohm, v_lo, v_hi, x0_v=None) -> Solution:
+    """Bus voltage above the maximum power point at which the load receives ``p_target_w``.
+
+    What a tracker does when it must take less than the maximum: it moves its
+    input toward Voc, where delivered power falls monotonically with voltage.
+    Safeguarded Newton on P(V) - P_target in [v_lo, v_hi], with an exact inner
+    solve of every group at each step.
+
+    Parameters
+    ----------
+    net : Network
+    p_target_w : array (N,)
+        Power wanted at the far end of the feeder [W]; at most the power at ``v_lo``.
+    r_feeder_ohm : float or array (N,)
+        Loop resistance between bus and load [ohm].
+    v_lo, v_hi : arrays (N,)
+        Bracket: the maximum power point (or the lowest allowed voltage) and Voc [V].
+    x0_v : array (N, G), optional
+        Diode voltages at ``v_lo``.
+    """
+    shape = net.shape
+    m = int(np.prod(shape[:-1]))
+    target = _flat(p_target_w, m)
+    r_f = _flat(r_feeder_ohm, m)
+    lo, hi = _flat(v_lo, m), _flat(v_hi, m)
+    v = 0.5 * (lo + hi)
+    inner = solve_at_bus_voltage(net, v.reshape(shape[:-1]), x0_v)
+    converged = np.zeros(m, bool)
+    iteration = 0
+    for iteration in range(1, MAX_ITERATIONS + 1):
+        x = np.ascontiguousarray(inner.x_v.reshape(m, -1).T)
+        _, _, j, cond = _evaluate(net.prepared, x)
+        i, di = _gsum(j), -_gsum(cond)
+        power = (v - i * r_f) * i
+        slope = i + v * di - 2.0 * r_f * i * di
+        above = power > target
+        lo = np.where(above, v, lo)
+        hi = np.where(above, hi, v)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            newton = v - (power - target) / slope
+        ok = (slope < 0) & (newton >= lo) & (newton <= hi)
+        v_new = np.where(ok, newton, 0.5 * (lo + hi))
+        converged = np.abs(power - target) <= 1e-9 * np.maximum(np.abs(target), 1.0)
+        v = np.where(converged, v, v_new)
+        if converged.all():
+            break
+        inner = solve_at_bus_voltage(net, v.reshape(shape[:-1]), inner.x_v)
+    return Solution(inner.x_v, v.reshape(shape[:-1]), converged.reshape(shape[:-1]) & inner.converged, iteration)

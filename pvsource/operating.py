@@ -27,7 +27,9 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from pvsource import bank as bank_model
 from pvsource import linear
+from pvsource.charging import FLOAT_SOC, BankPoint, solve_charging
 from pvsource.errors import ConvergenceError, InputError, PhysicsGuardError
 from pvsource.module import key_points, parameters_at
 from pvsource.network import (
@@ -103,6 +105,21 @@ def _over_groups(a):
     return total
 
 
+def _bank_condition(system: System, value, name: str, valid, n: int):
+    """A bank condition broadcast to (n,), or None for the file's value."""
+    if value is None:
+        return None
+    if system.bank is None:
+        raise InputError(name, None, "applies only to a system with a [bank]")
+    arr = np.asarray(value, float)
+    if arr.ndim > 1 or (arr.ndim == 1 and len(arr) not in (1, n)):
+        raise InputError(name, None, f"expected a scalar or {n} values, got shape {arr.shape}")
+    bad = ~np.isfinite(arr) | (arr < valid[0]) | (arr > valid[1])
+    if np.any(bad):
+        raise InputError(name, None, f"expected {valid[0]:g} to {valid[1]:g}, got {float(np.ravel(arr)[np.argmax(np.ravel(bad))])!r}")
+    return np.array(np.broadcast_to(arr, (n,)))
+
+
 def _load_branch(system: System):
     """(EMF, resistance) of everything beyond the bus, the feeder included; None for mpp."""
     th = system.load.thevenin()
@@ -111,7 +128,20 @@ def _load_branch(system: System):
     return th[0], th[1] + system.wiring.r_load_side_ohm
 
 
-def _solve_chunk(system: System, g_w_m2, t_c) -> dict:
+def _bank_point(system: System, soc, temp_c) -> BankPoint:
+    """The bank's Thevenin equivalent, stage target and charge limit at each condition."""
+    b = system.bank
+    emf, r = bank_model.thevenin(b, soc, temp_c)
+    v_abs, v_float = bank_model.charge_voltages_v(b, temp_c)
+    soc_now = np.broadcast_to(b.soc if soc is None else soc, np.shape(emf))
+    floating = soc_now >= FLOAT_SOC
+    shape = np.broadcast_shapes(np.shape(emf), np.shape(v_abs))
+    as_array = lambda a: np.array(np.broadcast_to(a, shape), dtype=float)  # noqa: E731
+    return BankPoint(as_array(emf), as_array(r), as_array(np.where(floating, v_float, v_abs)),
+                     np.array(np.broadcast_to(floating, shape)), as_array(bank_model.max_charge_current_a(b, temp_c)))
+
+
+def _solve_chunk(system: System, g_w_m2, t_c, soc=None, bank_temp_c=None) -> dict:
     """All outputs for one chunk of conditions, as a dict of 1-D arrays."""
     wiring = system.wiring
     n_s, n_p = system.n_series, system.n_parallel
@@ -148,24 +178,45 @@ def _solve_chunk(system: System, g_w_m2, t_c) -> dict:
 
     # The operating point.
     branch = _load_branch(system)
-    if branch is None:
-        sol = solve_max_power(net, r_f, open_circuit=open_circuit)
+    charge = None
+    if system.bank is not None:
+        bank_pt = _bank_point(system, soc, bank_temp_c)
+        charge = solve_charging(net, system.controller, bank_pt, wiring.r_feeder_ohm, wiring.r_bank_ohm)
+        x_sol, v, duty = charge["x_v"], charge["bus_v"], charge["scale"]
+        converged &= charge["converged"]
+        # For the linear views, the direct and PWM branch is the bank behind
+        # its cables and diode; a tracker's input looks like a resistor.
+        if system.controller.kind != "mppt":
+            branch = (bank_pt.emf_v + system.controller.diode_drop_v, bank_pt.r_ohm + wiring.r_load_side_ohm)
     else:
-        sol = solve_thevenin(net, branch[0], branch[1])
-    converged &= sol.converged
-    pt = evaluate_groups(net, sol.x_v)
-    v = sol.bus_v
+        sol = solve_max_power(net, r_f, open_circuit=open_circuit) if branch is None else \
+            solve_thevenin(net, branch[0], branch[1])
+        x_sol, v, duty = sol.x_v, sol.bus_v, np.ones(len(g_w_m2))
+        converged &= sol.converged
+    pt = evaluate_groups(net, x_sol)
     j = pt.group_i_a
     i = _over_groups(j)
     p = v * i
     v_string = n_s * pt.module_v
-    generated = _over_groups(v_string * j)
-    string_loss = _over_groups(n_p * (j / n_p) ** 2 * wiring.r_string_ohm)
-    home_loss = _over_groups(j**2 * wiring.r_home_ohm)
-    feeder_loss = i**2 * wiring.r_feeder_ohm
-    bank_loss = i**2 * wiring.r_bank_ohm
-    v_load = v - i * r_f
-    delivered = v_load * i
+    # PWM in regulation switches the array: energies are duty-weighted
+    # averages of the on-state, at which the array's point is reported.
+    generated = duty * _over_groups(v_string * j)
+    string_loss = duty * _over_groups(n_p * (j / n_p) ** 2 * wiring.r_string_ohm)
+    home_loss = duty * _over_groups(j**2 * wiring.r_home_ohm)
+    feeder_loss = duty * i**2 * wiring.r_feeder_ohm
+    if charge is None:
+        bank_loss = i**2 * wiring.r_bank_ohm
+        v_load = v - i * r_f
+        delivered = v_load * i
+        controller_loss = np.zeros_like(i)
+    else:
+        bank_loss = charge["bank_cable_loss_w"]
+        controller_loss = charge["controller_loss_w"]
+        delivered = charge["stored_w"] + charge["bank_internal_loss_w"]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            on_current = np.where(duty > 0, charge["charge_current_a"] / duty, 0.0)
+        v_load = bank_pt.emf_v + on_current * bank_pt.r_ohm
+        r_f = wiring.r_feeder_ohm
     cable_loss = string_loss + home_loss + feeder_loss + bank_loss
 
     # Residuals of the laws the solution must satisfy.
@@ -177,13 +228,20 @@ def _solve_chunk(system: System, g_w_m2, t_c) -> dict:
         with np.errstate(divide="ignore", invalid="ignore"):
             expected_i = np.where(r_l == 0.0, i, (v - e_l) / np.where(r_l == 0.0, 1.0, r_l))
         kcl = np.abs(i - expected_i)
+        if charge is not None:
+            kcl = np.where(charge["stage"] == "idle", 0.0, kcl)  # a blocking diode or open switch
     # Relative to everything flowing, not to the net: mismatched groups can
     # circulate far more power among themselves than reaches the load.
     # The diode-voltage term n_s |x| |J| bounds the rounding of each string
-    # voltage (x - I R_s cancels near short circuit).
-    scale = _over_groups(n_s * (np.abs(pt.x_v) + np.abs(pt.module_i_a * state.r_s_ohm)) * np.abs(j)) \
-        + cable_loss + np.abs(delivered) + 1e-12
-    balance = (generated - cable_loss - delivered) / scale
+    # voltage (x - I R_s cancels near short circuit); a thousandth of Voc x Isc
+    # keeps an open circuit's stray nanoamps from reading as a broken balance.
+    scale = duty * _over_groups(n_s * (np.abs(pt.x_v) + np.abs(pt.module_i_a * state.r_s_ohm)) * np.abs(j)) \
+        + cable_loss + np.abs(controller_loss) + np.abs(delivered) + 1e-3 * v_oc * i_sc + 1e-12
+    balance = (generated - cable_loss - controller_loss - delivered) / scale
+    if charge is not None:
+        v_load_side = charge["input_v"]
+    else:
+        v_load_side = v - i * r_f
 
     # Linearised views: each group at its string terminals, the array at the
     # bus, and the array plus feeder as the load sees it.
@@ -193,14 +251,14 @@ def _solve_chunk(system: System, g_w_m2, t_c) -> dict:
     array_eq = linear.linearise(v, i, _over_groups(g_bus))
     m_array = linear.matching_ratio(v, i, array_eq.r_ohm)
     r_seen = array_eq.r_ohm + r_f
-    m_load = linear.matching_ratio(v_load, i, r_seen)
+    m_load = linear.matching_ratio(v_load_side, i, r_seen)
 
     # Superposition at the bus: each group's Thevenin as seen from the bus,
     # and the load branch (for a tracker, its static resistance).
     with np.errstate(divide="ignore", invalid="ignore"):
         e_group_bus = pt.bus_v + j / g_bus
         if branch is None:
-            e_l, r_l = np.zeros_like(v), np.where(i != 0.0, v_load / i, np.inf) + r_f
+            e_l, r_l = np.zeros_like(v), np.where(i != 0.0, v_load_side / i, np.inf) + r_f
         else:
             e_l, r_l = np.broadcast_to(branch[0], v.shape), np.broadcast_to(branch[1], v.shape)
         shares, load_share, share_total = linear.superposition(e_group_bus, 1.0 / g_bus, e_l, r_l)
@@ -209,7 +267,7 @@ def _solve_chunk(system: System, g_w_m2, t_c) -> dict:
     drift = {}
     for tag, factor in (("low", 1.0 - DRIFT_FRACTION), ("high", 1.0 + DRIFT_FRACTION)):
         v_d = v * factor
-        sol_d = solve_at_bus_voltage(net, v_d, sol.x_v, relative_tolerance=DRIFT_TOLERANCE)
+        sol_d = solve_at_bus_voltage(net, v_d, x_sol, relative_tolerance=DRIFT_TOLERANCE)
         converged &= sol_d.converged
         i_exact = _over_groups(evaluate_groups(net, sol_d.x_v).group_i_a)
         i_lin = array_eq.current_at(v_d)
@@ -234,9 +292,19 @@ def _solve_chunk(system: System, g_w_m2, t_c) -> dict:
         "load_side_r_ohm": r_seen, "load_side_matching_ratio": m_load,
         "share_load_emf_a": load_share, "superposition_total_a": share_total,
         **drift,
+        "controller_loss_w": controller_loss,
         "kvl_residual_v": kvl, "kcl_residual_a": kcl, "energy_balance_residual": balance,
         "converged": converged,
     }
+    if charge is not None:
+        out.update({
+            "charge_current_a": charge["charge_current_a"], "stored_w": charge["stored_w"],
+            "curtailed_w": charge["curtailed_w"], "bank_internal_loss_w": charge["bank_internal_loss_w"],
+            "duty": duty, "controller_input_v": charge["input_v"], "bank_emf_v": bank_pt.emf_v,
+            "bank_r_ohm": bank_pt.r_ohm, "bank_target_v": bank_pt.target_v,
+            "bank_max_charge_a": bank_pt.max_charge_a,
+            "stage": charge["stage"], "limit": charge["limit"],
+        })
     for k, g in enumerate(system.groups):
         pre = f"group_{g.name}_"
         out.update({
@@ -249,31 +317,36 @@ def _solve_chunk(system: System, g_w_m2, t_c) -> dict:
     return out
 
 
-def _frame_from_chunks(system: System, g, t, chunk_size: int) -> pd.DataFrame:
+def _frame_from_chunks(system: System, g, t, chunk_size: int, soc=None, bank_temp_c=None) -> pd.DataFrame:
     """Solve chunk by chunk into one preallocated column-major block.
 
-    One block, filled in place, becomes the DataFrame without a copy: at a
-    year of minutes this saves about a second of memory traffic.
+    One block of the float columns, filled in place, becomes the DataFrame
+    without a copy: at a year of minutes this saves about a second of memory
+    traffic. Flags and labels (``converged``, ``stage``, ``limit``) follow.
     """
     n = len(g)
-    block = columns = converged = None
+    block = columns = others = None
     for start in range(0, n, chunk_size):
-        part = _solve_chunk(system, g[start:start + chunk_size], t[start:start + chunk_size])
+        sl = slice(start, start + chunk_size)
+        part = _solve_chunk(system, g[sl], t[sl], None if soc is None else soc[sl],
+                            None if bank_temp_c is None else bank_temp_c[sl])
         if block is None:
-            columns = [k for k in part if k != "converged"]
+            columns = [k for k, a in part.items() if np.asarray(a).dtype.kind == "f"]
+            others = {k: np.empty(n, np.asarray(a).dtype) for k, a in part.items() if k not in columns}
             block = np.empty((n, len(columns)), order="F")
-            converged = np.empty(n, bool)
         stop = start + len(part["v"])
         for k, name in enumerate(columns):
             block[start:stop, k] = part[name]
-        converged[start:stop] = part["converged"]
+        for name, arr in others.items():
+            arr[start:stop] = part[name]
     frame = pd.DataFrame(block, columns=columns, copy=False)
-    frame["converged"] = converged
+    for name, arr in others.items():
+        frame[name] = arr
     return frame
 
 
-def operating_points(system: System, irradiance_w_m2=None, cell_temp_c=None, *, on_failure: str = "raise",
-                     chunk_size: int = CHUNK_SIZE) -> pd.DataFrame:
+def operating_points(system: System, irradiance_w_m2=None, cell_temp_c=None, *, soc=None, bank_temp_c=None,
+                     on_failure: str = "raise", chunk_size: int = CHUNK_SIZE) -> pd.DataFrame:
     """Exact operating points, linearised equivalents and accounting per condition.
 
     Parameters
@@ -285,6 +358,9 @@ def operating_points(system: System, irradiance_w_m2=None, cell_temp_c=None, *, 
         from the system file.
     cell_temp_c : same forms, optional
         Cell temperature [degC].
+    soc, bank_temp_c : float or array (N,), optional
+        The bank's state of charge [-] and temperature [degC], where the
+        system has a bank; by default the system file's.
     on_failure : {"raise", "flag"}
         What to do if the solver does not converge for some conditions:
         raise :class:`~pvsource.errors.ConvergenceError`, or return those rows
@@ -321,7 +397,9 @@ def operating_points(system: System, irradiance_w_m2=None, cell_temp_c=None, *, 
                                               "give the same number, or a scalar") from None
     if len(g) == 0:
         raise InputError("irradiance_w_m2", None, "no conditions given (an empty array)")
-    frame = _frame_from_chunks(system, g, t, chunk_size)
+    soc = _bank_condition(system, soc, "soc", (0.0, 1.0), len(g))
+    bank_temp_c = _bank_condition(system, bank_temp_c, "bank_temp_c", (-40.0, 70.0), len(g))
+    frame = _frame_from_chunks(system, g, t, chunk_size, soc, bank_temp_c)
 
     bad = ~frame["converged"].to_numpy()
     if bad.any():
@@ -357,7 +435,7 @@ def point_record(system: System, row: pd.Series) -> dict:
     ``efficiency`` and ``mpp_shortfall_w`` are the stable interface; the rest
     add detail.
     """
-    r = {k: (_clean(v) if k != "converged" else bool(v)) for k, v in row.items()}
+    r = {k: (bool(v) if k == "converged" else v if isinstance(v, str) else _clean(v)) for k, v in row.items()}
     groups = []
     for g in system.groups:
         pre = f"group_{g.name}_"
@@ -376,7 +454,7 @@ def point_record(system: System, row: pd.Series) -> dict:
             (r["thevenin_e_v"] - v_d) / r["thevenin_r_ohm"]
         drift[tag] = {"v": v_d, "i_exact_a": r[f"drift_{tag}_i_exact_a"], "i_linear_a": _clean(i_lin)
                       if i_lin is not None else None, "error_fraction_of_i": r[f"drift_{tag}_error"]}
-    return {
+    rec = {
         "source": {k: r[f"source_{k}"] for k in ("v_oc", "i_sc", "v_mp", "i_mp", "p_mp")},
         "operating_point": {"v": r["v"], "i": r["i"], "p": r["p"]},
         "thevenin": {"e_v": r["thevenin_e_v"], "r_ohm": r["thevenin_r_ohm"]},
@@ -389,8 +467,10 @@ def point_record(system: System, row: pd.Series) -> dict:
         "generated_w": r["generated_w"],
         "groups_p_mp_w": r["groups_p_mp_w"],
         "parallel_mismatch_w": r["parallel_mismatch_w"],
-        "losses_w": {"string_leads": r["string_loss_w"], "home_runs": r["home_run_loss_w"],
-                     "feeder": r["feeder_loss_w"], "bank_side": r["bank_loss_w"]},
+        "losses_w": {"array_cables": r["string_loss_w"] + r["home_run_loss_w"] + r["feeder_loss_w"],
+                     "string_leads": r["string_loss_w"], "home_runs": r["home_run_loss_w"],
+                     "feeder": r["feeder_loss_w"], "controller": r["controller_loss_w"],
+                     "bank_cables": r["bank_loss_w"], "bank_internal": r.get("bank_internal_loss_w") or 0.0},
         "load": {"kind": system.load.kind, "v": r["load_v"], "i": r["i"]},
         "load_side": {"e_v": r["thevenin_e_v"], "r_ohm": r["load_side_r_ohm"],
                       "matching_ratio": r["load_side_matching_ratio"]},
@@ -402,3 +482,15 @@ def point_record(system: System, row: pd.Series) -> dict:
                       "energy_balance": r["energy_balance_residual"]},
         "converged": r["converged"],
     }
+    if system.bank is not None:
+        rec["load"] = {"kind": f"{system.bank.chemistry.key} bank through a {system.controller.kind} controller",
+                       "v": r["load_v"], "i": r["charge_current_a"]}
+        rec.update({
+            "charge_current_a": r["charge_current_a"], "stage": row["stage"], "limit": row["limit"],
+            "stored_w": r["stored_w"], "curtailed_w": r["curtailed_w"],
+            "controller": {"kind": system.controller.kind, "input_v": r["controller_input_v"], "duty": r["duty"]},
+            "bank": {"chemistry": system.bank.chemistry.key, "emf_v": r["bank_emf_v"], "r_ohm": r["bank_r_ohm"],
+                     "target_v": r["bank_target_v"], "max_charge_a": r["bank_max_charge_a"],
+                     "soc": system.bank.soc, "temp_c": system.bank.temp_c},
+        })
+    return rec

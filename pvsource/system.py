@@ -11,6 +11,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from pvsource.array import StringGroup
+from pvsource.bank import Bank
 from pvsource.controller import Controller
 from pvsource.module import Module
 from pvsource.wiring import CableRun, GroupWiring, group_wiring
@@ -62,7 +63,9 @@ class System:
     cables : tuple of CableRun
     load : Load
     controller : Controller or None
-        Equipment limits, when the file gives a ``[controller]``.
+        The charge controller, or just its input limits.
+    bank : Bank or None
+        The battery bank; with a bank, the controller charges it and ``load`` is unused.
     name : str
     source : str
         Where the description came from (a file name), for messages.
@@ -75,6 +78,7 @@ class System:
     name: str = ""
     source: str = ""
     controller: Controller | None = None
+    bank: Bank | None = None
 
     @property
     def group_names(self) -> tuple[str, ...]:

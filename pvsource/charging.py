@@ -1,0 +1,222 @@
+"""Charging a bank through a controller: the charge current, the stage, the limits.
+
+At one set of conditions the array, its cables, the controller, the bank-side
+cables and the bank (its Thevenin equivalent E, R) settle at one point. This
+module finds it for each controller kind (:mod:`pvsource.controller`) and
+accounts for every watt:
+
+    generated = array-side cables + controller + bank-side cables
+                + bank internal resistance + stored (E I).
+
+Stages at an operating point
+----------------------------
+- bulk: the current is limited by the source, the controller's output
+  current, or the bank's maximum charge rate;
+- absorption: the bank terminals are held at the absorption voltage, so the
+  current is (V_abs - E) / R (the constant-voltage law);
+- float: the same law at the float voltage, once the bank is full;
+- unregulated: a direct connection, where nothing limits the voltage.
+
+A PWM controller in regulation switches the array on and off; averages are
+reported and the array's point is its on-state.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from pvsource.controller import Controller, efficiency_at
+from pvsource.network import (
+    Network, evaluate_groups, solve_max_power, solve_power_above_mpp, solve_thevenin, subset_rows,
+)
+
+# Above this state of charge the bank is treated as full: the controller holds
+# float rather than absorption (common practice: absorption ends when the
+# current has tapered, near full charge).
+FLOAT_SOC = 0.995
+
+
+@dataclass(frozen=True)
+class BankPoint:
+    """The bank at each condition, as the charging solver needs it (arrays (N,)).
+
+    Attributes
+    ----------
+    emf_v, r_ohm : Thevenin EMF [V] and internal resistance [ohm]
+    target_v : the regulation voltage of the stage in force (absorption or float) [V]
+    floating : True where the target is the float voltage
+    max_charge_a : the bank's maximum charge current (0 where charging is not allowed) [A]
+    """
+
+    emf_v: np.ndarray
+    r_ohm: np.ndarray
+    target_v: np.ndarray
+    floating: np.ndarray
+    max_charge_a: np.ndarray
+
+
+def _quadratic_current(p_out_w, emf_v, r_ohm):
+    """Current I >= 0 with (E + I R) I = P: the bank current a converter output power drives."""
+    p = np.maximum(p_out_w, 0.0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        root = 2.0 * p / (emf_v + np.sqrt(emf_v * emf_v + 4.0 * r_ohm * p))
+    return np.where(p > 0.0, root, 0.0)
+
+
+def _stage_names(cv_binds, floating, limit_other):
+    return np.where(cv_binds, np.where(floating, "float", "absorption"), limit_other)
+
+
+def solve_charging(net: Network, controller: Controller, bank: BankPoint, r_feeder_ohm: float,
+                   r_bank_cables_ohm: float) -> dict:
+    """Operating point, charge current, stage and loss split for every condition.
+
+    Parameters
+    ----------
+    net : Network
+        The array and its PV-side cables (string leads and home runs).
+    controller : Controller
+    bank : BankPoint
+    r_feeder_ohm : float
+        Loop resistance from the combiner bus to the controller input [ohm].
+    r_bank_cables_ohm : float
+        Loop resistance from the controller output to the bank, interconnects included [ohm].
+
+    Returns
+    -------
+    dict of arrays (N,) and (N, G)
+        ``x_v`` (N, G) and ``bus_v``: the array's point (on-state for PWM);
+        ``converged``; ``duty``; ``input_v``: controller input voltage;
+        ``charge_current_a``; ``stage``; ``limit``; ``stored_w``;
+        ``curtailed_w``; ``controller_loss_w``; ``bank_cable_loss_w``;
+        ``bank_internal_loss_w``; ``scale``: the factor (duty) that turns
+        on-state array quantities into averages.
+    """
+    if controller.kind == "mppt":
+        return _mppt(net, controller, bank, r_feeder_ohm, r_bank_cables_ohm)
+    return _switched(net, controller, bank, r_feeder_ohm, r_bank_cables_ohm)
+
+
+def _switched(net, controller, bank, r_f, r_bc):
+    """Direct connection and PWM: the array sees the bank through the cables and a diode drop."""
+    v_d = controller.diode_drop_v
+    sol = solve_thevenin(net, bank.emf_v + v_d, bank.r_ohm + r_bc + r_f)
+    i_on = evaluate_groups(net, sol.x_v).group_i_a.sum(axis=-1)
+    blocked = i_on < 0.0
+    if controller.kind == "pwm" or v_d > 0.0:
+        # A diode or an open switch stops the bank feeding the array.
+        if blocked.any():
+            oc = solve_thevenin(net, 0.0, np.inf)
+            x = np.where(blocked[:, None], oc.x_v, sol.x_v)
+            bus = np.where(blocked, oc.bus_v, sol.bus_v)
+            sol = type(sol)(x, bus, sol.converged & (oc.converged | ~blocked), sol.iterations)
+            i_on = np.where(blocked, 0.0, i_on)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        i_cv = np.maximum((bank.target_v - bank.emf_v) / bank.r_ohm, 0.0)
+    if controller.kind == "pwm":
+        i_target = np.minimum(i_cv, bank.max_charge_a)
+        regulating = i_on > i_target
+        with np.errstate(divide="ignore", invalid="ignore"):
+            duty = np.where(regulating, i_target / i_on, 1.0)
+        i_bank = np.where(regulating, i_target, i_on)
+        cv = regulating & (i_cv <= bank.max_charge_a)
+        other = np.where(regulating, "bulk", "bulk")
+        limit = np.where(regulating, np.where(cv, "voltage regulation", "bank charge rate"), "source")
+        stage = _stage_names(cv, bank.floating, other)
+    else:
+        duty = np.ones_like(i_on)
+        i_bank = i_on
+        over = bank.emf_v + i_on * bank.r_ohm > bank.target_v
+        stage = np.full(i_on.shape, "unregulated", dtype=object)
+        limit = np.where(over, "none: above the regulation voltage", "none")
+    held = np.isin(stage, ("absorption", "float"))
+    stage = np.where((i_bank > 0.0) | held, stage, np.where(i_bank < 0.0, "discharging", "idle")).astype(object)
+    i_on_avg = duty * i_on
+    return {
+        "x_v": sol.x_v, "bus_v": sol.bus_v, "converged": sol.converged, "duty": duty,
+        "input_v": sol.bus_v - i_on * r_f,
+        "charge_current_a": i_bank, "stage": stage, "limit": limit.astype(object),
+        "stored_w": bank.emf_v * i_bank,
+        "curtailed_w": np.zeros_like(i_on),
+        "controller_loss_w": v_d * np.maximum(i_on_avg, 0.0),
+        "bank_cable_loss_w": duty * i_on * i_on * r_bc,
+        "bank_internal_loss_w": duty * i_on * i_on * bank.r_ohm,
+        "scale": duty,
+    }
+
+
+def _mppt(net, controller, bank, r_f, r_bc):
+    """A tracking converter: input at the maximum power point within its window and limits."""
+    r_tot = bank.r_ohm + r_bc
+    oc = solve_thevenin(net, 0.0, np.inf)
+    mp = solve_max_power(net, r_f, open_circuit=oc)
+    i_mp = evaluate_groups(net, mp.x_v).group_i_a.sum(axis=-1)
+    v_in_mp = mp.bus_v - i_mp * r_f
+    # The input window: above the bank voltage by the headroom, and above the
+    # controller's own minimum.
+    v_in_min = np.maximum(bank.emf_v + controller.min_headroom_v, controller.min_input_v or 0.0)
+    low = v_in_mp < v_in_min
+    x, bus, converged = mp.x_v, mp.bus_v, mp.converged & oc.converged
+    if low.any():
+        held = solve_thevenin(net, v_in_min, r_f)
+        x = np.where(low[:, None], held.x_v, x)
+        bus = np.where(low, held.bus_v, bus)
+        converged = converged & (held.converged | ~low)
+    i_in = evaluate_groups(net, x).group_i_a.sum(axis=-1)
+    dead = i_in <= 0.0  # the window lies above what the array can reach
+    p_avail = np.where(dead, 0.0, (bus - i_in * r_f) * i_in)
+
+    rated = controller.rated_power_w
+    if rated is None:
+        rated = (controller.max_output_a or 1.0) * np.maximum(bank.target_v, 1.0)
+    p_out = efficiency_at(controller, p_avail / rated) * p_avail
+    i_free = _quadratic_current(p_out, bank.emf_v, r_tot)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        i_cv = np.maximum((bank.target_v - bank.emf_v) / bank.r_ohm, 0.0)
+    i_ctrl = np.full_like(i_free, np.inf if controller.max_output_a is None else controller.max_output_a)
+    i_max = np.minimum(np.minimum(i_ctrl, bank.max_charge_a), i_cv)
+    limited = i_free > i_max
+    i_bank = np.where(limited, i_max, i_free)
+    p_out_actual = np.where(limited, (bank.emf_v + i_bank * r_tot) * i_bank, p_out)
+    p_in_needed = np.where(limited, p_out_actual / efficiency_at(controller, p_out_actual / rated), p_avail)
+
+    if limited.any():
+        # Take less: move the input toward Voc until it delivers what is needed.
+        rows = np.flatnonzero(limited & (p_in_needed > 0))
+        if rows.size:
+            sub = subset_rows(net, rows)
+            cut = solve_power_above_mpp(sub, p_in_needed[rows], r_f, bus[rows], oc.bus_v[rows], x[rows])
+            x = x.copy()
+            bus = bus.copy()
+            x[rows], bus[rows] = cut.x_v, cut.bus_v
+            converged = converged.copy()
+            converged[rows] &= cut.converged
+        off = np.flatnonzero(limited & (p_in_needed <= 0))
+        if off.size:
+            x = x.copy()
+            bus = bus.copy()
+            x[off], bus[off] = oc.x_v[off], oc.bus_v[off]
+    i_in = evaluate_groups(net, x).group_i_a.sum(axis=-1)
+    p_in = np.where(dead, 0.0, (bus - i_in * r_f) * i_in)
+    p_out_final = np.where(limited, p_out_actual, p_out)
+
+    which = np.select([i_max == i_cv, i_max == bank.max_charge_a], ["voltage regulation", "bank charge rate"],
+                      "controller output current")
+    limit = np.where(limited, which, np.where(low & ~dead, "input voltage window", "source"))
+    limit = np.where(dead, "input voltage window", limit).astype(object)
+    cv = limited & (which == "voltage regulation")
+    stage = _stage_names(cv, bank.floating, "bulk")
+    stage = np.where((i_bank > 0.0) | cv, stage, "idle").astype(object)
+    return {
+        "x_v": x, "bus_v": bus, "converged": converged, "duty": np.ones_like(bus),
+        "input_v": bus - i_in * r_f,
+        "charge_current_a": i_bank, "stage": stage, "limit": limit,
+        "stored_w": bank.emf_v * i_bank,
+        "curtailed_w": np.maximum(p_avail - p_in, 0.0),
+        "controller_loss_w": p_in - p_out_final,
+        "bank_cable_loss_w": i_bank * i_bank * r_bc,
+        "bank_internal_loss_w": i_bank * i_bank * bank.r_ohm,
+        "scale": np.ones_like(bus),
+    }
