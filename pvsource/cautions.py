@@ -22,6 +22,8 @@ WIRING = (
     "A voltage-drop budget is about efficiency. Conductor ampacity, insulation rated for DC, sunlight and wet "
     "locations, and overcurrent protection are separate requirements.",
     "Size battery cables and their fuses for the bank's fault current, not for the PV current.",
+    "With three or more strings in parallel, a faulted string takes the other strings' current backwards: "
+    "string fuses or a rating for that backfeed are needed (NEC 690.9, or the local equivalent).",
     "Terminations carry the same current as the cable: torque them as the maker specifies and use lugs rated "
     "for the conductor's metal.",
 )

@@ -140,23 +140,55 @@ def max_string_voc(system: System, min_air_c: float) -> Check:
                  "common practice", "max", detail)
 
 
+def _pv_side_drop_v(system: System, string_current_a: float) -> float:
+    """Worst drop from a string's terminals to the controller input, every string at the given current [V]."""
+    worst = 0.0
+    total = string_current_a * sum(g.strings for g in system.groups)
+    feeder = total * sum(r.loop_resistance_ohm for r in system.cables if r.role == "feeder")
+    for g in system.groups:
+        own = sum(string_current_a * r.loop_resistance_ohm for r in system.cables if r.role == "string" and r.group == g.name)
+        own += sum(string_current_a * g.strings * r.loop_resistance_ohm for r in system.cables
+                   if r.role == "home-run" and r.group == g.name)
+        worst = max(worst, own + feeder)
+    return worst
+
+
 def min_string_vmp(system: System, max_air_c: float, cell_rise_c: float = DEFAULT_CELL_RISE_C) -> Check:
-    """Lowest string Vmp in full sun at the record high against the voltage the equipment needs."""
+    """Lowest Vmp reaching the controller in full sun at the record high, against what the equipment needs.
+
+    The string's Vmp (single-diode model, 1000 W/m2, cells ``cell_rise_c``
+    above the air) less the drop of the PV-side cables at that current, then
+    compared with the controller's minimum input; without one, with the
+    bank's absorption voltage (plus the tracker's headroom), or the
+    battery or voltage load's EMF.
+    """
+    from pvsource import bank as bank_model  # a bank is optional; import where used
+
     t_cell = max_air_c + cell_rise_c
-    vmp = module_vmp_at(system, t_cell)
+    state = parameters_at(system.module.parameters, STC_IRRADIANCE_W_M2, t_cell)
+    sd = pvsystem.singlediode(state.i_l_a, state.i_o_a, state.r_s_ohm, state.r_sh_ohm, state.a_v)
+    vmp, imp = float(np.squeeze(sd["v_mp"])), float(np.squeeze(sd["i_mp"]))
     n_s = min(g.modules_per_string for g in system.groups)
-    value = n_s * vmp
-    if system.controller is not None and system.controller.min_input_v is not None:
-        limit, against = system.controller.min_input_v, "[controller].min_input_v"
+    drop = _pv_side_drop_v(system, imp)
+    value = n_s * vmp - drop
+    c = system.controller
+    if c is not None and c.min_input_v is not None:
+        limit, against = c.min_input_v, "[controller].min_input_v"
+    elif system.bank is not None:
+        v_abs, _ = bank_model.charge_voltages_v(system.bank, system.bank.temp_c)
+        headroom = c.min_headroom_v if c is not None and c.kind == "mppt" else 0.0
+        limit = float(v_abs) + headroom
+        against = f"the bank's absorption voltage {float(v_abs):.2f} V" + (f" + {headroom:g} V headroom" if headroom else "")
     elif system.load.kind in ("battery", "voltage"):
         limit, against = system.load.emf_v, f"the {system.load.kind} load's {system.load.emf_v:g} V"
     else:
-        limit, against = None, "nothing: no [controller].min_input_v and no battery or voltage load"
+        limit, against = None, "nothing: no [controller].min_input_v, no [bank], no battery or voltage load"
     detail = (f"{_modules(n_s)} x {vmp:.2f} V at 1000 W/m2 with cells at {max_air_c:g} + {cell_rise_c:g} = "
-              f"{t_cell:g} degC; compared with {against}")
+              f"{t_cell:g} degC, less {drop:.2f} V in the PV-side cables at {imp:.2f} A per string; "
+              f"compared with {against}")
     return Check("min_string_vmp", value, limit, "V", _compare(value, limit, "min"),
-                 f"common practice: Vmp in full sun with cells {cell_rise_c:g} degC above the hottest air",
-                 "min", detail)
+                 f"common practice: Vmp in full sun with cells {cell_rise_c:g} degC above the hottest air, "
+                 "at the controller's input", "min", detail)
 
 
 def design_currents(system: System) -> list[dict]:
@@ -190,9 +222,10 @@ def conductor_current_checks(system: System) -> list[Check]:
         checks.append(Check(
             f"conductor_current[{d['run']}]", d["conductor_current_a"], d["ampacity_a"], "A",
             _compare(d["conductor_current_a"], d["ampacity_a"], "max"),
-            "NEC 690.8(A)(1) and 690.8(B)(1): 1.25 x 1.25 x Isc", "max",
-            f"{d['strings_carried']} string(s) x Isc {module_isc_stc(system):g} A x 1.25 x 1.25; "
-            "the rating must already include temperature and bundling corrections"))
+            "NEC 690.8(A)(1) and 690.8(B): 1.25 x Isc, and 1.25 x that for the conductor", "max",
+            f"{d['strings_carried']} string(s) x Isc {module_isc_stc(system):g} A x 1.25 x 1.25 against the "
+            "given rating; conservative when the rating already includes temperature and bundling corrections "
+            "(690.8(B)(2) then asks only 1.25 x Isc)"))
     return checks
 
 

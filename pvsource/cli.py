@@ -182,8 +182,8 @@ def wire(
         "--irradiance", metavar="W_M2|GROUP=W_M2", help="Design irradiance [W/m2]; default 1000 (STC).")] = None,
     cell_temp: Annotated[Optional[list[str]], typer.Option(
         "--cell-temp", metavar="C|GROUP=C", help="Design cell temperature [degC]; default 25 (STC).")] = None,
-    with_load: Annotated[bool, typer.Option(
-        "--with-load", help="Use the system's own load instead of the maximum power point.")] = False,
+    at_mpp: Annotated[bool, typer.Option(
+        "--at-mpp", help="Put the array at its maximum power point instead of the system's own load or bank.")] = False,
     current: Annotated[Optional[float], typer.Option("--current", help="One run: current [A].")] = None,
     length_m: Annotated[Optional[float], typer.Option(
         "--length-m", help="One run: one-way route length of the two-conductor circuit [m].")] = None,
@@ -198,11 +198,16 @@ def wire(
 ):
     """Voltage drop and loss of every cable run, and the smallest size that meets a budget."""
     budget = _budget_fraction(budget_pct)
-    single = {"--current": current, "--length-m": length_m, "--size": size, "--volts": volts}
+    single = {"--current": current, "--length-m": length_m, "--size": size, "--volts": volts,
+              "--material": None if material == "copper" else material,
+              "--temp-c": None if temp_c == 75.0 else temp_c, "--parallel": None if parallel == 1 else parallel}
     if system_file is None:
         missing = [k for k in ("--current", "--length-m", "--size") if single[k] is None]
         if missing:
             raise InputError(missing[0], None, "is needed without a system file (or give SYSTEM.toml)")
+        for name, given in (("--irradiance", irradiance), ("--cell-temp", cell_temp), ("--at-mpp", at_mpp)):
+            if given:
+                raise InputError(name, None, "applies to a system file; one run is given by its current")
         rec = quick_record(current, length_m, size, material, temp_c, volts, budget, parallel)
         rec["cautions"] = [*cautions.WIRING, *cautions.GENERAL]
         _emit_json(rec) if as_json else typer.echo(render_quick_wire(rec))
@@ -211,8 +216,8 @@ def wire(
     if given:
         raise InputError(given[0], None, "describes one run without a system file; the system file's runs are used")
     system = load_system(system_file)
-    if not with_load:
-        system = replace(system, load=Load("mpp"))
+    if at_mpp:
+        system = replace(system, load=Load("mpp"), bank=None)
     # The design point is STC unless the options say otherwise: the file's
     # own conditions describe an example hour, not a design case.
     stc_system = replace(system, groups=tuple(replace(grp, irradiance_w_m2=None, cell_temp_c=None)
@@ -223,11 +228,14 @@ def wire(
     t = _conditions_for(stc_system, t_opt, "--cell-temp", default=25.0)
     row = operating_points(system, g, t).iloc[0]
     rec = wire_record(system, row, budget)
-    point = "maximum power point" if not with_load else "the system's load"
+    if at_mpp or (system.bank is None and system.load.kind == "mpp"):
+        point = "the array's maximum power point"
+    else:
+        point = "the system's own " + ("bank and controller" if system.bank is not None else "load")
     shown = ", ".join(f"{grp.name} {row[f'group_{grp.name}_irradiance_w_m2']:g} W/m2 "
                       f"{row[f'group_{grp.name}_cell_temp_c']:g} degC" for grp in system.groups)
     conditions = f"{point} at {shown}" + (" (STC)" if g_opt is None and t_opt is None else "")
-    rec["design_point"] = {"conditions": conditions, "at_mpp": not with_load, "v": float(row["v"]),
+    rec["design_point"] = {"conditions": conditions, "at_mpp": point.endswith("maximum power point"), "v": float(row["v"]),
                            "i": float(row["i"]), "generated_w": float(row["generated_w"])}
     rec["cautions"] = [*cautions.WIRING, *cautions.GENERAL]
     _emit_json(rec) if as_json else typer.echo(render_wire(system, rec, conditions))

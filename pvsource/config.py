@@ -186,8 +186,10 @@ def parse_cable(table: Table, index: int, group_names) -> CableRun:
             size = conductors.parse_size(table.text("size"), where=where)
         except InputError as exc:
             raise InputError(where, table.field("size"), exc.expected) from None
-    material = table.text("material", "copper", choices=MATERIAL_NAMES)
-    material = conductors.material_properties(material).name
+    material = table.text("material", "copper")
+    if material.lower() not in MATERIAL_NAMES:
+        raise InputError(where, table.field("material"), f"expected one of copper, aluminium, got {material!r}")
+    material = conductors.material_properties(material.lower()).name
     temp_c = table.number("temp_c", conductors.DEFAULT_CONDUCTOR_TEMP_C, minimum=-60.0, maximum=250.0)
     conductor_class = int(table.number("conductor_class", 2, integer=True))
     if conductor_class not in conductors.STRANDING_FACTORS:

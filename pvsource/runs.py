@@ -79,14 +79,24 @@ def run_flows(system: System, row) -> list[RunFlow]:
                     flows[k] = RunFlow(run, current, v, r, drop, copies * current * drop, copies * v * current,
                                        copies)
                     v -= drop
+    duty = float(row["duty"]) if "duty" in row else 1.0
     i = float(row["i"])
     v = float(row["v"])
-    for role in ("feeder", "bank", "interconnect"):
+    bank_side = ("bank", "interconnect")
+    for role in ("feeder", *bank_side):
+        if role == "bank" and system.bank is not None:
+            # Behind a controller the bank runs carry the charge current at
+            # the bank's voltage: from the controller output to the bank.
+            i = float(row["charge_current_a"]) / duty if duty > 0 else 0.0
+            r_bank_side = sum(run.loop_resistance_ohm for _, run in runs if run.role in bank_side)
+            v = float(row["load_v"]) + i * r_bank_side
         for k, run in runs:
             if run.role == role:
                 r = run.loop_resistance_ohm
                 drop = i * r
-                flows[k] = RunFlow(run, i, v, r, drop, i * drop, v * i)
+                # A switching controller passes current for a share of the time:
+                # the drop is the on-state one, the loss the average.
+                flows[k] = RunFlow(run, i, v, r, drop, duty * i * drop, duty * v * i)
                 v -= drop
     return [flows[k] for k, _ in runs]
 
@@ -119,6 +129,9 @@ def size_options(flow: RunFlow, count: int = OPTIONS_SHOWN) -> list[SizeOption]:
     areas = [s.area_mm2 for s in sizes]
     r = np.atleast_1d(conductors.loop_resistance_ohm(run.length_m, areas, run.material, run.temp_c,
                                                      run.conductors_in_parallel, conductor_class=run.conductor_class))
+    # A user-given resistance describes this cable; other sizes of the same
+    # make are taken to differ from the tables by the same factor.
+    r = r * (run.loop_resistance_ohm / r[0])
     mass = np.atleast_1d(conductors.conductor_mass_kg(run.length_m, areas, run.material, run.conductors_in_parallel,
                                                       stranded=run.conductor_class != 1)) * flow.copies
     out = []
@@ -163,18 +176,34 @@ def _option_record(opt: SizeOption) -> dict:
 
 
 def _recommendation(flow: RunFlow, budget_fraction):
-    """(label or None, note) for a run and a budget."""
+    """(recommended label or None, smallest-by-drop label or None, note) for a run and a budget.
+
+    The recommendation never goes below the chosen size: voltage drop alone
+    cannot show that a smaller conductor is safe, and pvsource does not size
+    for ampacity. The smallest size the drop alone allows is reported beside it.
+    """
     if budget_fraction is None:
-        return None, ""
+        return None, None, ""
     if flow.run.size is None:
-        return None, "no size given (resistance per km only), so no size series to choose from"
+        return None, None, "no size given (resistance per km only), so no size series to choose from"
+    scaled = flow
+    factor = flow.run.loop_resistance_ohm / float(conductors.loop_resistance_ohm(
+        flow.run.length_m, flow.run.size.area_mm2, flow.run.material, flow.run.temp_c,
+        flow.run.conductors_in_parallel, conductor_class=flow.run.conductor_class))
+    if abs(factor - 1.0) > 1e-9:
+        # Search the series with the budget tightened by the cable's own factor.
+        budget_fraction = budget_fraction / factor
     try:
-        size = recommend_size(flow, budget_fraction)
+        size = recommend_size(scaled, budget_fraction)
     except InputError as exc:
-        return None, exc.expected
+        return None, None, exc.expected
     if size is None:
-        return None, "no current flows at the design point"
-    return size.label, ""
+        return None, None, "no current flows at the design point"
+    if size.area_mm2 < flow.run.size.area_mm2:
+        return flow.run.size.label, size.label, (
+            f"the chosen {flow.run.size.label} meets the budget; voltage drop alone would allow {size.label}, "
+            "but only the conductor's ampacity and its protection can say whether a smaller size is safe")
+    return size.label, size.label, ""
 
 
 def wire_record(system: System, row, budget_fraction=None) -> dict:
@@ -182,12 +211,8 @@ def wire_record(system: System, row, budget_fraction=None) -> dict:
     flows = run_flows(system, row)
     runs = []
     for f in flows:
-        rec_size, note = _recommendation(f, budget_fraction)
+        rec_size, by_drop, note = _recommendation(f, budget_fraction)
         breaks = None if budget_fraction is None else bool(f.drop_fraction > budget_fraction)
-        size_note = ""
-        if rec_size and f.run.size and conductors.parse_size(rec_size).area_mm2 < f.run.size.area_mm2:
-            size_note = (f"smaller than the chosen {f.run.size.label}: voltage drop allows it, "
-                         "but only the conductor's ampacity and its protection can")
         runs.append({
             "name": f.run.name, "role": f.run.role, "group": f.run.group,
             "size": f.run.size.label if f.run.size else None, "material": f.run.material,
@@ -196,8 +221,8 @@ def wire_record(system: System, row, budget_fraction=None) -> dict:
             "current_a": f.current_a, "resistance_ohm": f.resistance_ohm, "circuit_v": f.circuit_v,
             "drop_v": f.drop_v, "drop_pct": 100.0 * f.drop_fraction,
             "loss_w": f.loss_w, "loss_pct": 100.0 * f.loss_fraction, "power_w": f.power_w,
-            "breaks_budget": breaks, "recommended_size": rec_size, "recommendation_note": note,
-            "size_note": size_note,
+            "breaks_budget": breaks, "recommended_size": rec_size, "smallest_by_drop": by_drop,
+            "recommendation_note": note,
             "options": [_option_record(o) for o in size_options(f)],
         })
     drops = path_drops(system, flows)
@@ -226,15 +251,21 @@ def quick_record(current_a: float, length_m: float, size_text: str, material: st
         Naming the option at fault.
     """
     size = conductors.parse_size(size_text, where="--size")
-    mat = conductors.material_properties(material, where="--material").name
-    if not np.isfinite(current_a):
-        raise InputError("--current", None, f"expected a finite current in A, got {current_a!r}")
-    if not np.isfinite(length_m) or length_m <= 0:
-        raise InputError("--length-m", None, f"expected a one-way length above 0 m, got {length_m!r}")
-    if volts is not None and (not np.isfinite(volts) or volts <= 0):
-        raise InputError("--volts", None, f"expected a circuit voltage above 0 V, got {volts!r}")
+    try:
+        mat = conductors.material_properties(str(material).lower(), where="--material").name
+    except InputError as exc:
+        raise InputError("--material", None, exc.expected) from None
+    if not np.isfinite(current_a) or not 0 < current_a <= 1.0e5:
+        raise InputError("--current", None, f"expected a current above 0 and at most 100000 A, got {current_a!r}")
+    if not np.isfinite(length_m) or not 0 < length_m <= 1.0e4:
+        raise InputError("--length-m", None, f"expected a one-way length above 0 and at most 10000 m, "
+                                             f"got {length_m!r}")
+    if volts is not None and (not np.isfinite(volts) or not 0.1 <= volts <= 1.0e5):
+        raise InputError("--volts", None, f"expected a circuit voltage from 0.1 to 100000 V, got {volts!r}")
+    if not 1 <= conductors_in_parallel <= 100:
+        raise InputError("--parallel", None, f"expected 1 to 100 conductors, got {conductors_in_parallel!r}")
     if budget_fraction is not None:
-        if not (np.isfinite(budget_fraction) and 0 < budget_fraction < 1):
+        if not (np.isfinite(budget_fraction) and 1e-4 <= budget_fraction < 1):
             raise InputError("--budget-pct", None, f"expected a percentage between 0 and 100, "
                                                    f"got {100 * budget_fraction!r}")
         if volts is None:
@@ -253,7 +284,7 @@ def quick_record(current_a: float, length_m: float, size_text: str, material: st
     drop = current_a * r
     flow = RunFlow(run, current_a, volts if volts else float("nan"), r, drop, current_a * drop,
                    current_a * volts if volts else float("nan"))
-    rec_size, note = _recommendation(flow, budget_fraction)
+    rec_size, by_drop, note = _recommendation(flow, budget_fraction)
     rec = {
         "current_a": current_a, "length_m": length_m, "size": size.label, "material": mat, "temp_c": temp_c,
         "conductors_in_parallel": conductors_in_parallel, "resistance_ohm": r, "drop_v": drop,
@@ -265,7 +296,7 @@ def quick_record(current_a: float, length_m: float, size_text: str, material: st
     }
     if budget_fraction is not None:
         rec.update({"budget_pct": 100.0 * budget_fraction, "recommended_size": rec_size,
-                    "breaks_budget": bool(abs(drop) / volts > budget_fraction)})
+                    "smallest_by_drop": by_drop, "breaks_budget": bool(abs(drop) / volts > budget_fraction)})
         if note:
             rec["recommendation_note"] = note
     return rec

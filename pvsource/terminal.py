@@ -233,8 +233,9 @@ def render_wire(system: System, rec: dict, conditions: str) -> str:
                      + (f" over {r['copies']} strings" if r["copies"] > 1 else "") + flag)
         if budget is not None:
             if r["recommended_size"]:
-                lines.append(f"  smallest size within {budget:g} %: {r['recommended_size']}"
-                             + (f" ({r['size_note']})" if r["size_note"] else ""))
+                lines.append(f"  size within {budget:g} %: {r['recommended_size']}")
+                if r["recommendation_note"]:
+                    lines.append(f"    {r['recommendation_note']}")
             elif r["recommendation_note"]:
                 lines.append(f"  no size recommended: {r['recommendation_note']}")
         if r["options"]:
@@ -262,7 +263,9 @@ def render_quick_wire(rec: dict) -> str:
                  + f"   loss {rec['loss_w']:.2f} W   metal {rec['mass_kg']:.2f} kg")
     if "budget_pct" in rec:
         if rec.get("recommended_size"):
-            lines.append(f"  smallest size within {rec['budget_pct']:g} %: {rec['recommended_size']}")
+            lines.append(f"  size within {rec['budget_pct']:g} %: {rec['recommended_size']}")
+            if rec.get("recommendation_note"):
+                lines.append(f"    {rec['recommendation_note']}")
         else:
             lines.append(f"  no size recommended: {rec.get('recommendation_note', '')}")
     if rec["options"]:

@@ -100,3 +100,24 @@ def test_conductor_rating_check_appears_only_where_a_rating_is_given(demo_module
     assert len(current) == 1
     assert current[0].value == pytest.approx(1.5625 * 3 * 9.8)
     assert current[0].passed is False and current[0].margin < 0
+
+
+def test_hot_vmp_at_the_controller_input_subtracts_the_cable_drop(demo_module):
+    # Law (Kirchhoff): what reaches the controller is the string's Vmp less the
+    # drop of every PV-side run at that current.
+    runs = (cable("string", 5.0, 8.0, "g1"), cable("home-run", 10.0, 5.0, "g1"), cable("feeder", 20.0, 2.0))
+    bare = replace(make_system(demo_module, groups=((3, 2),)), controller=Controller(min_input_v=60.0))
+    wired = replace(bare, cables=runs)
+    st = parameters_at(demo_module.parameters, 1000.0, 75.0)
+    imp = float(np.squeeze(pvsystem.singlediode(st.i_l_a, st.i_o_a, st.r_s_ohm, st.r_sh_ohm, st.a_v)["i_mp"]))
+    drop = imp * runs[0].loop_resistance_ohm + 2 * imp * (runs[1].loop_resistance_ohm + runs[2].loop_resistance_ohm)
+    assert min_string_vmp(wired, 40.0).value == pytest.approx(min_string_vmp(bare, 40.0).value - drop, rel=1e-12)
+
+
+def test_hot_vmp_against_a_bank_uses_its_absorption_voltage(demo_module):
+    from pvsource import bank as bank_model
+    system = replace(make_system(demo_module, groups=((1, 3),)),
+                     bank=bank_model.make_bank("lfp", 8, 1, 280.0, 0.5, 25.0), controller=Controller(kind="pwm"))
+    c = min_string_vmp(system, 35.0)
+    assert c.limit == pytest.approx(8 * 3.55)
+    assert "absorption" in c.detail

@@ -152,7 +152,12 @@ def test_wire_on_a_system_file_reports_every_run(capsys):
                 "options", "breaks_budget"):
         assert key in feeder
     assert feeder["breaks_budget"] is True and rec["over_budget"] == ["array to bank"]
-    assert rec["design_point"]["at_mpp"] is True and "STC" in rec["design_point"]["conditions"]
+    # By default the system's own load (a 24 V bank here) at STC: the current that really flows.
+    assert rec["design_point"]["at_mpp"] is False and "STC" in rec["design_point"]["conditions"]
+    code, out, _ = run(capsys, "wire", EXAMPLE, "--budget-pct", "3", "--at-mpp", "--json")
+    at_mpp = json.loads(out)
+    assert at_mpp["design_point"]["at_mpp"] is True
+    assert at_mpp["runs"][0]["current_a"] < feeder["current_a"]  # a 24 V bank pulls the array toward Isc
     assert [o["size"] for o in feeder["options"]][:2] == ["6 mm2", "10 mm2"]
     assert rec["cautions"]
 
@@ -253,3 +258,34 @@ def test_an_unexpected_failure_is_still_one_line(capsys, monkeypatch):
     monkeypatch.setattr(cli, "load_module", boom)
     code, _, err = run(capsys, "fit", "anything.toml")
     assert code == 1 and err.count("\n") == 1 and "internal error" in err and "Traceback" not in err
+
+
+def test_wire_never_recommends_below_the_chosen_size(capsys):
+    code, out, _ = run(capsys, "wire", "--current", "100", "--length-m", "1", "--size", "2 AWG", "--volts", "48",
+                       "--budget-pct", "3", "--json")
+    rec = json.loads(out)
+    assert rec["recommended_size"] == "2 AWG"
+    assert rec["smallest_by_drop"] == "12 AWG" and "ampacity" in rec["recommendation_note"]
+
+
+@pytest.mark.parametrize("args, words", [
+    (["wire", EXAMPLE, "--material", "aluminium"], "--material"),
+    (["wire", EXAMPLE, "--parallel", "3"], "--parallel"),
+    (["wire", "--current", "20", "--length-m", "15", "--size", "10 AWG", "--at-mpp"], "--at-mpp"),
+    (["wire", "--current", "1e300", "--length-m", "15", "--size", "10 AWG"], "--current"),
+    (["wire", "--current", "-5", "--length-m", "15", "--size", "10 AWG"], "--current"),
+    (["wire", "--current", "5", "--length-m", "1e9", "--size", "10 AWG"], "--length-m"),
+])
+def test_wire_refuses_options_of_the_other_mode_and_absurd_values(capsys, args, words):
+    code, out, err = run(capsys, *args)
+    assert code == 2 and out == "" and err.count("\n") == 1 and words in err
+
+
+def test_wire_sizes_bank_runs_at_the_charge_current(capsys):
+    code, out, _ = run(capsys, "wire", str(DATA / "example-cabin-mppt.toml"), "--budget-pct", "2", "--json")
+    rec = json.loads(out)
+    runs = {r["name"]: r for r in rec["runs"]}
+    feeder, bank_run = runs["array to controller"], runs["controller to bank"]
+    # Behind a tracker the bank cable carries the charge current at the bank's voltage.
+    assert bank_run["current_a"] > 2 * feeder["current_a"]
+    assert bank_run["circuit_v"] < 35.0 < feeder["circuit_v"]
