@@ -31,9 +31,13 @@ from pvsource.checks import DEFAULT_CELL_RISE_C, design_checks, design_currents
 from pvsource.config import load_module, load_system
 from pvsource.errors import ConvergenceError, InputError, PhysicsGuardError
 from pvsource.operating import CELL_TEMP_RANGE_C, IRRADIANCE_RANGE_W_M2, operating_points, point_record
+from pvsource.plots import sweep_figure
 from pvsource.runs import quick_record, wire_record
+from pvsource.sweep import run_sweep
 from pvsource.system import Load
-from pvsource.terminal import fit_record, render_checks, render_fit, render_point, render_quick_wire, render_wire
+from pvsource.terminal import (
+    fit_record, render_checks, render_fit, render_point, render_quick_wire, render_sweep, render_wire,
+)
 
 app = typer.Typer(
     name="pvsource",
@@ -239,6 +243,49 @@ def wire(
                            "i": float(row["i"]), "generated_w": float(row["generated_w"])}
     rec["cautions"] = [*cautions.WIRING, *cautions.GENERAL]
     _emit_json(rec) if as_json else typer.echo(render_wire(system, rec, conditions))
+
+
+@app.command()
+def sweep(
+    system_file: Annotated[Path, typer.Argument(metavar="SYSTEM.toml", help="The system file.")],
+    over: Annotated[str, typer.Option(
+        "--over", help="load-resistance, bank-voltage, bank-class, soc, modules, size:RUN, irradiance or cell-temp.")],
+    start: Annotated[str, typer.Option("--from", help="First value (a size such as \"6 mm2\" for size:RUN).")],
+    stop: Annotated[str, typer.Option("--to", help="Last value.")],
+    steps: Annotated[int, typer.Option("--steps", help="Number of values (sizes and classes step along their series).")] = 25,
+    irradiance: Annotated[Optional[list[str]], typer.Option(
+        "--irradiance", metavar="W_M2|GROUP=W_M2", help="Conditions for the sweep; default: the file's.")] = None,
+    cell_temp: Annotated[Optional[list[str]], typer.Option(
+        "--cell-temp", metavar="C|GROUP=C", help="Conditions for the sweep; default: the file's.")] = None,
+    plot: Annotated[Optional[Path], typer.Option("--plot", metavar="FILE.png",
+                                                 help="Draw power and efficiency against the matching ratio.")] = None,
+    as_json: Annotated[bool, typer.Option("--json", help="Print the rows as JSON instead of a table.")] = False,
+):
+    """Sweep one variable: delivered power, efficiency, matching ratio and charge current, exact and linearised."""
+    system = load_system(system_file)
+    if plot is not None:
+        if plot.suffix.lower() != ".png":
+            raise InputError("--plot", None, f"expected a .png file name, got {str(plot)!r}")
+        if not (plot.parent if str(plot.parent) else Path(".")).is_dir():
+            raise InputError("--plot", None, f"the folder {str(plot.parent)!r} does not exist")
+        if plot.resolve() == Path(system_file).resolve():
+            raise InputError("--plot", None, "would overwrite the system file")
+    g = t = None
+    if irradiance is not None or over != "irradiance":
+        parsed = parse_condition(irradiance, "--irradiance")
+        g = None if parsed is None else _conditions_for(system, parsed, "--irradiance")
+    if cell_temp is not None or over != "cell-temp":
+        parsed = parse_condition(cell_temp, "--cell-temp")
+        t = None if parsed is None else _conditions_for(system, parsed, "--cell-temp")
+    rows, design = run_sweep(system, over, start, stop, steps, g, t)
+    records = json_ready(rows.to_dict(orient="records"))
+    if plot is not None:
+        sweep_figure(rows, design, plot, f"{system.name or system.source}: sweep over {over}")
+    if as_json:
+        _emit_json({"variable": over, "unit": design["unit"], "design_point": design, "rows": records,
+                    "plot": str(plot) if plot is not None else None})
+    else:
+        typer.echo(render_sweep(system, rows, design, plot))
 
 
 @app.command()

@@ -14,6 +14,7 @@ from pathlib import Path
 from pvsource import conductors
 from pvsource.array import StringGroup
 from pvsource.bank import CHEMISTRIES, Bank, make_bank
+from pvsource.bank import charge_voltages_v as bank_charge_voltages
 from pvsource.controller import DEFAULT_EFFICIENCY_CURVE, KINDS, Controller
 from pvsource.errors import InputError
 from pvsource.module import Datasheet, DiodeParameters, Module, fit_datasheet, module_from_parameters
@@ -263,7 +264,7 @@ def parse_controller(table: Table) -> Controller:
     if kind != "mppt":
         for key in ("max_output_a", "rated_power_w", "efficiency", "efficiency_curve", "min_headroom_v"):
             if table.has(key):
-                raise InputError(where, table.field(key), f"applies to kind = \"mppt\" only")
+                raise InputError(where, table.field(key), "applies to kind = \"mppt\" only")
     table.finish()
     return controller
 
@@ -350,6 +351,11 @@ def parse_system(data: dict, where: str, base_dir: Path) -> System:
             raise InputError(where, "[load]", "a [bank] is the load; give one or the other")
         if controller is None or controller.kind is None:
             raise InputError(where, "[controller].kind", "a [bank] needs a controller: kind = direct, pwm or mppt")
+        v_abs, _ = bank_charge_voltages(bank, bank.temp_c)
+        if controller.max_input_v is not None and controller.max_input_v <= float(v_abs):
+            raise InputError(where, "[controller].max_input_v",
+                             f"{controller.max_input_v:g} V is not above the bank's {float(v_abs):.1f} V absorption "
+                             "voltage: the controller could never charge it")
     elif controller is not None and controller.kind is not None:
         raise InputError(where, "[controller].kind", "a controller kind needs a [bank] to charge")
     return System(module=module, groups=tuple(groups), cables=tuple(cables), load=load, name=name, source=where,

@@ -36,3 +36,14 @@ def rng():
 
 def cable(role, length_m, ohm_per_km, group=None):
     return CableRun(f"{role} {group or ''}", role, length_m, ohm_per_km, group)
+
+
+def run_cli(capsys, *args):
+    """Run the pvsource command line in-process: (exit code, stdout, stderr)."""
+    from pvsource.cli import main
+
+    with pytest.raises(SystemExit) as exc:
+        main(list(args))
+        raise SystemExit(0)
+    out = capsys.readouterr()
+    return exc.value.code or 0, out.out, out.err

@@ -122,3 +122,18 @@ def test_a_blocking_diode_stops_back_feed_at_night(demo_module):
     assert operating_points(with_diode, 0.0, 10.0).iloc[0]["charge_current_a"] == 0.0
     # Without one, a 24 V bank drives current back into a dark module (physics, not a fault).
     assert operating_points(without, 0.0, 10.0).iloc[0]["charge_current_a"] <= 0.0
+
+
+def test_direct_coupled_current_matches_pvlib_at_the_bank_voltage(demo_module):
+    # Reference: pvlib.pvsystem.i_from_v at the bank's terminal voltage E + I R
+    # (one string of one module, no cables, no diode).
+    from pvlib import pvsystem
+    from pvsource.module import parameters_at
+    system = replace(make_system(demo_module, groups=((1, 2),)), bank=bank_model.make_bank("lfp", 8, 1, 200, 0.5, 25),
+                     controller=Controller(kind="direct"))
+    r = operating_points(system, 800.0, 45.0).iloc[0]
+    v_terminal = r["bank_emf_v"] + r["charge_current_a"] * r["bank_r_ohm"]
+    st = parameters_at(demo_module.parameters, 800.0, 45.0)
+    ref = 2 * float(pvsystem.i_from_v(v_terminal, st.i_l_a, st.i_o_a, st.r_s_ohm, st.r_sh_ohm, st.a_v,
+                                      method="lambertw"))
+    assert r["charge_current_a"] == pytest.approx(ref, rel=1e-9)

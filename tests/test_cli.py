@@ -8,21 +8,16 @@ import sys
 import pytest
 
 import pvsource
-from pvsource.cli import main, parse_condition
+from pvsource.cli import parse_condition
 from pvsource.errors import InputError
 
-from conftest import DATA, ROOT
+from conftest import DATA, ROOT, run_cli
 
 EXAMPLE = str(DATA / "example-system.toml")
 TWO_FACES = str(DATA / "example-two-faces.toml")
 
 
-def run(capsys, *args):
-    with pytest.raises(SystemExit) as exc:
-        main(list(args))
-        raise SystemExit(0)
-    out = capsys.readouterr()
-    return exc.value.code or 0, out.out, out.err
+run = run_cli
 
 
 def test_point_json_has_the_documented_keys_in_si_units(capsys):
@@ -289,3 +284,17 @@ def test_wire_sizes_bank_runs_at_the_charge_current(capsys):
     # Behind a tracker the bank cable carries the charge current at the bank's voltage.
     assert bank_run["current_a"] > 2 * feeder["current_a"]
     assert bank_run["circuit_v"] < 35.0 < feeder["circuit_v"]
+
+
+def test_point_with_a_bank_reports_charging(capsys):
+    code, out, _ = run(capsys, "point", str(DATA / "example-cabin-mppt.toml"), "--json")
+    rec = json.loads(out)
+    assert code == 0
+    for key in ("charge_current_a", "stage", "stored_w", "curtailed_w", "losses_w"):
+        assert key in rec
+    assert set(rec["losses_w"]) >= {"array_cables", "controller", "bank_cables", "bank_internal"}
+    parts = rec["losses_w"]
+    assert rec["generated_w"] == pytest.approx(parts["array_cables"] + parts["controller"] + parts["bank_cables"]
+                                               + parts["bank_internal"] + rec["stored_w"], rel=1e-9)
+    code, out, _ = run(capsys, "point", str(DATA / "example-cabin-mppt.toml"))
+    assert "Charging" in out and "stage" in out

@@ -178,3 +178,51 @@ def test_controller_limits(tmp_path):
         load_system(write(tmp_path, GOOD + "\n[controller]\nmax_input_v = 30\nmin_input_v = 150\n"))
     with pytest.raises(InputError, match="unknown key"):
         load_system(write(tmp_path, GOOD + "\n[controller]\nmax_input_volts = 30\n"))
+
+
+BANK = GOOD.split("[load]")[0] + """
+[controller]
+kind = "mppt"
+max_input_v = 150
+max_output_a = 40
+
+[bank]
+chemistry = "lfp"
+cells_in_series = 8
+strings = 1
+capacity_ah = 280
+soc = 0.5
+temp_c = 20
+"""
+
+
+def test_bank_and_controller_sections(tmp_path):
+    system = load_system(write(tmp_path, BANK))
+    assert system.bank.chemistry.key == "lfp" and system.bank.cells_in_series == 8
+    assert system.controller.kind == "mppt" and system.controller.max_output_a == 40
+    with_overrides = BANK + "\n[bank.overrides]\nabsorption_v_per_cell = 3.5\n"
+    assert load_system(write(tmp_path, with_overrides)).bank is not None
+
+
+@pytest.mark.parametrize("edit, field, words", [
+    (("soc = 0.5", "soc = 1.5"), "[bank].soc", "at most 1"),
+    (('chemistry = "lfp"', 'chemistry = "sodium"'), "[bank].chemistry", "expected one of"),
+    (("max_input_v = 150", "max_input_v = 20"), "[controller].max_input_v", "absorption"),
+    (('kind = "mppt"', 'kind = "magic"'), "[controller].kind", "expected one of"),
+    (("capacity_ah = 280", "capacity_ah = -280"), "[bank].capacity_ah", "greater than zero"),
+    (("strings = 1\ncapacity", "strings = 0\ncapacity"), "[bank].strings", "greater than zero"),
+])
+def test_bad_bank_and_controller_values(tmp_path, edit, field, words):
+    assert edit[0] in BANK
+    with pytest.raises(InputError) as exc:
+        load_system(write(tmp_path, BANK.replace(*edit)))
+    assert exc.value.field == field and words in exc.value.expected
+
+
+def test_bank_needs_a_controller_kind_and_excludes_a_load(tmp_path):
+    with pytest.raises(InputError, match="needs a controller"):
+        load_system(write(tmp_path, BANK.replace('kind = "mppt"\n', "").replace("max_output_a = 40\n", "")))
+    with pytest.raises(InputError, match="give one or the other"):
+        load_system(write(tmp_path, BANK + '\n[load]\nkind = "mpp"\n'))
+    with pytest.raises(InputError, match="unknown override|overrides"):
+        load_system(write(tmp_path, BANK + "\n[bank.overrides]\nvoltage_boost = 3\n"))

@@ -1,0 +1,213 @@
+"""Sweeps of one design or operating variable, with the linearised model beside the exact one.
+
+Each step solves the system exactly (:func:`pvsource.operating.operating_points`)
+and records delivered power, efficiency, the matching ratio and the charge
+current. Beside it, the Thevenin equivalent of the array at the design point
+predicts the same quantities as if the array were linear: P = E^2 m / (R (1+m)^2)
+and efficiency m / (1 + m), with a maximum at m = 1. Where the two agree the
+linear view explains the numbers; where they part, the array's curvature does.
+
+Variables (``--over``):
+
+==================  ==========================================================
+``load-resistance`` a resistor load [ohm]
+``bank-voltage``    a bank wired straight to the array, its EMF swept [V];
+                    its resistance is the system's bank or battery load's
+``bank-class``      the bank's cells in series for nominal 12, 24, 48 V ...,
+                    at the same stored energy, with the system's controller
+``soc``             the bank's state of charge [-]
+``modules``         modules per string, every group [-]
+``size:RUN``        the conductor size of the run named RUN, along its series
+``irradiance``      every group [W/m2]
+``cell-temp``       every group [degC]
+==================  ==========================================================
+"""
+
+from __future__ import annotations
+
+from dataclasses import replace
+
+import numpy as np
+import pandas as pd
+
+from pvsource import bank as bank_model
+from pvsource import conductors
+from pvsource.errors import InputError
+from pvsource.linear import linear_transfer
+from pvsource.operating import operating_points
+from pvsource.system import Load, System
+
+VARIABLES = ("load-resistance", "bank-voltage", "bank-class", "soc", "modules", "size:RUN", "irradiance",
+             "cell-temp")
+MAX_STEPS = 2000
+NOMINAL_CLASSES_V = (12.0, 24.0, 48.0)
+# Cells in series of the nominal 12, 24 and 48 V classes (common practice:
+# LFP 12.8/25.6/51.2 V, lead-acid 6/12/24 cells, NMC 3S/7S/13S packs).
+CLASS_CELLS = {"lfp": {12.0: 4, 24.0: 8, 48.0: 16}, "lead-acid-flooded": {12.0: 6, 24.0: 12, 48.0: 24},
+               "lead-acid-sealed": {12.0: 6, 24.0: 12, 48.0: 24}, "nmc": {12.0: 3, 24.0: 7, 48.0: 13}}
+ROW_KEYS = ("value", "delivered_w", "efficiency", "matching_ratio", "charge_current_a", "v", "i", "p",
+            "generated_w", "linear_p_w", "linear_efficiency")
+
+
+def _grid(start: float, stop: float, steps: int) -> np.ndarray:
+    return np.linspace(start, stop, steps)
+
+
+def _number(text: str, option: str) -> float:
+    try:
+        value = float(text)
+    except ValueError:
+        raise InputError(option, None, f"expected a number, got {text!r}") from None
+    if not np.isfinite(value):
+        raise InputError(option, None, f"expected a finite number, got {text!r}")
+    return value
+
+
+def sweep_values(system: System, variable: str, start: str, stop: str, steps: int):
+    """The values a sweep visits, and their unit, checked against the system."""
+    if not 2 <= steps <= MAX_STEPS:
+        raise InputError("--steps", None, f"expected 2 to {MAX_STEPS} steps, got {steps}")
+    if variable.startswith("size:"):
+        name = variable[5:]
+        run = next((r for r in system.cables if r.name == name), None)
+        if run is None:
+            raise InputError("--over", None, f"no cable run named {name!r}; runs: "
+                                             f"{', '.join(r.name for r in system.cables) or 'none'}")
+        lo = conductors.parse_size(start, where="--from")
+        hi = conductors.parse_size(stop, where="--to")
+        if lo.series != hi.series:
+            raise InputError("--to", None, f"{hi.label} is not in the series of {lo.label}")
+        sizes = [s for s in conductors.standard_sizes(lo.series) if lo.area_mm2 <= s.area_mm2 <= hi.area_mm2]
+        if not sizes:
+            raise InputError("--from", None, f"no standard size between {lo.label} and {hi.label}")
+        return sizes, "size"
+    a, b = _number(start, "--from"), _number(stop, "--to")
+    if variable == "bank-class":
+        if system.bank is None:
+            raise InputError("--over", None, "bank-class needs a system with a [bank]")
+        classes = [c for c in NOMINAL_CLASSES_V if min(a, b) <= c <= max(a, b)]
+        if not classes:
+            raise InputError("--from", None, f"no nominal class ({', '.join(f'{c:g}' for c in NOMINAL_CLASSES_V)} V) "
+                                             f"between {a:g} and {b:g} V")
+        return classes, "V"
+    if variable == "modules":
+        lo, hi = int(round(min(a, b))), int(round(max(a, b)))
+        if lo < 1 or hi > 200:
+            raise InputError("--from", None, f"expected modules per string from 1 to 200, got {a:g} to {b:g}")
+        return list(range(lo, hi + 1)), "modules"
+    limits = {"load-resistance": (1e-6, 1e9, "ohm"), "bank-voltage": (0.1, 2000.0, "V"), "soc": (0.0, 1.0, "-"),
+              "irradiance": (0.0, 2000.0, "W/m2"), "cell-temp": (-60.0, 120.0, "degC")}
+    if variable not in limits:
+        raise InputError("--over", None, f"expected one of {', '.join(VARIABLES)}, got {variable!r}")
+    lo, hi, unit = limits[variable]
+    for option, value in (("--from", a), ("--to", b)):
+        if not lo <= value <= hi:
+            raise InputError(option, None, f"expected {lo:g} to {hi:g} {unit} for {variable}, got {value:g}")
+    if variable == "soc" and system.bank is None:
+        raise InputError("--over", None, "soc needs a system with a [bank]")
+    if variable == "load-resistance":
+        # Resistances matter by ratio: step them geometrically.
+        return list(np.geomspace(a, b, steps)), unit
+    return list(_grid(a, b, steps)), unit
+
+
+def _bank_resistance(system: System) -> float:
+    if system.bank is not None:
+        return float(bank_model.internal_resistance_ohm(system.bank))
+    if system.load.kind == "battery":
+        return system.load.resistance_ohm
+    return 0.0
+
+
+def _variant(system: System, variable: str, value) -> System:
+    """The system with one thing changed."""
+    if variable == "load-resistance":
+        return replace(system, load=Load("resistor", resistance_ohm=float(value)), bank=None)
+    if variable == "bank-voltage":
+        return replace(system, load=Load("battery", emf_v=float(value), resistance_ohm=_bank_resistance(system)),
+                       bank=None)
+    if variable == "bank-class":
+        b = system.bank
+        cells = CLASS_CELLS[b.chemistry.key][float(value)]
+        energy = b.capacity_ah * b.cells_in_series
+        return replace(system, bank=replace(b, cells_in_series=cells, capacity_ah=energy / cells))
+    if variable == "modules":
+        return replace(system, groups=tuple(replace(g, modules_per_string=int(value)) for g in system.groups))
+    if variable.startswith("size:"):
+        name = variable[5:]
+        cables = []
+        for run in system.cables:
+            if run.name == name:
+                r_km = 1000.0 * float(conductors.resistance_per_m_ohm(value.area_mm2, run.material, run.temp_c,
+                                                                        conductor_class=run.conductor_class))
+                run = replace(run, size=value, resistance_ohm_per_km=r_km)
+            cables.append(run)
+        return replace(system, cables=tuple(cables))
+    return system
+
+
+def run_sweep(system: System, variable: str, start: str, stop: str, steps: int, irradiance_w_m2=None,
+              cell_temp_c=None) -> tuple[pd.DataFrame, dict]:
+    """Solve the system at every value of one variable.
+
+    Returns
+    -------
+    rows : DataFrame
+        One row per value with :data:`ROW_KEYS`.
+    design : dict
+        The unchanged system's point (``matching_ratio``, ``delivered_w``,
+        ``efficiency``, ``p``) and its array Thevenin equivalent (``e_v``,
+        ``r_ohm``) from which the linear columns are predicted.
+    """
+    values, unit = sweep_values(system, variable, start, stop, steps)
+    g = irradiance_w_m2
+    t = cell_temp_c
+    base = operating_points(system, g, t).iloc[0]
+    e, r = float(base["thevenin_e_v"]), float(base["thevenin_r_ohm"])
+    frames = []
+    if variable in ("irradiance", "cell-temp", "soc"):
+        arr = np.asarray(values, float)
+        kwargs = {"irradiance": dict(irradiance_w_m2=arr, cell_temp_c=t if t is not None else None),
+                  "cell-temp": dict(irradiance_w_m2=g, cell_temp_c=arr),
+                  "soc": dict(irradiance_w_m2=g, cell_temp_c=t, soc=arr)}[variable]
+        if variable == "irradiance" and t is None:
+            kwargs["cell_temp_c"] = None
+        if variable == "cell-temp" and g is None:
+            kwargs["irradiance_w_m2"] = None
+        frame = operating_points(system, **_broadcast(kwargs, len(arr), system))
+        frames.append(frame)
+    else:
+        for value in values:
+            frames.append(operating_points(_variant(system, variable, value), g, t))
+    df = pd.concat(frames, ignore_index=True)
+    m = df["matching_ratio"].to_numpy()
+    # The linear model describes a source feeding a load (m > 0); back-feed has no analogue.
+    with np.errstate(invalid="ignore", divide="ignore"):
+        lin = linear_transfer(e, r, np.where(m > 0, m, np.nan) * r)
+    rows = pd.DataFrame({
+        "value": [v.label if hasattr(v, "label") else v for v in values],
+        "delivered_w": df["delivered_w"], "efficiency": df["efficiency"], "matching_ratio": m,
+        "charge_current_a": df["charge_current_a"] if "charge_current_a" in df else np.nan,
+        "v": df["v"], "i": df["i"], "p": df["p"], "generated_w": df["generated_w"],
+        "linear_p_w": lin["p_load_w"], "linear_efficiency": lin["efficiency"],
+    })
+    design = {"matching_ratio": float(base["matching_ratio"]), "delivered_w": float(base["delivered_w"]),
+              "efficiency": float(base["efficiency"]), "p": float(base["p"]), "e_v": e, "r_ohm": r,
+              "source_p_mp": float(base["source_p_mp"]), "unit": unit, "variable": variable}
+    return rows, design
+
+
+def _broadcast(kwargs: dict, n: int, system: System) -> dict:
+    """Fill file conditions for the variables not swept, as arrays of the sweep's length."""
+    out = dict(kwargs)
+    for key, attr in (("irradiance_w_m2", "irradiance_w_m2"), ("cell_temp_c", "cell_temp_c")):
+        value = out.get(key)
+        if value is None:
+            missing = [g.name for g in system.groups if getattr(g, attr) is None]
+            if missing:
+                raise InputError(system.source, f"group {missing[0]!r}",
+                                 f"has no {attr}; give it in the file or on the command line")
+            out[key] = np.repeat(np.array([[getattr(g, attr) for g in system.groups]]), n, axis=0)
+        elif not isinstance(value, dict) and np.ndim(value) == 0:
+            out[key] = np.full(n, float(value))
+    return out
