@@ -1,0 +1,531 @@
+"""Weather input and the plane-of-array conditions of one string group.
+
+`read_weather` reads an EPW, TMY3 or plain CSV file into one DataFrame with
+pvlib's column names (``ghi``, ``dni``, ``dhi``, ``poa_global``, ``temp_air``,
+``wind_speed``) plus ``load_w``, in SI units, on a time-zone-aware index.
+`poa_conditions` turns it into what one group of modules sees.
+
+Row numbers in messages are the file's line numbers: the header is row 1, so
+the first data row is row 2 (TMY3: row 3, EPW: row 9).
+
+References
+----------
+.. [1] I. Reda, A. Andreas, "Solar position algorithm for solar radiation
+   applications", Solar Energy 76 (2004) 577-589, doi:10.1016/j.solener.2003.12.003
+.. [2] D. G. Erbs, S. A. Klein, J. A. Duffie, "Estimation of the diffuse radiation
+   fraction for hourly, daily and monthly-average global radiation", Solar Energy
+   28 (1982) 293-302, doi:10.1016/0038-092X(82)90302-4
+.. [3] R. Perez, P. Ineichen, R. Seals, J. Michalsky, R. Stewart, "Modeling daylight
+   availability and irradiance components from direct and global irradiance",
+   Solar Energy 44 (1990) 271-289, doi:10.1016/0038-092X(90)90055-H
+.. [4] J. E. Hay, J. A. Davies, "Calculations of the solar radiation incident on an
+   inclined surface", Proc. First Canadian Solar Radiation Data Workshop (1980) 59-72
+.. [5] F. Kasten, A. T. Young, "Revised optical air mass tables and approximation
+   formula", Applied Optics 28 (1989) 4735-4738, doi:10.1364/AO.28.004735
+.. [6] W. De Soto, S. A. Klein, W. A. Beckman, "Improvement and validation of a model
+   for photovoltaic array performance", Solar Energy 80 (2006) 78-88,
+   doi:10.1016/j.solener.2005.06.010 (the physical incidence-angle model)
+.. [7] B. Marion, "Numerical method for angle-of-incidence correction factors for
+   diffuse radiation incident photovoltaic modules", Solar Energy 147 (2017)
+   344-348, doi:10.1016/j.solener.2017.03.027
+.. [8] D. L. King, W. E. Boyson, J. A. Kratochvil, "Photovoltaic array performance
+   model", Sandia report SAND2004-3535 (2004), doi:10.2172/919131
+.. [9] D. Faiman, "Assessing the outdoor operating temperature of photovoltaic
+   modules", Prog. Photovolt. 16 (2008) 307-315, doi:10.1002/pip.813
+.. [10] S. Wilcox, W. Marion, "Users manual for TMY3 data sets", NREL/TP-581-43156
+   (2008), doi:10.2172/928611
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import re
+from pathlib import Path
+from types import MappingProxyType
+
+import numpy as np
+import pandas as pd
+from pvlib import atmosphere, iam, irradiance, iotools, solarposition, temperature
+
+from pvsource.errors import InputError
+
+NAMES = ("timestamp", "ghi", "dni", "dhi", "poa_global", "temp_air", "wind_speed", "load_w")
+IRRADIANCE = ("ghi", "dni", "dhi", "poa_global")
+POLICIES = ("fail", "fill", "skip")
+TRANSPOSITION_MODELS = ("perez", "haydavies", "isotropic")
+# Longer runs of bad values are outages; interpolating them would hide that.
+FILL_LIMIT = 3
+# Non-leap, so a typical year's 8760 hours (from several source years) become
+# one increasing series without a gap.
+TYPICAL_YEAR = 1990
+# Beyond these SI bounds a value is a fault, not weather.
+BOUNDS = dict.fromkeys(IRRADIANCE, (-5.0, 1500.0)) | {
+    "temp_air": (-60.0, 70.0), "wind_speed": (0.0, np.inf), "load_w": (0.0, np.inf)}
+SI_LABEL = dict.fromkeys(IRRADIANCE, "W/m2") | {"temp_air": "degC", "wind_speed": "m/s", "load_w": "W"}
+_F, _K = (5 / 9, -160 / 9), (1.0, -273.15)
+# unit text in a header cell -> (scale, offset): si = value * scale + offset
+_UNITS = {
+    "W/m2": {"w/m2": (1.0, 0.0), "wm-2": (1.0, 0.0), "kw/m2": (1e3, 0.0), "kwm-2": (1e3, 0.0)},
+    "degC": {"c": (1.0, 0.0), "degc": (1.0, 0.0), "f": _F, "degf": _F, "k": _K, "kelvin": _K},
+    "m/s": {"m/s": (1.0, 0.0), "ms-1": (1.0, 0.0), "km/h": (1 / 3.6, 0.0), "mph": (0.44704, 0.0),
+            "kn": (0.514444, 0.0)},
+    "W": {"w": (1.0, 0.0), "kw": (1e3, 0.0)},
+}
+_OFFSET = r"\d:\d\d(?::\d\d(?:\.\d+)?)?\s*(?:Z|[+-]\d\d(?::?\d\d)?)$"
+_SAPM = temperature.TEMPERATURE_MODEL_PARAMETERS["sapm"]
+# name -> (pvlib.temperature model, its published parameters)
+MOUNTING_PRESETS = MappingProxyType({
+    "open_rack": ("sapm", _SAPM["open_rack_glass_glass"]),
+    "open_rack_polymer": ("sapm", _SAPM["open_rack_glass_polymer"]),
+    "close_roof": ("sapm", _SAPM["close_mount_glass_glass"]),
+    "insulated_back": ("sapm", _SAPM["insulated_back_glass_polymer"]),
+    "faiman_open": ("faiman", {"u0": 25.0, "u1": 6.84}),
+})
+
+
+def read_weather(path, *, columns: dict | None = None, tz: str | None = None,
+                 policy: str = "fail") -> pd.DataFrame:
+    """Read an EPW, TMY3 or plain CSV weather file.
+
+    ``.epw`` goes to :func:`pvlib.iotools.read_epw`; a file whose first line is
+    the TMY3 site header [10]_ (7 comma-separated fields, station number first)
+    to :func:`pvlib.iotools.read_tmy3`; anything else to `read_weather_csv`.
+    A typical year mixes source years, so EPW and TMY3 times move into
+    `TYPICAL_YEAR`. The same checks and `policy` apply to all three.
+
+    Parameters
+    ----------
+    path : str or Path
+    columns, tz, policy
+        As for `read_weather_csv`; ``columns`` is for plain CSV only, and
+        ``tz`` converts an EPW/TMY3 index (which carries the file's offset).
+
+    Returns
+    -------
+    pandas.DataFrame
+        As from `read_weather_csv`; EPW and TMY3 add ``attrs["site"]`` with
+        ``latitude`` [deg], ``longitude`` [deg] and ``altitude_m`` [m].
+    """
+    path, where = Path(path), str(path)
+    _check_policy(policy)
+    kind = "EPW" if path.suffix.lower() == ".epw" else ("TMY3" if _is_tmy3(path) else None)
+    if kind is None:
+        return read_weather_csv(path, columns=columns, tz=tz, policy=policy)
+    if columns:
+        raise InputError("--column", None, f"applies to plain CSV files only; {where} is {kind}")
+    try:
+        if kind == "EPW":
+            data, meta = iotools.read_epw(str(path), coerce_year=TYPICAL_YEAR)
+        else:
+            data, meta = iotools.read_tmy3(str(path), coerce_year=TYPICAL_YEAR, map_variables=True)
+    except Exception as exc:  # the readers raise many types on malformed files
+        raise InputError(where, None, f"cannot be read as {kind} ({exc})") from None
+    times = data.index.tz_convert(_zone(tz)) if tz else data.index
+    names = [n for n in ("ghi", "dni", "dhi", "temp_air", "wind_speed") if n in data]
+    df = _finish(where, pd.Series(times), {n: data[n].to_numpy(float) for n in names},
+                 dict.fromkeys(names), {n: n for n in names + ["timestamp"]},
+                 dict.fromkeys(names, (1.0, 0.0, "SI")),
+                 (9 if kind == "EPW" else 3) + np.arange(len(data)), policy)
+    df.attrs["notes"].insert(0, f"read as {kind} with pvlib; year set to {TYPICAL_YEAR}")
+    df.attrs["site"] = {"latitude": float(meta["latitude"]), "longitude": float(meta["longitude"]),
+                        "altitude_m": float(meta["altitude"])}
+    return df
+
+
+def read_weather_csv(path, *, columns: dict | None = None, tz: str | None = None,
+                     policy: str = "fail") -> pd.DataFrame:
+    """Read a weather CSV into SI units on a time-zone-aware index.
+
+    Required columns: ``timestamp``, ``temp_air`` and ``ghi`` or ``poa_global``;
+    optional: ``dni``, ``dhi``, ``wind_speed``, ``load_w`` (power drawn from
+    the bank). A header cell may carry its unit (``ghi [kW/m2]``,
+    ``temp_air (degF)``). A UTF-8 BOM, ``;`` or tab separators and, with ``;``,
+    decimal commas are recognised. Without a unit, irradiance whose median
+    daily maximum is below 2 is taken as kW/m2 and temperature with median
+    above 45 and maximum above 95 as degF; both are converted with a note.
+
+    Parameters
+    ----------
+    path : str or Path
+    columns : dict, optional
+        Our name -> the CSV's column name (``--column NAME=CSVCOLUMN``).
+    tz : str, optional
+        Zone for timestamps without an offset (IANA name, ``UTC`` or e.g.
+        ``+01:00``); the index is converted to it, else to UTC.
+    policy : {"fail", "fill", "skip"}
+        For bad rows (unreadable, empty or out-of-range values, unordered or
+        repeated timestamps, gaps longer than 1.5 median steps). ``"fail"``
+        raises on the first by row; ``"fill"`` interpolates bad values linearly
+        in time across runs of up to `FILL_LIMIT` rows and drops the rest;
+        ``"skip"`` drops them. Both sort by time and keep the first of
+        repeated timestamps; gaps are only counted.
+
+    Returns
+    -------
+    pandas.DataFrame
+        Irradiance [W/m2], ``temp_air`` [degC], ``wind_speed`` [m/s], ``load_w``
+        [W], without NaN. ``attrs["notes"]`` has one line per conversion, fill
+        or drop, with counts; ``attrs["step_h"]`` is the median step [h].
+
+    Raises
+    ------
+    InputError
+        Naming the file and the column or row (row 1 is the header).
+    """
+    path, where = Path(path), str(path)
+    _check_policy(policy)
+    table, rows, sep = _read_table(path)
+    found = _match_columns(where, list(table.columns), columns or {})
+    cells = {name: cell for name, (cell, _) in found.items()}
+    raw = {name: table[cell] for name, cell in cells.items()}
+    times = _parse_times(where, raw.pop("timestamp"), tz, cells["timestamp"])
+    values = {name: pd.to_numeric(text.str.replace(",", ".") if sep == ";" else text,
+                                  errors="coerce").to_numpy(float) for name, text in raw.items()}
+    units = {name: _unit(where, name, *found[name]) for name in values}
+    raw["timestamp"] = table[cells["timestamp"]]
+    return _finish(where, times, values, raw, cells, units, rows, policy)
+
+
+def _check_policy(policy):
+    if policy not in POLICIES:
+        raise InputError("--policy", policy, f"unknown; expected one of {', '.join(POLICIES)}")
+
+
+def _read_table(path: Path):
+    where = str(path)
+    try:
+        data = path.read_bytes()
+    except OSError as exc:
+        raise InputError(where, None, f"cannot be read ({exc.strerror or exc})") from None
+    text = None
+    for encoding in ("utf-16",) if data[:2] in (b"\xff\xfe", b"\xfe\xff") else ("utf-8-sig", "cp1252"):
+        try:
+            text = data.decode(encoding)
+            break
+        except UnicodeDecodeError:
+            pass
+    if text is None or re.search(r"[\x00-\x08\x0e-\x1f]", text[:65536]):
+        raise InputError(where, None, "is not a text file; expected a CSV (UTF-8 or a spreadsheet export)")
+    if not text.strip():
+        raise InputError(where, None, "is empty; expected a header line and rows of data")
+    sep = max((",", ";", "\t"), key=text.splitlines()[0].count)
+    try:
+        table = pd.read_csv(io.StringIO(text), sep=sep, dtype=str, keep_default_na=False,
+                            skip_blank_lines=False, skipinitialspace=True)
+    except (pd.errors.ParserError, ValueError) as exc:
+        line = re.search(r"line (\d+)", str(exc))
+        raise InputError(where, f"row {line.group(1)}" if line else None,
+                         "has more fields than the header") from None
+    table = table.fillna("").astype(str).apply(lambda c: c.str.strip())
+    table.columns = [str(c).strip() for c in table.columns]
+    # blank lines are kept as empty rows here, so position + 2 is the file's line
+    rows = np.arange(len(table)) + 2
+    filled = (table != "").any(axis=1).to_numpy()
+    if not filled.any():
+        raise InputError(where, None, "has a header but no data rows")
+    return table[filled].reset_index(drop=True), rows[filled], sep
+
+
+def _split_unit(cell: str):
+    m = re.fullmatch(r"(.*?)\s*[\[(]([^\])]*)[\])]\s*", cell)
+    return (m.group(1).strip(), m.group(2).strip()) if m else (cell.strip(), None)
+
+
+def _match_columns(where: str, header: list, columns: dict) -> dict:
+    unknown = [n for n in columns if n not in NAMES]
+    if unknown:
+        raise InputError("--column", unknown[0], f"unknown name; expected one of {', '.join(NAMES)}")
+    found = {}
+    for name in NAMES:
+        target = str(columns.get(name, name)).strip().lower()
+        hits = [c for c in header if target in (c.lower(), _split_unit(c)[0].lower())]
+        if len(hits) > 1:
+            raise InputError(where, f"column {name}", f"matches {len(hits)} header cells "
+                             f"({', '.join(hits)}); choose one with --column {name}=CSVCOLUMN")
+        if hits:
+            found[name] = (hits[0], _split_unit(hits[0])[1])
+        elif name in columns:
+            raise InputError(where, f"column {columns[name]!r}", f"not in the header (from --column "
+                             f"{name}={columns[name]}); the header has: {', '.join(header)}")
+    missing = [n for n in ("timestamp", "ghi or poa_global", "temp_air")
+               if not any(part in found for part in n.split(" or "))]
+    if missing:
+        raise InputError(where, f"column {missing[0]}", "missing; expected a header cell of that "
+                         f"name or --column NAME=CSVCOLUMN; the header has: {', '.join(header)}")
+    return found
+
+
+def _unit(where: str, name: str, cell: str, unit_text: str | None):
+    if unit_text is None:
+        return None
+    key = unit_text.lower().replace(" ", "").replace("°", "deg").replace("²", "2").replace("^", "")
+    table = _UNITS[SI_LABEL[name]]
+    if key not in table:
+        raise InputError(where, f"column {cell!r}", f"unit {unit_text!r} is not understood; "
+                         f"expected one of {', '.join(table)}")
+    return table[key] + (unit_text,)
+
+
+def _zone(tz: str):
+    try:
+        return pd.Timestamp("2000-01-01", tz=tz.strip()).tz
+    except Exception:  # pandas raises several types for an unknown zone
+        raise InputError("--tz", tz, "unknown time zone; expected an IANA name such as "
+                         "Europe/Berlin, UTC, or an offset such as +01:00") from None
+
+
+def _parse_times(where: str, cells: pd.Series, tz: str | None, cell: str) -> pd.Series:
+    zone = _zone(tz) if tz else None
+    has_offset = cells.str.contains(_OFFSET, regex=True).to_numpy()
+    if has_offset.any():
+        # Offsets may differ (daylight saving): in UTC they are one series, and
+        # the order checks catch files where they are not.
+        times = pd.to_datetime(cells, format="ISO8601", utc=True, errors="coerce")
+        times[~has_offset] = pd.NaT
+        return times.dt.tz_convert(zone) if zone is not None else times
+    if zone is None:
+        raise InputError(where, f"column {cell!r}", "timestamps carry no time zone; give --tz "
+                         "(e.g. --tz Europe/Berlin or --tz +01:00) or write them with an offset")
+    times = pd.to_datetime(cells, format="ISO8601", errors="coerce")
+    try:
+        return times.dt.tz_localize(zone, ambiguous="infer", nonexistent="raise")
+    except Exception as exc:  # the zone libraries raise different types
+        raise InputError(where, f"column {cell!r}", f"local times do not fit time zone {tz} ({exc}); "
+                         "if the logger ignores daylight saving give an offset, e.g. --tz +01:00") from None
+
+
+def _finish(where, times, values, raw, cells, units, rows, policy):
+    """Convert to SI, find bad rows, apply the policy and build the frame."""
+    notes, problems, bad, ts_cell = [], [], {}, cells["timestamp"]
+    bad_time = times.isna().to_numpy()
+    if bad_time.any():
+        i = int(np.argmax(bad_time))
+        problems.append((rows[i], ts_cell, f"{raw['timestamp'].iloc[i]!r} is not an ISO 8601 "
+                         "timestamp with an offset (or without one and --tz)"))
+    for name, v in values.items():
+        if np.isnan(v).all():
+            raise InputError(where, f"column {cells[name]!r}", "has no numeric values")
+        if units[name] is None:
+            scale, offset = _guess_unit(where, name, cells[name], v, times.dt.date.to_numpy(), notes)
+        else:
+            scale, offset, text = units[name]
+            if (scale, offset) != (1.0, 0.0):
+                notes.append(f"{name}: converted from {text} (header) to {SI_LABEL[name]}")
+        values[name] = v = v * scale + offset
+        lo, hi = BOUNDS[name]
+        bad[name] = ~((v >= lo) & (v <= hi))
+        if bad[name].any():
+            i = int(np.argmax(bad[name]))
+            text = raw[name].iloc[i] if raw[name] is not None else ""
+            problems.append((rows[i], cells[name], f"{text!r} is not a number" if np.isnan(v[i]) and text
+                             else "is empty" if np.isnan(v[i])
+                             else f"{v[i]:g} {SI_LABEL[name]} is outside {lo:g}..{hi:g}"))
+    frame = pd.DataFrame(values, index=pd.DatetimeIndex(times))[~bad_time]
+    flags, rows = pd.DataFrame(bad)[~bad_time].set_axis(frame.index), rows[~bad_time]
+    t = _ns(frame.index)
+    run_max = np.maximum.accumulate(t)
+    back = np.flatnonzero(t[1:] <= run_max[:-1]) + 1
+    if back.size:
+        j = back[0]
+        k = int(np.argmax(t == run_max[j - 1]))
+        problems.append((rows[j], ts_cell, f"timestamp {frame.index[j]} repeats row {rows[k]}"
+                         if t[j] == t[k] else f"timestamp {frame.index[j]} is earlier than row "
+                         f"{rows[k]}; expected increasing time"))
+    order = np.argsort(t, kind="stable")
+    frame, flags, rows = frame.iloc[order], flags.iloc[order], rows[order]
+    dup = frame.index.duplicated(keep="first")
+    frame, flags, rows = frame[~dup], flags[~dup], rows[~dup]
+    step_h = np.diff(_ns(frame.index)) / 3.6e12
+    # 1.5 steps, not 1: loggers jitter by seconds, and a missing row doubles the step
+    gaps = np.flatnonzero(step_h > 1.5 * np.median(step_h)) if step_h.size else step_h
+    if gaps.size:
+        problems.append((rows[gaps[0] + 1], ts_cell, f"{step_h[gaps[0]]:g} h after row {rows[gaps[0]]} "
+                         f"where the median step is {np.median(step_h):g} h (missing data); "
+                         "use --policy fill or skip to accept gaps"))
+    if policy == "fail" and problems:
+        row, cell, why = min(problems, key=lambda p: p[0])
+        raise InputError(where, f"row {row}, column {cell!r}", why)
+    row_bad = flags.any(axis=1).to_numpy()
+    counts = [(bad_time.sum(), "rows with unreadable timestamps dropped"),
+              ((t[back] < run_max[back - 1]).sum(), "rows out of time order sorted"),
+              (dup.sum(), "rows with repeated timestamps dropped (kept the first)"),
+              (gaps.size, f"gaps in the time step counted (largest {step_h.max(initial=0):g} h)")]
+    if policy == "fill":
+        for name in frame:
+            mask = flags[name].to_numpy()
+            filled = frame[name].mask(mask).interpolate(method="time", limit_area="inside")
+            filled[_long_runs(mask, FILL_LIMIT)] = np.nan
+            frame[name] = filled
+            counts.append(((mask & filled.notna().to_numpy()).sum(),
+                           f"{name} values filled by linear interpolation in time"))
+        row_bad = frame.isna().any(axis=1).to_numpy()
+        counts.append((row_bad.sum(), f"rows dropped that could not be filled (runs over {FILL_LIMIT} rows, or at an end)"))
+    else:
+        counts.append((row_bad.sum(), "rows with missing or impossible values skipped"))
+    frame = frame[~row_bad]
+    if len(frame) < 2:
+        raise InputError(where, None, "has fewer than 2 usable rows")
+    for name in IRRADIANCE:
+        if name in frame:
+            # a pyranometer's night offset, not light leaving the plane
+            small = (frame[name] < 0).to_numpy()
+            frame.loc[small, name] = 0.0
+            counts.append((small.sum(), f"small negative {name} values set to 0"))
+    frame.index.name = "timestamp"
+    frame.attrs["notes"] = notes + [f"{int(n)} {text}" for n, text in counts if n]
+    frame.attrs["step_h"] = float(np.median(np.diff(_ns(frame.index)))) / 3.6e12
+    return frame
+
+
+def _guess_unit(where, name, cell, v, days, notes):
+    if name in IRRADIANCE:
+        daily = pd.Series(v).groupby(days).max()
+        median = daily[daily > 0].median()
+        if median < 2:
+            notes.append(f"{name}: converted from kW/m2 to W/m2 (median daily maximum {median:g})")
+            return 1e3, 0.0
+        if median > BOUNDS[name][1]:
+            raise InputError(where, f"column {cell!r}", f"median daily maximum {median:g} is neither "
+                             f"W/m2 nor kW/m2; give the unit in the header, e.g. '{name} [W/m2]'")
+    if name == "temp_air" and np.nanmedian(v) > 45 and np.nanmax(v) > 95:
+        notes.append(f"temp_air: converted from degF to degC (median {np.nanmedian(v):g}, "
+                     f"maximum {np.nanmax(v):g})")
+        return 5 / 9, -160 / 9
+    return 1.0, 0.0
+
+
+def _ns(times) -> np.ndarray:
+    # pandas may store microseconds or nanoseconds; the gap arithmetic wants one
+    return pd.DatetimeIndex(times).as_unit("ns").asi8
+
+
+def _long_runs(mask: np.ndarray, limit: int) -> np.ndarray:
+    s = pd.Series(mask)
+    length = s.groupby((s != s.shift()).cumsum()).transform("size").to_numpy()
+    return mask & (length > limit)
+
+
+def _is_tmy3(path: Path) -> bool:
+    try:
+        with open(path, "rb") as f:
+            first = f.readline(4096).decode("latin-1")
+        fields = next(csv.reader([first]))
+        [float(x) for x in fields[3:7]]
+    except (OSError, StopIteration, ValueError):
+        return False
+    return len(fields) == 7 and fields[0].strip().isdigit()
+
+
+def poa_conditions(weather: pd.DataFrame, latitude: float, longitude: float, altitude_m: float,
+                   tilt_deg: float, azimuth_deg: float, *, model: str = "perez",
+                   albedo: float = 0.2, mounting: str = "open_rack") -> pd.DataFrame:
+    """Irradiance and cell temperature on one group's plane.
+
+    The sun's apparent (refraction-corrected) position comes from
+    :func:`pvlib.solarposition.get_solarposition` [1]_ at the timestamps as
+    given; it is used throughout. With ``ghi``, the plane's irradiance comes
+    from :func:`pvlib.irradiance.get_total_irradiance` (Perez [3]_, with
+    Kasten-Young air mass [5]_; Hay-Davies [4]_; or isotropic), after
+    splitting ``ghi`` with Erbs [2]_ unless ``dni`` and ``dhi`` are both given.
+    A measured ``poa_global`` is used only without ``ghi`` (it belongs to one
+    plane, and groups may face other ways); it is then also the effective
+    irradiance, and the direct and diffuse columns are NaN. Otherwise the
+    effective irradiance applies the physical incidence-angle model [6]_ to
+    the beam and Marion's diffuse integrals of it [7]_ to sky and ground
+    light. With the sun below the horizon every irradiance is 0.
+
+    Parameters
+    ----------
+    weather : pandas.DataFrame
+        From `read_weather`: time-zone-aware index, ``temp_air`` [degC],
+        ``ghi`` or ``poa_global`` [W/m2], optional ``dni``, ``dhi`` [W/m2] and
+        ``wind_speed`` [m/s] (1 m/s when absent).
+    latitude, longitude : float
+        Site [deg], north and east positive.
+    altitude_m : float
+        Site altitude [m].
+    tilt_deg, azimuth_deg : float
+        Plane tilt from horizontal [deg]; azimuth clockwise from north [deg].
+    model : {"perez", "haydavies", "isotropic"}
+        Sky-diffuse transposition model.
+    albedo : float
+        Ground reflectance [fraction].
+    mounting : str
+        A key of `MOUNTING_PRESETS`: the Sandia model [8]_ with its published
+        coefficients (``open_rack``, ``open_rack_polymer``, ``close_roof``,
+        ``insulated_back``) or Faiman's [9]_ fit (``faiman_open``).
+
+    Returns
+    -------
+    pandas.DataFrame
+        ``poa_global_w_m2``, ``poa_direct_w_m2``, ``poa_diffuse_w_m2``,
+        ``effective_irradiance_w_m2`` [W/m2], ``cell_temp_c`` [degC],
+        ``aoi_deg``, ``solar_zenith_deg`` (apparent) [deg] on the weather's
+        index; ``attrs["notes"]`` says what was assumed.
+    """
+    where = "poa_conditions"
+    for field, value, choices in (("model", model, TRANSPOSITION_MODELS), ("mounting", mounting, MOUNTING_PRESETS)):
+        if value not in choices:
+            raise InputError(where, field, f"{value!r} is unknown; expected one of {', '.join(choices)}")
+    for field, value, lo, hi in (("latitude", latitude, -90, 90), ("longitude", longitude, -180, 180),
+                                 ("altitude_m", altitude_m, -500, 9000), ("tilt_deg", tilt_deg, 0, 180),
+                                 ("azimuth_deg", azimuth_deg, 0, 360), ("albedo", albedo, 0, 1)):
+        if not lo <= float(value) <= hi:
+            raise InputError(where, field, f"{value} is outside {lo}..{hi}")
+    times = weather.index
+    if not isinstance(times, pd.DatetimeIndex) or times.tz is None:
+        raise InputError(where, "weather", "needs a time-zone-aware DatetimeIndex (from read_weather)")
+    if "temp_air" not in weather or not {"ghi", "poa_global"} & set(weather):
+        raise InputError(where, "weather", "needs columns temp_air and ghi or poa_global")
+    light = "ghi" if "ghi" in weather else "poa_global"
+    for name in (light, "temp_air", "dni", "dhi", "wind_speed"):
+        if name in weather and weather[name].isna().any():
+            raise InputError(where, f"weather column {name}", "has missing values; read it with policy fill or skip")
+    notes = []
+    temp_air = weather["temp_air"]
+    sun = solarposition.get_solarposition(times, latitude, longitude, altitude=altitude_m,
+                                          pressure=atmosphere.alt2pres(altitude_m), temperature=temp_air)
+    zenith, sun_azimuth = sun["apparent_zenith"], sun["azimuth"]
+    night = (zenith > 90).to_numpy()
+    aoi = irradiance.aoi(tilt_deg, azimuth_deg, zenith, sun_azimuth)
+
+    def daylight(x):
+        # Perez is 0/0 when dhi = 0, and no light means no diffuse light
+        return np.where(night, 0.0, np.clip(np.nan_to_num(np.asarray(x, float)), 0.0, None))
+
+    if light == "ghi":
+        ghi = weather["ghi"]
+        if "dni" in weather and "dhi" in weather:
+            dni, dhi = weather["dni"], weather["dhi"]
+        else:
+            parts = irradiance.erbs(ghi, zenith, times)
+            dni, dhi = parts["dni"], parts["dhi"]
+            notes.append("dni and dhi split from ghi with the Erbs model")
+        poa = irradiance.get_total_irradiance(
+            tilt_deg, azimuth_deg, zenith, sun_azimuth, dni, ghi, dhi,
+            dni_extra=irradiance.get_extra_radiation(times),
+            airmass=atmosphere.get_relative_airmass(zenith), albedo=albedo, model=model)
+        direct, sky, ground = (daylight(poa[c]) for c in ("poa_direct", "poa_sky_diffuse", "poa_ground_diffuse"))
+        diffuse_iam = iam.marion_diffuse("physical", tilt_deg)
+        effective = (direct * daylight(iam.physical(aoi)) + sky * diffuse_iam["sky"]
+                     + ground * np.nan_to_num(diffuse_iam["ground"]))
+        poa_global, diffuse = direct + sky + ground, sky + ground
+    else:
+        poa_global = effective = daylight(weather["poa_global"])
+        direct = diffuse = np.full(len(times), np.nan)
+        notes.append("poa_global used as measured and as the effective irradiance; no direct/diffuse split")
+    if "wind_speed" in weather:
+        wind = weather["wind_speed"].to_numpy(float)
+    else:
+        wind = np.ones(len(times))
+        notes.append("wind_speed absent: 1 m/s assumed for the cell temperature")
+    kind, parameters = MOUNTING_PRESETS[mounting]
+    cell = (temperature.sapm_cell if kind == "sapm" else temperature.faiman)(
+        poa_global, temp_air.to_numpy(float), wind, **parameters)
+    out = pd.DataFrame({"poa_global_w_m2": poa_global, "poa_direct_w_m2": direct,
+                        "poa_diffuse_w_m2": diffuse, "effective_irradiance_w_m2": effective,
+                        "cell_temp_c": np.asarray(cell, float), "aoi_deg": np.asarray(aoi, float),
+                        "solar_zenith_deg": zenith.to_numpy(float)}, index=times)
+    out.attrs["notes"] = notes
+    return out

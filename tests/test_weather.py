@@ -1,0 +1,355 @@
+"""Weather files and plane-of-array conditions.
+
+References used below: pvlib's own readers and irradiance functions
+(reference library), the TMY3 file shipped with pvlib (open dataset),
+the horizontal-plane identity POA = GHI (law), and the daily extraterrestrial
+irradiation on a horizontal surface, Duffie & Beckman, Solar Engineering of
+Thermal Processes, 4th ed. (2013), eq. 1.10.3 (handbook).
+"""
+
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pvlib
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from pvlib import atmosphere, clearsky, irradiance, solarposition, temperature
+
+from pvsource.errors import InputError
+from pvsource.weather import (MOUNTING_PRESETS, TRANSPOSITION_MODELS, poa_conditions, read_weather,
+                              read_weather_csv)
+
+TMY3 = Path(pvlib.__file__).parent / "data" / "723170TYA.CSV"
+
+
+@pytest.fixture(scope="module")
+def tmy3():
+    return read_weather(TMY3)
+
+
+def day_rows(n=24, start="2024-06-01T00:00+00:00", ghi_peak=900.0, temp=(15.0, 10.0)):
+    """An invented clear-ish day: (iso timestamps, ghi, temp_air), hourly."""
+    times = pd.date_range(start, periods=n, freq="h")
+    hours = np.arange(n) % 24
+    ghi = np.clip(ghi_peak * np.sin(np.pi * (hours - 6) / 12), 0, None).round(1)
+    temp_air = (temp[0] + temp[1] * np.sin(np.pi * (hours - 9) / 12)).round(1)
+    return [t.isoformat() for t in times], ghi, temp_air
+
+
+def write_csv(tmp_path, header, rows, sep=",", name="w.csv", encoding="utf-8", decimal="."):
+    lines = [sep.join(header)]
+    for row in rows:
+        lines.append(sep.join(str(x).replace(".", decimal) if isinstance(x, float) else str(x) for x in row))
+    path = tmp_path / name
+    path.write_text("\n".join(lines) + "\n", encoding=encoding)
+    return path
+
+
+def simple_csv(tmp_path, **kw):
+    stamps, ghi, temp_air = day_rows(**kw)
+    return write_csv(tmp_path, ["timestamp", "ghi", "temp_air"], zip(stamps, ghi, temp_air))
+
+
+# --- EPW / TMY3 dispatch -------------------------------------------------------------
+
+def test_tmy3_matches_pvlib_reader(tmy3):
+    # reference library + open dataset: pvlib.iotools.read_tmy3 on the file pvlib ships
+    ref, meta = pvlib.iotools.read_tmy3(TMY3, coerce_year=1990, map_variables=True)
+    assert len(tmy3) == 8760 and tmy3.attrs["step_h"] == pytest.approx(1.0)
+    for name in ("ghi", "dni", "dhi", "temp_air", "wind_speed"):
+        np.testing.assert_allclose(tmy3[name].sum(), ref[name].sum())
+    assert tmy3.attrs["site"]["latitude"] == meta["latitude"]
+    assert tmy3.index.is_monotonic_increasing and tmy3.notna().all().all()
+
+
+def test_epw_dispatch(tmp_path):
+    # reference library: pvlib.iotools.read_epw reads the same numbers back
+    header = ["LOCATION,Testville,XX,ZZZ,invented,000000,10.00,20.00,1.0,100.0"]
+    header += [f"LINE{k},x" for k in range(2, 9)]
+    rows = []
+    for h in range(1, 25):
+        fields = [2001, 6, 1, h, 60, "?9?9?9?9E0?9?9?9?9", 20.0 + h / 10, 10.0, 50, 101325,
+                  0, 0, 300, max(0, 100 * (12 - abs(h - 12))), 500 if 7 < h < 18 else 0, 100, 0, 0, 0,
+                  0, 180, 2.5] + [0] * 13
+        rows.append(",".join(str(f) for f in fields))
+    path = tmp_path / "site.epw"
+    path.write_text("\n".join(header + rows) + "\n")
+    w = read_weather(path)
+    ref, _ = pvlib.iotools.read_epw(path, coerce_year=1990)
+    np.testing.assert_allclose(w["ghi"].to_numpy(), ref["ghi"].to_numpy())
+    np.testing.assert_allclose(w["temp_air"].to_numpy(), ref["temp_air"].to_numpy())
+    assert w.attrs["site"]["altitude_m"] == 100.0
+
+
+# --- plane of array against pvlib ----------------------------------------------------
+
+def reference_poa(w, site, tilt, azimuth, model, albedo=0.2, decompose=False):
+    """The same chain called directly in pvlib (reference library)."""
+    sun = solarposition.get_solarposition(w.index, site["latitude"], site["longitude"],
+                                          altitude=site["altitude_m"],
+                                          pressure=atmosphere.alt2pres(site["altitude_m"]),
+                                          temperature=w["temp_air"])
+    zen = sun["apparent_zenith"]
+    dni, dhi = w["dni"], w["dhi"]
+    if decompose:
+        parts = irradiance.erbs(w["ghi"], zen, w.index)
+        dni, dhi = parts["dni"], parts["dhi"]
+    poa = irradiance.get_total_irradiance(tilt, azimuth, zen, sun["azimuth"], dni, w["ghi"], dhi,
+                                          dni_extra=irradiance.get_extra_radiation(w.index),
+                                          airmass=atmosphere.get_relative_airmass(zen),
+                                          albedo=albedo, model=model)
+    return poa, zen
+
+
+@pytest.mark.parametrize("model", TRANSPOSITION_MODELS)
+@pytest.mark.parametrize("decompose", [False, True])
+def test_poa_matches_pvlib_on_tmy3(tmy3, model, decompose):
+    site = tmy3.attrs["site"]
+    w = tmy3.drop(columns=["dni", "dhi"]) if decompose else tmy3
+    ours = poa_conditions(w, site["latitude"], site["longitude"], site["altitude_m"], 30, 180, model=model)
+    ref, zen = reference_poa(tmy3, site, 30, 180, model, decompose=decompose)
+    day = (zen <= 90).to_numpy()
+    # Perez's sky clearness is 0/0 when dhi = 0; no diffuse light means no sky diffuse
+    no_diffuse = (tmy3["dhi"] == 0).to_numpy()
+    assert not ref["poa_global"][day & ~no_diffuse].isna().any()
+    ref = ref.fillna(0.0)
+    # reference library: pvlib.irradiance.get_total_irradiance called directly
+    np.testing.assert_allclose(ours["poa_global_w_m2"][day], ref["poa_global"][day].clip(lower=0), atol=1e-9)
+    np.testing.assert_allclose(ours["poa_direct_w_m2"][day], ref["poa_direct"][day].clip(lower=0), atol=1e-9)
+    # night: the sun is below the horizon, so nothing arrives (never NaN, never negative)
+    assert (ours.loc[~day, ["poa_global_w_m2", "effective_irradiance_w_m2"]] == 0).all().all()
+    assert ours.notna().all().all() and (ours["poa_global_w_m2"] >= 0).all()
+    assert (ours["effective_irradiance_w_m2"] <= ours["poa_global_w_m2"] + 1e-9).all()
+    # reference library: the Sandia open-rack cell temperature from pvlib
+    params = temperature.TEMPERATURE_MODEL_PARAMETERS["sapm"]["open_rack_glass_glass"]
+    cell = temperature.sapm_cell(ours["poa_global_w_m2"], tmy3["temp_air"], tmy3["wind_speed"], **params)
+    np.testing.assert_allclose(ours["cell_temp_c"], cell)
+    assert ("Erbs" in " ".join(ours.attrs["notes"])) == decompose
+
+
+@pytest.mark.parametrize("model, rel", [("isotropic", 1e-12), ("haydavies", 1e-4), ("perez", 2e-3)])
+def test_horizontal_plane_sees_ghi_on_a_clear_equinox_day(model, rel):
+    # law: a horizontal plane receives exactly the global horizontal irradiance.
+    # Perez and Hay-Davies cap the circumsolar ratio near the horizon, hence rel.
+    times = pd.date_range("2024-03-20", periods=24 * 60, freq="min", tz="UTC")
+    sun = solarposition.get_solarposition(times, 0.0, 0.0, altitude=0.0, pressure=101325.0,
+                                          temperature=20.0)
+    am = atmosphere.get_absolute_airmass(atmosphere.get_relative_airmass(sun["apparent_zenith"]))
+    sky = clearsky.ineichen(sun["apparent_zenith"], am, linke_turbidity=3.0,
+                            dni_extra=irradiance.get_extra_radiation(times))
+    w = pd.DataFrame({"ghi": sky["ghi"].fillna(0.0), "temp_air": 20.0}, index=times)
+    ours = poa_conditions(w, 0.0, 0.0, 0.0, 0.0, 180.0, model=model)
+    ghi_kwh = w["ghi"].sum() / 60 / 1000
+    assert ours["poa_global_w_m2"].sum() / 60 / 1000 == pytest.approx(ghi_kwh, rel=rel)
+    # handbook: H0 = (24/pi) G_sc (cos(phi) cos(delta) sin(w_s) + w_s sin(phi) sin(delta)),
+    # at phi = delta = 0 and w_s = pi/2 about 10.4 kWh/m2; clear days give KT ~ 0.65-0.8
+    h0_kwh = 24 / np.pi * 1361 / 1000
+    assert 0.6 < ghi_kwh / h0_kwh < 0.85
+
+
+@settings(max_examples=25, deadline=None)
+@given(tilt=st.floats(0, 90), azimuth=st.floats(0, 360), model=st.sampled_from(TRANSPOSITION_MODELS),
+       albedo=st.floats(0, 1))
+def test_any_plane_is_finite_non_negative_and_dark_at_night(tmy3, tilt, azimuth, model, albedo):
+    # law: irradiance is never negative; incidence-angle loss never adds light
+    w = tmy3.iloc[4000:4168]
+    ours = poa_conditions(w, 36.1, -79.95, 273.0, tilt, azimuth, model=model, albedo=albedo)
+    assert ours.notna().all().all() and (ours["poa_global_w_m2"] >= 0).all()
+    assert (ours["effective_irradiance_w_m2"] <= ours["poa_global_w_m2"] + 1e-9).all()
+    assert (ours.loc[ours["solar_zenith_deg"] > 90, "poa_global_w_m2"] == 0).all()
+
+
+def test_measured_poa_is_used_directly():
+    times = pd.date_range("2024-06-01", periods=24, freq="h", tz="Europe/Madrid")
+    w = pd.DataFrame({"poa_global": 500.0, "temp_air": 25.0}, index=times)
+    ours = poa_conditions(w, 40.4, -3.7, 650.0, 30, 180)
+    day = ours["solar_zenith_deg"] <= 90
+    assert (ours.loc[day, "effective_irradiance_w_m2"] == 500.0).all()
+    assert (ours.loc[~day, "poa_global_w_m2"] == 0).all()
+    assert any("1 m/s" in n for n in ours.attrs["notes"])
+
+
+def test_mounting_presets_and_bad_choices(tmy3):
+    w = tmy3.iloc[4000:4048]
+    for name in MOUNTING_PRESETS:
+        assert poa_conditions(w, 36.1, -79.95, 273, 30, 180, mounting=name)["cell_temp_c"].notna().all()
+    with pytest.raises(InputError, match="open_rack, .*insulated_back"):
+        poa_conditions(w, 36.1, -79.95, 273, 30, 180, mounting="roof")
+    with pytest.raises(InputError, match="perez, haydavies, isotropic"):
+        poa_conditions(w, 36.1, -79.95, 273, 30, 180, model="klucher")
+    with pytest.raises(InputError, match="tilt_deg"):
+        poa_conditions(w, 36.1, -79.95, 273, 200, 180)
+
+
+# --- CSV parsing ---------------------------------------------------------------------
+
+def test_plain_csv_round_trip(tmp_path):
+    w = read_weather(simple_csv(tmp_path))
+    assert list(w.columns) == ["ghi", "temp_air"] and len(w) == 24
+    assert str(w.index.tz) == "UTC" and w.attrs["step_h"] == 1.0 and w.attrs["notes"] == []
+
+
+def test_kilowatts_per_square_metre_are_converted(tmp_path):
+    stamps, ghi, temp_air = day_rows(n=48)
+    path = write_csv(tmp_path, ["timestamp", "ghi", "temp_air"], zip(stamps, ghi / 1000, temp_air))
+    w = read_weather_csv(path)
+    np.testing.assert_allclose(w["ghi"], ghi, atol=1e-9)
+    assert any("kW/m2" in n for n in w.attrs["notes"])
+
+
+def test_fahrenheit_values_are_converted(tmp_path):
+    stamps, ghi, temp_air = day_rows(temp=(30.0, 8.0))
+    temp_f = (temp_air * 9 / 5 + 32).round(2)
+    w = read_weather_csv(write_csv(tmp_path, ["timestamp", "ghi", "temp_air"], zip(stamps, ghi, temp_f)))
+    np.testing.assert_allclose(w["temp_air"], (temp_f - 32) * 5 / 9)
+    assert any("degF" in n for n in w.attrs["notes"])
+
+
+def test_units_in_headers(tmp_path):
+    stamps, ghi, temp_air = day_rows()
+    rows = zip(stamps, ghi / 1000, temp_air * 9 / 5 + 32, [36.0] * 24, [2.0] * 24)
+    path = write_csv(tmp_path, ["timestamp", "GHI [kW/m2]", "temp_air (degF)", "wind_speed [km/h]",
+                                "load_w [kW]"], rows)
+    w = read_weather_csv(path)
+    np.testing.assert_allclose(w["ghi"], ghi, atol=1e-9)
+    np.testing.assert_allclose(w["temp_air"], temp_air, atol=1e-9)
+    assert (w["wind_speed"] == 10.0).all() and (w["load_w"] == 2000.0).all()
+    path = write_csv(tmp_path, ["timestamp", "ghi [lux]", "temp_air"], zip(stamps, ghi, temp_air))
+    with pytest.raises(InputError, match="'ghi \\[lux\\]'.*not understood"):
+        read_weather_csv(path)
+
+
+def test_bom_semicolons_and_decimal_commas(tmp_path):
+    stamps, ghi, temp_air = day_rows()
+    path = write_csv(tmp_path, ["timestamp", "ghi", "temp_air"], zip(stamps, ghi, temp_air),
+                     sep=";", decimal=",", encoding="utf-8-sig")
+    assert path.read_bytes().startswith(b"\xef\xbb\xbf") and b"," in path.read_bytes()
+    w = read_weather_csv(path)
+    np.testing.assert_allclose(w["ghi"], ghi)
+    np.testing.assert_allclose(w["temp_air"], temp_air)
+
+
+def test_column_overrides(tmp_path):
+    stamps, ghi, temp_air = day_rows()
+    path = write_csv(tmp_path, ["Time", "Global (W/m2)", "Tamb"], zip(stamps, ghi, temp_air))
+    w = read_weather_csv(path, columns={"timestamp": "Time", "ghi": "Global", "temp_air": "Tamb"})
+    np.testing.assert_allclose(w["ghi"], ghi)
+    with pytest.raises(InputError, match="^--column: irradiance: unknown name"):
+        read_weather_csv(path, columns={"irradiance": "Global"})
+    with pytest.raises(InputError, match="'Tair': not in the header"):
+        read_weather_csv(path, columns={"timestamp": "Time", "ghi": "Global", "temp_air": "Tair"})
+
+
+def test_daylight_saving_offsets_and_time_zones(tmp_path):
+    # the autumn change in Central Europe: 02:00+02:00, 02:00+01:00 are an hour apart
+    stamps = ["2024-10-27T01:00+02:00", "2024-10-27T02:00+02:00", "2024-10-27T02:00+01:00",
+              "2024-10-27T03:00+01:00"]
+    path = write_csv(tmp_path, ["timestamp", "ghi", "temp_air"], [(s, 0.0, 10.0) for s in stamps])
+    w = read_weather_csv(path)
+    assert list(w.index.hour) == [23, 0, 1, 2] and str(w.index.tz) == "UTC"
+    assert str(read_weather_csv(path, tz="Europe/Berlin").index.tz) == "Europe/Berlin"
+    naive = write_csv(tmp_path, ["timestamp", "ghi", "temp_air"],
+                      [(s[:16], 0.0, 10.0) for s in stamps[::2]], name="naive.csv")
+    w = read_weather_csv(naive, tz="+02:00")
+    assert w.index[0] == pd.Timestamp("2024-10-26T23:00Z")
+
+
+# --- bad files: one line naming the file and the column or row ------------------------
+
+def bad_cases():
+    stamps, ghi, temp_air = day_rows()
+    good = list(zip(stamps, ghi, temp_air))
+    three_days = list(zip(*day_rows(n=72)))
+    unsorted = good[:5] + [good[6], good[5]] + good[7:]
+    text = good[:3] + [(stamps[3], "cloudy", temp_air[3])] + good[4:]
+    gap = good[:10] + good[14:]
+    return {
+        "missing column": (["timestamp", "ghi"], good, r"column temp_air: missing"),
+        "irradiance 50000": (["timestamp", "ghi", "temp_air"], [(s, g * 60, t) for s, g, t in good],
+                             r"column 'ghi': median daily maximum 54000 is neither"),
+        "one impossible value": (["timestamp", "ghi", "temp_air"], three_days[:4] + [(stamps[4], 1800.0, 9.0)]
+                                 + three_days[5:], r"row 6, column 'ghi': 1800 W/m2 is outside -5\.\.1500"),
+        "unsorted": (["timestamp", "ghi", "temp_air"], unsorted, r"row 8, column 'timestamp': .* is earlier than row 7"),
+        "duplicate": (["timestamp", "ghi", "temp_air"], good[:6] + [good[5]] + good[6:],
+                      r"row 8, column 'timestamp': .* repeats row 7"),
+        "text in numbers": (["timestamp", "ghi", "temp_air"], text, r"row 5, column 'ghi': 'cloudy' is not a number"),
+        "empty cell": (["timestamp", "ghi", "temp_air"], good[:2] + [(stamps[2], 0.0, "")] + good[3:],
+                       r"row 4, column 'temp_air': is empty"),
+        "gap": (["timestamp", "ghi", "temp_air"], gap, r"row 12, column 'timestamp': 5 h after row 11"),
+        "naive without tz": (["timestamp", "ghi", "temp_air"], [(s[:16], g, t) for s, g, t in good],
+                             r"column 'timestamp': timestamps carry no time zone; give --tz"),
+        "all NaN": (["timestamp", "ghi", "temp_air", "wind_speed"], [(s, g, t, "") for s, g, t in good],
+                    r"column 'wind_speed': has no numeric values"),
+        "bad timestamp": (["timestamp", "ghi", "temp_air"], good[:3] + [("yesterday", 0.0, 5.0)] + good[4:],
+                          r"row 5, column 'timestamp': 'yesterday' is not an ISO 8601"),
+    }
+
+
+@pytest.mark.parametrize("case", list(bad_cases()))
+def test_bad_csv_gives_one_line(tmp_path, case):
+    header, rows, pattern = bad_cases()[case]
+    path = write_csv(tmp_path, header, rows)
+    with pytest.raises(InputError, match=pattern) as exc:
+        read_weather_csv(path)
+    assert "\n" not in str(exc.value) and str(exc.value).startswith(str(path) + ": ")
+
+
+@pytest.mark.parametrize("content, pattern", [
+    (b"", "is empty"),
+    (b"\n\n  \n", "is empty"),
+    (b"\x89PNG\r\n\x1a\n\x00\x00\x00\rIHDR", "is not a text file"),
+    (b"timestamp,ghi,temp_air\n", "no data rows"),
+    (b"timestamp,ghi,temp_air\n2024-01-01T00:00Z,0,1\n2024-01-01T01:00Z,0,1,7\n", "row 3: has more fields"),
+])
+def test_empty_binary_and_ragged_files(tmp_path, content, pattern):
+    path = tmp_path / "bad.csv"
+    path.write_bytes(content)
+    with pytest.raises(InputError, match=pattern) as exc:
+        read_weather(path)
+    assert "\n" not in str(exc.value) and str(exc.value).startswith(str(path))
+
+
+# --- policies ------------------------------------------------------------------------
+
+def messy_rows():
+    stamps, ghi, temp_air = day_rows(n=48)
+    rows = [list(r) for r in zip(stamps, ghi, temp_air)]
+    rows[10][1] = "n/a"                      # one bad value: fillable
+    rows[20][2] = 99.0                       # impossible temperature: fillable
+    for k in range(30, 35):                  # five in a row: too long to fill
+        rows[k][1] = ""
+    rows.insert(40, list(rows[39]))          # a repeated timestamp
+    rows[44], rows[45] = rows[45], rows[44]  # two rows swapped
+    return rows
+
+
+def test_fill_policy_counts_and_leaves_no_nan(tmp_path):
+    path = write_csv(tmp_path, ["timestamp", "ghi", "temp_air"], messy_rows())
+    w = read_weather_csv(path, policy="fill")
+    notes = "\n".join(w.attrs["notes"])
+    assert "1 ghi values filled" in notes and "1 temp_air values filled" in notes
+    assert "5 rows dropped that could not be filled" in notes
+    assert "1 rows with repeated timestamps dropped" in notes and "1 rows out of time order" in notes
+    assert len(w) == 43 and w.notna().all().all() and w.index.is_monotonic_increasing
+    stamps, ghi, _ = day_rows(n=48)
+    # linear in time between its neighbours (the definition of the fill)
+    assert w.loc[pd.Timestamp(stamps[10]), "ghi"] == pytest.approx((ghi[9] + ghi[11]) / 2)
+
+
+def test_skip_policy_counts_and_leaves_no_nan(tmp_path):
+    path = write_csv(tmp_path, ["timestamp", "ghi", "temp_air"], messy_rows())
+    w = read_weather_csv(path, policy="skip")
+    notes = "\n".join(w.attrs["notes"])
+    assert "7 rows with missing or impossible values skipped" in notes
+    assert "1 rows with repeated timestamps dropped" in notes
+    assert len(w) == 41 and w.notna().all().all() and w.index.is_monotonic_increasing
+
+
+def test_gaps_are_counted_under_skip(tmp_path):
+    stamps, ghi, temp_air = day_rows()
+    rows = list(zip(stamps, ghi, temp_air))
+    w = read_weather_csv(write_csv(tmp_path, ["timestamp", "ghi", "temp_air"], rows[:5] + rows[8:]),
+                         policy="skip")
+    assert "1 gaps in the time step counted (largest 4 h)" in w.attrs["notes"] and w.attrs["step_h"] == 1.0
