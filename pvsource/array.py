@@ -29,6 +29,12 @@ class StringGroup:
         Effective irradiance on the group [W/m2], if the system file fixes it.
     cell_temp_c : float or None
         Cell temperature [degC], if the system file fixes it.
+    tilt_deg : float
+        Tilt of the modules from horizontal [deg].
+    azimuth_deg : float
+        Direction the modules face, degrees east of north (180 = south) [deg].
+    mounting : str
+        Mounting preset for the cell-temperature model (see :mod:`pvsource.weather`).
     """
 
     name: str
@@ -36,6 +42,9 @@ class StringGroup:
     strings: int
     irradiance_w_m2: float | None = None
     cell_temp_c: float | None = None
+    tilt_deg: float = 0.0
+    azimuth_deg: float = 180.0
+    mounting: str = "open_rack"
 
     @property
     def module_count(self) -> int:

@@ -166,6 +166,11 @@ def _mppt(net, controller, bank, r_f, r_bc):
         converged = converged & (held.converged | ~low)
     i_in = evaluate_groups(net, x).group_i_a.sum(axis=-1)
     dead = i_in <= 0.0  # the window lies above what the array can reach
+    if dead.any():
+        # The converter draws nothing: the array rests at open circuit.
+        x = np.where(dead[:, None], oc.x_v, x)
+        bus = np.where(dead, oc.bus_v, bus)
+        i_in = np.where(dead, 0.0, i_in)
     p_avail = np.where(dead, 0.0, (bus - i_in * r_f) * i_in)
 
     rated = controller.rated_power_w
@@ -205,7 +210,8 @@ def _mppt(net, controller, bank, r_f, r_bc):
     which = np.select([i_max == i_cv, i_max == bank.max_charge_a], ["voltage regulation", "bank charge rate"],
                       "controller output current")
     limit = np.where(limited, which, np.where(low & ~dead, "input voltage window", "source"))
-    limit = np.where(dead, "input voltage window", limit).astype(object)
+    dark = oc.bus_v <= controller.min_headroom_v  # no usable light at all
+    limit = np.where(dead, np.where(dark, "dark", "input voltage window"), limit).astype(object)
     cv = limited & (which == "voltage regulation")
     stage = _stage_names(cv, bank.floating, "bulk")
     stage = np.where((i_bank > 0.0) | cv, stage, "idle").astype(object)

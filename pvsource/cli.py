@@ -31,12 +31,15 @@ from pvsource.checks import DEFAULT_CELL_RISE_C, design_checks, design_currents
 from pvsource.config import load_module, load_system
 from pvsource.errors import ConvergenceError, InputError, PhysicsGuardError
 from pvsource.operating import CELL_TEMP_RANGE_C, IRRADIANCE_RANGE_W_M2, operating_points, point_record
+from pvsource.demo import demo_system, synthetic_weather
 from pvsource.plots import sweep_figure
+from pvsource.report import prepare_folder, write_report
+from pvsource.season import run_season
 from pvsource.runs import quick_record, wire_record
 from pvsource.sweep import run_sweep
 from pvsource.system import Load
 from pvsource.terminal import (
-    fit_record, render_checks, render_fit, render_point, render_quick_wire, render_sweep, render_wire,
+    fit_record, render_checks, render_fit, render_point, render_quick_wire, render_season, render_sweep, render_wire,
 )
 
 app = typer.Typer(
@@ -286,6 +289,82 @@ def sweep(
                     "plot": str(plot) if plot is not None else None})
     else:
         typer.echo(render_sweep(system, rows, design, plot))
+
+
+def _progress(label: str):
+    """A one-line progress bar on stderr for long runs (only on a terminal)."""
+    if not sys.stderr.isatty():
+        return None
+
+    def report(done: int, total: int) -> None:
+        width = 30
+        filled = int(width * done / max(total, 1))
+        sys.stderr.write(f"\r{label} [{'#' * filled}{'.' * (width - filled)}] {done}/{total}")
+        if done >= total:
+            sys.stderr.write("\n")
+        sys.stderr.flush()
+
+    return report
+
+
+def _season_outputs(system, weather, out: Path, force: bool, transposition: str, as_json: bool) -> None:
+    folder = prepare_folder(out, force)
+    result = run_season(system, weather, transposition=transposition, progress=_progress("season"))
+    write_report(folder, system, result, weather)
+    if as_json:
+        summary = {k: v for k, v in result.summary.items()}
+        summary["out"] = str(folder)
+        summary["notes"] = list(result.notes)
+        _emit_json(summary)
+    else:
+        typer.echo(render_season(system, result.summary, folder, result.notes))
+
+
+TRANSPOSITIONS = ("perez", "haydavies", "isotropic")
+
+
+@app.command()
+def season(
+    system_file: Annotated[Path, typer.Argument(metavar="SYSTEM.toml", help="The system file, with a [site].")],
+    weather_file: Annotated[Path, typer.Argument(metavar="WEATHER", help="A weather CSV, TMY3 file or EPW file.")],
+    out: Annotated[Path, typer.Option("--out", metavar="DIR", help="Folder for tables, figures and the report.")],
+    column: Annotated[Optional[list[str]], typer.Option(
+        "--column", metavar="NAME=CSVCOLUMN", help="Map one of pvsource's column names to the CSV's.")] = None,
+    tz: Annotated[Optional[str], typer.Option("--tz", help="Time zone of naive timestamps, e.g. Etc/GMT-1.")] = None,
+    policy: Annotated[str, typer.Option("--bad-rows", help="fail, fill or skip rows that fail the checks.")] = "fail",
+    transposition: Annotated[str, typer.Option("--transposition", help="perez, haydavies or isotropic.")] = "perez",
+    force: Annotated[bool, typer.Option("--force", help="Write into a folder that already holds files.")] = False,
+    as_json: Annotated[bool, typer.Option("--json", help="Print the summary as one JSON object.")] = False,
+):
+    """A season of weather through the whole system: energy, losses, stages, state of charge; tables, figures, report."""
+    if transposition not in TRANSPOSITIONS:
+        raise InputError("--transposition", None, f"expected one of {', '.join(TRANSPOSITIONS)}, got {transposition!r}")
+    if policy not in ("fail", "fill", "skip"):
+        raise InputError("--bad-rows", None, f"expected fail, fill or skip, got {policy!r}")
+    columns = {}
+    for text in column or []:
+        name, sep, csv_name = text.partition("=")
+        if not sep or not name.strip() or not csv_name.strip():
+            raise InputError("--column", None, f"expected NAME=CSVCOLUMN, got {text!r}")
+        columns[name.strip()] = csv_name.strip()
+    system = load_system(system_file)
+    from pvsource.weather import read_weather
+
+    weather = read_weather(weather_file, columns=columns or None, tz=tz, policy=policy)
+    _season_outputs(system, weather, out, force, transposition, as_json)
+
+
+@app.command()
+def demo(
+    out: Annotated[Path, typer.Option("--out", metavar="DIR", help="Folder for tables, figures and the report.")]
+    = Path("pvsource-demo"),
+    force: Annotated[bool, typer.Option("--force", help="Write into a folder that already holds files.")] = False,
+    as_json: Annotated[bool, typer.Option("--json", help="Print the summary as one JSON object.")] = False,
+):
+    """The whole season study on the built-in invented cabin and a synthetic, reproducible weather year."""
+    system = demo_system()
+    weather = synthetic_weather(system)
+    _season_outputs(system, weather, out, force, "perez", as_json)
 
 
 @app.command()

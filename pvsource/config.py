@@ -18,7 +18,7 @@ from pvsource.bank import charge_voltages_v as bank_charge_voltages
 from pvsource.controller import DEFAULT_EFFICIENCY_CURVE, KINDS, Controller
 from pvsource.errors import InputError
 from pvsource.module import Datasheet, DiodeParameters, Module, fit_datasheet, module_from_parameters
-from pvsource.system import LOAD_KINDS, Load, System
+from pvsource.system import LOAD_KINDS, Load, Site, System
 from pvsource.wiring import GROUP_ROLES, ROLES, CableRun
 
 DATASHEET_KEYS = ("v_oc", "i_sc", "v_mp", "i_mp", "isc_temp_coeff_pct", "voc_temp_coeff_pct", "cells_in_series")
@@ -160,8 +160,25 @@ def parse_group(table: Table, default_name: str) -> StringGroup:
     n_s = table.number("modules_per_string", integer=True, positive=True, maximum=MAX_MODULES_PER_STRING)
     n_p = table.number("strings", integer=True, positive=True, maximum=MAX_STRINGS)
     g, t = _conditions(table)
+    group = StringGroup(name, n_s, n_p, g, t,
+                        tilt_deg=table.number("tilt_deg", 0.0, minimum=0.0, maximum=90.0),
+                        azimuth_deg=table.number("azimuth_deg", 180.0, minimum=0.0, maximum=360.0),
+                        mounting=table.text("mounting", "open_rack"))
     table.finish()
-    return StringGroup(name, n_s, n_p, g, t)
+    return group
+
+
+def parse_site(table: Table) -> Site:
+    """A ``[site]``: where the array is, for solar position and transposition."""
+    site = Site(
+        name=table.text("name", ""),
+        latitude=table.number("latitude", minimum=-90.0, maximum=90.0),
+        longitude=table.number("longitude", minimum=-180.0, maximum=180.0),
+        altitude_m=table.number("altitude_m", 0.0, minimum=-500.0, maximum=9000.0),
+        albedo=table.number("albedo", 0.2, minimum=0.0, maximum=1.0),
+    )
+    table.finish()
+    return site
 
 
 def parse_cable(table: Table, index: int, group_names) -> CableRun:
@@ -314,7 +331,7 @@ def parse_system(data: dict, where: str, base_dir: Path) -> System:
     """Build a :class:`System` from parsed TOML; errors name ``where`` and the field."""
     top = Table(where, "", data)
     name = top.text("name", "")
-    top.used.update({"module", "array", "group", "cable", "load", "controller", "bank"})
+    top.used.update({"module", "array", "group", "cable", "load", "controller", "bank", "site"})
     unknown = sorted(set(data) - top.used)
     if unknown:
         raise InputError(where, f"[{unknown[0]}]", "unknown section or key (check the spelling)")
@@ -358,8 +375,9 @@ def parse_system(data: dict, where: str, base_dir: Path) -> System:
                              "voltage: the controller could never charge it")
     elif controller is not None and controller.kind is not None:
         raise InputError(where, "[controller].kind", "a controller kind needs a [bank] to charge")
+    site = parse_site(Table(where, "[site]", data["site"])) if "site" in data else None
     return System(module=module, groups=tuple(groups), cables=tuple(cables), load=load, name=name, source=where,
-                  controller=controller, bank=bank)
+                  controller=controller, bank=bank, site=site)
 
 
 def load_system(path) -> System:

@@ -145,6 +145,7 @@ def _solve_chunk(system: System, g_w_m2, t_c, soc=None, bank_temp_c=None) -> dic
     """All outputs for one chunk of conditions, as a dict of 1-D arrays."""
     wiring = system.wiring
     n_s, n_p = system.n_series, system.n_parallel
+    rated_w = float((n_s * n_p).sum()) * float(system.module.fit.stc["p_mp"])
     state = parameters_at(system.module.parameters, g_w_m2, t_c)
     net = Network(state, n_s, n_p, wiring.r_string_ohm, wiring.r_home_ohm)
     ideal = net.without_cables()
@@ -233,10 +234,11 @@ def _solve_chunk(system: System, g_w_m2, t_c, soc=None, bank_temp_c=None) -> dic
     # Relative to everything flowing, not to the net: mismatched groups can
     # circulate far more power among themselves than reaches the load.
     # The diode-voltage term n_s |x| |J| bounds the rounding of each string
-    # voltage (x - I R_s cancels near short circuit); a thousandth of Voc x Isc
-    # keeps an open circuit's stray nanoamps from reading as a broken balance.
+    # voltage (x - I R_s cancels near short circuit); a thousandth of the
+    # array's STC power keeps an open circuit's stray picoamps, or a night,
+    # from reading as a broken balance.
     scale = duty * _over_groups(n_s * (np.abs(pt.x_v) + np.abs(pt.module_i_a * state.r_s_ohm)) * np.abs(j)) \
-        + cable_loss + np.abs(controller_loss) + np.abs(delivered) + 1e-3 * v_oc * i_sc + 1e-12
+        + cable_loss + np.abs(controller_loss) + np.abs(delivered) + 1e-3 * rated_w
     balance = (generated - cable_loss - controller_loss - delivered) / scale
     if charge is not None:
         v_load_side = charge["input_v"]

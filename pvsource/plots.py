@@ -80,3 +80,109 @@ def sweep_figure(rows, design: dict, path, title: str = "") -> Path:
     bottom.legend(fontsize=7.5, frameon=False, loc="lower right")
     fig.suptitle(title or f"sweep over {design.get('variable', '')}", fontsize=10, x=0.12, ha="left")
     return save_atomically(fig, path)
+
+
+# Season figures: one palette throughout, ordered from what reached the bank
+# to what never left the curve.
+SEASON_PARTS = (
+    ("energy_stored_kwh", "stored", "#2f4858"),
+    ("bank_internal_loss_kwh", "bank resistance", "#55707f"),
+    ("controller_loss_kwh", "controller", "#86bbd8"),
+    ("wiring_loss_kwh", "cables", "#d08c2a"),
+    ("curtailed_kwh", "curtailed by the controller", "#f2c57c"),
+    ("mismatch_kwh", "left on the curves", "#dcdcdc"),
+)
+
+
+def monthly_energy_figure(summary: dict, path) -> Path:
+    """Each month's energy at the groups' MPPs, split into where it went (stacked columns)."""
+    months = summary["monthly"]
+    labels = [m["month"][5:] for m in months]
+    fig, ax = plt.subplots(figsize=(8.0, 4.2))
+    bottom = np.zeros(len(months))
+    for key, label, colour in SEASON_PARTS:
+        if key == "mismatch_kwh":
+            values = np.array([max(m["energy_mpp_kwh"] - m["energy_generated_kwh"] - (m["curtailed_kwh"] or 0.0), 0.0)
+                               for m in months])
+        else:
+            values = np.array([m.get(key) or 0.0 for m in months])
+        ax.bar(labels, values, bottom=bottom, color=colour, width=0.72, label=label, edgecolor="white", lw=0.4)
+        bottom += values
+    ax.set_ylabel("energy [kWh]")
+    ax.set_xlabel("month")
+    ax.spines[["top", "right"]].set_visible(False)
+    ax.grid(True, axis="y", color="#e3e3e3", lw=0.6)
+    ax.legend(fontsize=7.5, frameon=False, ncol=3, loc="upper left")
+    ax.set_title("Where each month's available energy went", fontsize=10, loc="left")
+    return save_atomically(fig, path)
+
+
+def wiring_loss_heatmap(steps, path) -> Path:
+    """Cable loss as a share of generated power, by hour of day and month."""
+    gen = steps["generated_w"].clip(lower=0)
+    frame = steps.assign(hour=steps.index.hour, month=steps.index.month, gen=gen)
+    grouped = frame.groupby(["month", "hour"])[["cable_loss_w", "gen"]].sum()
+    share = (grouped["cable_loss_w"] / grouped["gen"].where(grouped["gen"] > 0)).unstack("hour")
+    share = share.reindex(index=range(1, 13), columns=range(24))
+    fig, ax = plt.subplots(figsize=(8.0, 3.8))
+    im = ax.imshow(100 * share.to_numpy(), aspect="auto", origin="lower", cmap="YlOrBr",
+                   extent=(-0.5, 23.5, 0.5, 12.5))
+    fig.colorbar(im, ax=ax, label="cable loss [% of generated]")
+    ax.set_xlabel("hour of day")
+    ax.set_ylabel("month")
+    ax.set_yticks(range(1, 13))
+    ax.set_title("Cable loss by hour and month", fontsize=10, loc="left")
+    return save_atomically(fig, path)
+
+
+def charge_duration_figure(steps, step_h: float, path) -> Path:
+    """Charge current sorted from highest: how many hours the bank sees at least each current."""
+    current = np.sort(steps["charge_current_a"].to_numpy())[::-1]
+    hours = np.arange(1, len(current) + 1) * step_h
+    fig, ax = plt.subplots(figsize=(7.0, 3.6))
+    ax.plot(hours, current, color=EXACT, lw=1.4)
+    ax.fill_between(hours, 0, current, color=EXACT, alpha=0.12)
+    ax.set_xlabel("hours at or above this current")
+    ax.set_ylabel("charge current [A]")
+    ax.set_xlim(0, max(hours[current > 0].max() * 1.05 if (current > 0).any() else 1, 1))
+    ax.spines[["top", "right"]].set_visible(False)
+    ax.grid(True, color="#e3e3e3", lw=0.6)
+    ax.set_title("Charge current duration", fontsize=10, loc="left")
+    return save_atomically(fig, path)
+
+
+def soc_figure(steps, path) -> Path:
+    """State of charge through the span: the daily range as a band and the daily mean."""
+    daily = steps["soc"].groupby(steps.index.normalize())
+    lo, hi, mean = daily.min(), daily.max(), daily.mean()
+    fig, ax = plt.subplots(figsize=(8.0, 3.4))
+    ax.fill_between(lo.index, 100 * lo, 100 * hi, color=MARK, alpha=0.35, lw=0, label="daily range")
+    ax.plot(mean.index, 100 * mean, color=EXACT, lw=1.0, label="daily mean")
+    ax.set_ylim(0, 102)
+    ax.set_ylabel("state of charge [%]")
+    ax.spines[["top", "right"]].set_visible(False)
+    ax.legend(fontsize=7.5, frameon=False, loc="lower left")
+    ax.set_title("State of charge", fontsize=10, loc="left")
+    return save_atomically(fig, path)
+
+
+def iv_figure(curves: list, path) -> Path:
+    """I-V curves of the array at chosen hours, each with its operating point.
+
+    ``curves`` holds dicts with ``label``, ``v`` and ``i`` (arrays) and the
+    point ``v_op``, ``i_op``.
+    """
+    fig, ax = plt.subplots(figsize=(7.0, 4.0))
+    shades = plt.get_cmap("cividis")(np.linspace(0.1, 0.85, max(len(curves), 1)))
+    for c, colour in zip(curves, shades):
+        ax.plot(c["v"], c["i"], color=colour, lw=1.4, label=c["label"])
+        ax.plot([c["v_op"]], [c["i_op"]], "o", color=colour, mec="black", mew=0.6, ms=6)
+    ax.set_xlabel("array voltage [V]")
+    ax.set_ylabel("array current [A]")
+    ax.set_ylim(bottom=0)
+    ax.set_xlim(left=0)
+    ax.spines[["top", "right"]].set_visible(False)
+    ax.grid(True, color="#e3e3e3", lw=0.6)
+    ax.legend(fontsize=7.5, frameon=False)
+    ax.set_title("The array's curve and its operating point at chosen hours", fontsize=10, loc="left")
+    return save_atomically(fig, path)

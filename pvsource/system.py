@@ -52,6 +52,28 @@ class Load:
 
 
 @dataclass(frozen=True)
+class Site:
+    """Where the array stands.
+
+    Attributes
+    ----------
+    latitude, longitude : float
+        Degrees north and east [deg].
+    altitude_m : float
+        Height above sea level [m].
+    albedo : float
+        Ground reflectance for the transposition [-].
+    name : str
+    """
+
+    latitude: float
+    longitude: float
+    altitude_m: float = 0.0
+    albedo: float = 0.2
+    name: str = ""
+
+
+@dataclass(frozen=True)
 class System:
     """A PV array of string groups, its cable runs and its load.
 
@@ -79,6 +101,7 @@ class System:
     source: str = ""
     controller: Controller | None = None
     bank: Bank | None = None
+    site: Site | None = None
 
     @property
     def group_names(self) -> tuple[str, ...]:

@@ -323,3 +323,40 @@ def render_sweep(system: System, rows, design: dict, plot) -> str:
         lines.append(f"plot written to {plot}")
     lines.append(render_cautions())
     return "\n".join(lines)
+
+
+def render_season(system: System, summary: dict, folder, notes=()) -> str:
+    """The readable summary of ``pvsource season`` and ``pvsource demo``."""
+    lines = [f"pvsource season study: {system.name or system.source}",
+             f"{summary['start']} to {summary['end']}, {summary['steps']:,} steps of {summary['step_h']:g} h"]
+    lines.append(_rule("Energy over the span"))
+    rows = (("poa_insolation_kwh_m2", "plane-of-array insolation (first group)", "kWh/m2"),
+            ("energy_mpp_kwh", "available at the groups' MPPs", "kWh"),
+            ("energy_generated_kwh", "generated", "kWh"), ("wiring_loss_kwh", "lost in cables", "kWh"),
+            ("controller_loss_kwh", "lost in the controller", "kWh"),
+            ("curtailed_kwh", "curtailed by the controller", "kWh"),
+            ("energy_delivered_kwh", "into the bank or load", "kWh"), ("energy_stored_kwh", "stored", "kWh"),
+            ("load_kwh", "load", "kWh"), ("unmet_load_kwh", "load not met", "kWh"))
+    for key, label, unit in rows:
+        lines.append(f"  {label:<42} {_num(summary.get(key), 1):>10} {unit}")
+    if "min_soc" in summary:
+        lines.append(_rule("Bank"))
+        lines.append(f"  lowest state of charge {_pct(summary['min_soc'], 1)}; days reaching full "
+                     f"{summary['days_reaching_full']}; peak charge {_num(summary['peak_charge_current_a'], 1, 'A')}, "
+                     f"95th percentile {_num(summary['p95_charge_current_a'], 1, 'A')}")
+        stages = ", ".join(f"{k} {v:,.0f} h" for k, v in summary.get("hours_by_stage", {}).items())
+        limits = ", ".join(f"{k} {v:,.0f} h" for k, v in summary.get("hours_by_limit", {}).items())
+        lines.append(f"  hours by stage: {stages}")
+        lines.append(f"  hours by limit: {limits}")
+    lines.append(_rule("Month by month [kWh]"))
+    lines.append(f"  {'month':<8}{'at MPPs':>10}{'generated':>11}{'cables':>9}{'curtailed':>11}{'stored':>9}")
+    for m in summary["monthly"]:
+        lines.append(f"  {m['month']:<8}{_num(m['energy_mpp_kwh'], 1):>10}{_num(m['energy_generated_kwh'], 1):>11}"
+                     f"{_num(m['wiring_loss_kwh'], 2):>9}{_num(m['curtailed_kwh'], 1):>11}"
+                     f"{_num(m['energy_stored_kwh'], 1):>9}")
+    if notes:
+        lines.append(_rule("Notes"))
+        lines.extend(f"  - {n}" for n in notes)
+    lines.append(f"\nTables, figures and report.html written to {folder}")
+    lines.append(render_cautions(cautions.WIRING))
+    return "\n".join(lines)

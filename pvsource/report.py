@@ -1,0 +1,178 @@
+"""Writing a season study to a folder: tables, summary, figures and one HTML report.
+
+Every file is written under a temporary name and renamed into place, so an
+interrupted run never leaves a half-written file under a real name. A folder
+that already holds files is only written into with ``force``.
+"""
+
+from __future__ import annotations
+
+import base64
+import html
+import json
+import math
+import os
+import tempfile
+from pathlib import Path
+
+import numpy as np
+import pvlib
+
+from pvsource import cautions, plots
+from pvsource.checks import design_checks
+from pvsource.errors import InputError
+from pvsource.module import parameters_at
+from pvsource.season import SeasonResult
+from pvsource.system import System
+
+FIGURES = ("monthly_energy.png", "wiring_loss_heatmap.png", "charge_duration.png", "state_of_charge.png",
+           "iv_curves.png")
+
+
+def json_ready(obj):
+    """NaN and infinities to None, numpy scalars to Python, recursively."""
+    if isinstance(obj, dict):
+        return {str(k): json_ready(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [json_ready(v) for v in obj]
+    if isinstance(obj, (np.floating, float)):
+        return float(obj) if math.isfinite(obj) else None
+    if isinstance(obj, np.integer):
+        return int(obj)
+    if isinstance(obj, np.bool_):
+        return bool(obj)
+    return obj
+
+
+def prepare_folder(out: Path, force: bool) -> Path:
+    """Create ``out`` if needed; refuse a non-empty folder unless ``force``."""
+    out = Path(out)
+    if out.exists() and not out.is_dir():
+        raise InputError("--out", None, f"{str(out)!r} is a file, not a folder")
+    if out.exists() and any(out.iterdir()) and not force:
+        raise InputError("--out", None, f"{str(out)!r} is not empty; give --force to write into it")
+    out.mkdir(parents=True, exist_ok=True)
+    return out
+
+
+def _atomic(path: Path, write) -> Path:
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", dir=path.parent)
+    os.close(fd)
+    try:
+        write(tmp)
+        os.replace(tmp, path)
+    finally:
+        if os.path.exists(tmp):
+            os.remove(tmp)
+    return path
+
+
+def write_text(path: Path, text: str) -> Path:
+    return _atomic(Path(path), lambda tmp: Path(tmp).write_text(text, encoding="utf-8"))
+
+
+def iv_curves(system: System, steps, count: int = 4) -> list:
+    """I-V curves of the ideal array at a few telling hours: the sunniest, and midday on three other days."""
+    if not len(steps):
+        return []
+    sunny = steps["groups_p_mp_w"].to_numpy()
+    picks = [int(np.nanargmax(sunny))]
+    noon = np.flatnonzero((steps.index.hour == 12) & (sunny > 0))
+    if noon.size:
+        picks += [int(noon[k]) for k in np.linspace(0, noon.size - 1, count - 1).astype(int)]
+    curves = []
+    for k in dict.fromkeys(picks):
+        row = steps.iloc[k]
+        v_grid = np.linspace(0.0, row["source_v_oc"], 120)
+        total = np.zeros_like(v_grid)
+        for g in system.groups:
+            st = parameters_at(system.module.parameters, row[f"group_{g.name}_irradiance_w_m2"],
+                               row[f"group_{g.name}_cell_temp_c"])
+            total += g.strings * np.asarray(pvlib.pvsystem.i_from_v(
+                v_grid / g.modules_per_string, st.i_l_a, st.i_o_a, st.r_s_ohm, st.r_sh_ohm, st.a_v,
+                method="lambertw"), float)
+        curves.append({"label": steps.index[k].strftime("%Y-%m-%d %H:%M"), "v": v_grid, "i": np.maximum(total, 0),
+                       "v_op": row["v"], "i_op": row["i"]})
+    return curves
+
+
+def _table(rows: list[tuple]) -> str:
+    body = "".join("<tr>" + "".join(f"<td>{html.escape(str(c))}</td>" for c in r) + "</tr>" for r in rows)
+    return f"<table>{body}</table>"
+
+
+def _fmt(value, digits=1):
+    if value is None or (isinstance(value, float) and not math.isfinite(value)):
+        return "n/a"
+    return f"{value:,.{digits}f}" if isinstance(value, (int, float)) else str(value)
+
+
+def write_report(out: Path, system: System, result: SeasonResult, weather) -> list[Path]:
+    """Tables, summary, figures and the HTML report into ``out`` (already prepared)."""
+    out = Path(out)
+    steps, summary = result.steps, result.summary
+    written = []
+    table = steps.copy()
+    table.index.name = "timestamp"
+    written.append(_atomic(out / "steps.parquet", lambda tmp: table.to_parquet(tmp)))
+    written.append(_atomic(out / "steps.csv", lambda tmp: table.to_csv(tmp)))
+    written.append(write_text(out / "summary.json", json.dumps(json_ready(summary), indent=2, allow_nan=False)))
+    monthly = json_ready(summary["monthly"])
+    header = list(monthly[0]) if monthly else []
+    csv_text = ",".join(header) + "\n" + "".join(
+        ",".join("" if m[k] is None else str(m[k]) for k in header) + "\n" for m in monthly)
+    written.append(write_text(out / "monthly.csv", csv_text))
+    step_h = summary["step_h"]
+    written.append(plots.monthly_energy_figure(summary, out / "monthly_energy.png"))
+    written.append(plots.wiring_loss_heatmap(steps, out / "wiring_loss_heatmap.png"))
+    figures = ["monthly_energy.png", "wiring_loss_heatmap.png"]
+    if "charge_current_a" in steps:
+        written.append(plots.charge_duration_figure(steps, step_h, out / "charge_duration.png"))
+        figures.append("charge_duration.png")
+    if "soc" in steps:
+        written.append(plots.soc_figure(steps, out / "state_of_charge.png"))
+        figures.append("state_of_charge.png")
+    curves = iv_curves(system, steps)
+    if curves:
+        written.append(plots.iv_figure(curves, out / "iv_curves.png"))
+        figures.append("iv_curves.png")
+
+    t_min, t_max = float(weather["temp_air"].min()), float(weather["temp_air"].max())
+    checks = design_checks(system, t_min, t_max)
+    images = "".join(
+        f'<figure><img alt="{html.escape(name)}" src="data:image/png;base64,'
+        f'{base64.b64encode((out / name).read_bytes()).decode()}"></figure>' for name in figures)
+    energy_rows = [(label, _fmt(summary.get(key)), "kWh") for key, label in (
+        ("energy_mpp_kwh", "available at the groups' MPPs"), ("energy_generated_kwh", "generated"),
+        ("wiring_loss_kwh", "lost in cables"), ("controller_loss_kwh", "lost in the controller"),
+        ("curtailed_kwh", "curtailed by the controller"), ("energy_delivered_kwh", "into the bank or load"),
+        ("energy_stored_kwh", "stored"), ("load_kwh", "load"), ("unmet_load_kwh", "load not met"))]
+    stat_rows = [(k.replace("_", " "), _fmt(summary.get(k), 2)) for k in (
+        "peak_charge_current_a", "p95_charge_current_a", "min_soc", "days_reaching_full") if k in summary]
+    month_rows = [(m["month"], _fmt(m["energy_mpp_kwh"]), _fmt(m["energy_generated_kwh"]),
+                   _fmt(m["wiring_loss_kwh"], 2), _fmt(m["curtailed_kwh"]), _fmt(m["energy_stored_kwh"]),
+                   _fmt(m.get("min_soc"), 2)) for m in summary["monthly"]]
+    check_rows = [(c.name, _fmt(c.value, 2), _fmt(c.limit, 2), c.unit,
+                   {True: "pass", False: "FAIL", None: "no limit"}[c.passed], c.basis) for c in checks]
+    notes = "".join(f"<li>{html.escape(n)}</li>" for n in result.notes)
+    caution_items = "".join(f"<li>{html.escape(c)}</li>" for c in (*cautions.WIRING, *cautions.GENERAL))
+    page = f"""<!doctype html><html lang="en"><head><meta charset="utf-8">
+<title>pvsource season study: {html.escape(system.name)}</title>
+<style>body{{font-family:system-ui,sans-serif;max-width:60rem;margin:2rem auto;color:#22313a;line-height:1.45}}
+h1{{font-size:1.4rem}}h2{{font-size:1.1rem;border-bottom:2px solid #d08c2a;padding-bottom:.2rem;margin-top:2rem}}
+table{{border-collapse:collapse;margin:.5rem 0}}td{{padding:.15rem .7rem;border-bottom:1px solid #e5e5e5}}
+figure{{margin:1rem 0}}img{{max-width:100%}}.caution li{{margin:.2rem 0}}</style></head><body>
+<h1>Season study: {html.escape(system.name or system.source)}</h1>
+<p>{html.escape(summary["start"])} to {html.escape(summary["end"])}, {summary["steps"]:,} steps of {step_h:g} h.
+Site {html.escape(system.site.name if system.site else "")} at {system.site.latitude:g}, {system.site.longitude:g}.</p>
+<h2>Energy</h2>{_table(energy_rows)}{_table(stat_rows)}
+<h2>Month by month</h2>{_table([("month", "at MPPs [kWh]", "generated", "cables", "curtailed", "stored", "min SOC")]
+                               + month_rows)}
+<h2>Figures</h2>{images}
+<h2>Design checks</h2><p>Against the weather's own extremes ({t_min:.1f} to {t_max:.1f} degC air).</p>
+{_table([("check", "value", "limit", "unit", "verdict", "basis")] + check_rows)}
+<h2>Notes</h2><ul>{notes}</ul>
+<h2>Cautions</h2><ul class="caution">{caution_items}</ul>
+</body></html>"""
+    written.append(write_text(out / "report.html", page))
+    return written

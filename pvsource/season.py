@@ -1,0 +1,241 @@
+"""The season study: a year (or any span) of weather through the whole system.
+
+Pipeline, every step an explicit call on arrays:
+
+1. each group's plane-of-array irradiance and cell temperature from the
+   weather (:func:`pvsource.weather.poa_conditions`);
+2. with a bank, the charge current at every step for a grid of states of
+   charge (vectorised over the steps, one solve per grid value);
+3. the state of charge, integrated step by step with the load: the one loop
+   over time, on plain floats, interpolating the grid;
+4. the exact operating points along that state-of-charge path (vectorised);
+5. summaries per month and for the whole span.
+
+Energies are sums of power x step; the per-step energy balance holds to 1e-9
+(:func:`pvsource.operating.operating_points` checks it), so the totals close.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+
+from pvsource import bank as bank_model
+from pvsource.errors import InputError
+from pvsource.operating import operating_points
+from pvsource.system import System
+
+# States of charge at which the charge current is solved before the time loop
+# interpolates between them; the exact pass afterwards uses the true path.
+SOC_GRID = np.linspace(0.0, 1.0, 21)
+FULL_SOC = 0.99  # a day "reaches full charge" when the state of charge gets here
+ENERGY_KEYS = ("poa_insolation_kwh_m2", "energy_mpp_kwh", "energy_generated_kwh", "energy_delivered_kwh",
+               "energy_stored_kwh", "wiring_loss_kwh", "controller_loss_kwh", "bank_internal_loss_kwh",
+               "curtailed_kwh", "mpp_shortfall_kwh", "load_kwh", "unmet_load_kwh")
+
+
+@dataclass(frozen=True)
+class SeasonResult:
+    """What a season study returns.
+
+    Attributes
+    ----------
+    steps : DataFrame
+        One row per weather step, indexed by time.
+    summary : dict
+        Totals for the whole span (JSON-ready), with a ``monthly`` list.
+    notes : tuple of str
+        What was assumed, converted or skipped on the way.
+    """
+
+    steps: pd.DataFrame
+    summary: dict
+    notes: tuple = ()
+
+
+def group_conditions(system: System, weather: pd.DataFrame, transposition: str = "perez"):
+    """Effective irradiance and cell temperature of every group, (N, G) each, and the first group's POA."""
+    from pvsource.weather import poa_conditions
+
+    if system.site is None:
+        raise InputError(system.source, "[site]", "is missing: a season study needs latitude and longitude")
+    site = system.site
+    irr, temp, poa = [], [], None
+    for g in system.groups:
+        cond = poa_conditions(weather, site.latitude, site.longitude, site.altitude_m, g.tilt_deg, g.azimuth_deg,
+                              model=transposition, albedo=site.albedo, mounting=g.mounting)
+        irr.append(cond["effective_irradiance_w_m2"].to_numpy(float))
+        temp.append(cond["cell_temp_c"].to_numpy(float))
+        if poa is None:
+            poa = cond["poa_global_w_m2"].to_numpy(float)
+    return np.clip(np.stack(irr, axis=-1), 0.0, 2000.0), np.stack(temp, axis=-1), poa
+
+
+def integrate_soc(charge_grid_a, emf_grid_v, load_w, step_h: float, capacity_ah: float, coulombic: float,
+                  soc0: float):
+    """State of charge at the start of every step, and the load left unmet [W].
+
+    Parameters
+    ----------
+    charge_grid_a, emf_grid_v : arrays (K, N)
+        Charge current and bank EMF at each grid state of charge (:data:`SOC_GRID`) and step.
+    load_w : array (N,)
+        Power drawn from the bank [W].
+    step_h : float
+        Step length [h].
+    capacity_ah : float
+        Bank capacity [Ah].
+    coulombic : float
+        Coulombic efficiency of charging [-].
+    soc0 : float
+        State of charge at the first step [-].
+    """
+    k_max = len(SOC_GRID) - 1
+    charge = np.ascontiguousarray(charge_grid_a.T).tolist()
+    emf = np.ascontiguousarray(emf_grid_v.T).tolist()
+    loads = np.asarray(load_w, float).tolist()
+    n = len(loads)
+    soc_path = [0.0] * n
+    unmet = [0.0] * n
+    soc = float(soc0)
+    per_ah = step_h / capacity_ah
+    for k in range(n):
+        soc_path[k] = soc
+        pos = soc * k_max
+        j = min(int(pos), k_max - 1)
+        w = pos - j
+        row_i, row_e = charge[k], emf[k]
+        i_charge = row_i[j] + (row_i[j + 1] - row_i[j]) * w
+        e = row_e[j] + (row_e[j + 1] - row_e[j]) * w
+        net = i_charge - loads[k] / e
+        soc += net * per_ah * (coulombic if net > 0.0 else 1.0)
+        if soc < 0.0:
+            # The bank is empty: the rest of this step's load goes unserved.
+            unmet[k] = -soc / per_ah * e
+            soc = 0.0
+        elif soc > 1.0:
+            soc = 1.0
+    return np.array(soc_path), np.array(unmet), soc
+
+
+def run_season(system: System, weather: pd.DataFrame, *, transposition: str = "perez",
+               soc0: float | None = None, progress=None) -> SeasonResult:
+    """Run the season study.
+
+    Parameters
+    ----------
+    system : System
+        With a ``[site]``; groups carry tilt, azimuth and mounting.
+    weather : DataFrame
+        From :func:`pvsource.weather.read_weather`; ``load_w`` is optional.
+    transposition : {"perez", "haydavies", "isotropic"}
+    soc0 : float, optional
+        State of charge at the start; default the system file's.
+    progress : callable, optional
+        Called with (done, total) as the stages finish.
+
+    Returns
+    -------
+    SeasonResult
+    """
+    notes = list(weather.attrs.get("notes", []))
+    step_h = float(weather.attrs.get("step_h") or _step_hours(weather.index))
+    report = progress or (lambda done, total: None)
+    total = len(SOC_GRID) + 3
+    g, t, poa = group_conditions(system, weather, transposition)
+    report(1, total)
+    load_w = weather["load_w"].to_numpy(float) if "load_w" in weather else np.zeros(len(weather))
+    if "load_w" not in weather and system.bank is not None:
+        notes.append("no load_w column: the bank feeds no load")
+    soc_path = unmet = None
+    if system.bank is not None:
+        b = system.bank
+        start = b.soc if soc0 is None else soc0
+        charge_grid, emf_grid = [], []
+        for k, soc in enumerate(SOC_GRID):
+            df = operating_points(system, g, t, soc=float(soc))
+            charge_grid.append(df["charge_current_a"].to_numpy())
+            emf_grid.append(df["bank_emf_v"].to_numpy())
+            report(2 + k, total)
+        soc_path, unmet, _ = integrate_soc(np.array(charge_grid), np.array(emf_grid), load_w, step_h,
+                                           b.capacity_ah, b.chemistry.coulombic_efficiency, start)
+        steps = operating_points(system, g, t, soc=soc_path)
+    else:
+        steps = operating_points(system, g, t)
+    report(total - 1, total)
+    steps.index = weather.index
+    steps["poa_global_w_m2"] = poa
+    steps["load_w"] = load_w
+    steps["unmet_load_w"] = unmet if unmet is not None else 0.0
+    if soc_path is not None:
+        steps["soc"] = soc_path
+    summary = summarise(system, steps, step_h)
+    report(total, total)
+    return SeasonResult(steps, summary, tuple(notes))
+
+
+def _step_hours(index) -> float:
+    if len(index) < 2:
+        raise InputError("weather", None, "needs at least two time steps")
+    return float(np.median(np.diff(index.asi8)) / 3.6e12)
+
+
+def _energies(steps: pd.DataFrame, step_h: float) -> dict:
+    kwh = lambda col: float(np.nansum(steps[col].to_numpy()) * step_h / 1000.0) if col in steps else 0.0  # noqa: E731
+    out = {
+        "poa_insolation_kwh_m2": kwh("poa_global_w_m2"),
+        "energy_mpp_kwh": kwh("groups_p_mp_w"),
+        "energy_generated_kwh": kwh("generated_w"),
+        "energy_delivered_kwh": kwh("delivered_w"),
+        "energy_stored_kwh": kwh("stored_w") if "stored_w" in steps else kwh("delivered_w"),
+        "wiring_loss_kwh": kwh("cable_loss_w"),
+        "controller_loss_kwh": kwh("controller_loss_w"),
+        "bank_internal_loss_kwh": kwh("bank_internal_loss_w"),
+        "curtailed_kwh": kwh("curtailed_w"),
+        "mpp_shortfall_kwh": kwh("mpp_shortfall_w"),
+        "load_kwh": kwh("load_w"),
+        "unmet_load_kwh": kwh("unmet_load_w"),
+    }
+    gen = out["energy_generated_kwh"]
+    for key in ("wiring_loss", "controller_loss", "bank_internal_loss", "curtailed"):
+        out[f"{key}_pct"] = 100.0 * out[f"{key}_kwh"] / gen if gen > 0 else None
+    return out
+
+
+def _span_stats(steps: pd.DataFrame, step_h: float) -> dict:
+    out = {}
+    if "charge_current_a" in steps:
+        lit = steps["charge_current_a"].to_numpy()
+        out["peak_charge_current_a"] = float(np.nanmax(lit)) if len(lit) else 0.0
+        positive = lit[lit > 0]
+        out["p95_charge_current_a"] = float(np.percentile(positive, 95)) if positive.size else 0.0
+        out["hours_by_stage"] = {str(k): float(v) * step_h for k, v in steps["stage"].value_counts().items()}
+        out["hours_by_limit"] = {str(k): float(v) * step_h for k, v in steps["limit"].value_counts().items()}
+    if "soc" in steps:
+        out["min_soc"] = float(steps["soc"].min())
+        out["max_soc"] = float(steps["soc"].max())
+        daily = steps["soc"].groupby(steps.index.date).max()
+        out["days_reaching_full"] = int((daily >= FULL_SOC).sum())
+    return out
+
+
+def summarise(system: System, steps: pd.DataFrame, step_h: float) -> dict:
+    """Totals and statistics for the whole span, with a ``monthly`` list of the same energies."""
+    summary = {"steps": int(len(steps)), "step_h": step_h, "start": str(steps.index[0]), "end": str(steps.index[-1])}
+    summary.update(_energies(steps, step_h))
+    summary.update(_span_stats(steps, step_h))
+    monthly = []
+    # Months of the weather's own local calendar.
+    local = steps.index.tz_localize(None) if steps.index.tz is not None else steps.index
+    for period, part in steps.groupby(local.to_period("M")):
+        row = {"month": str(period)}
+        row.update(_energies(part, step_h))
+        row.update({k: v for k, v in _span_stats(part, step_h).items() if not isinstance(v, dict)})
+        monthly.append(row)
+    summary["monthly"] = monthly
+    if system.bank is not None:
+        v_abs, _ = bank_model.charge_voltages_v(system.bank)
+        summary["bank_absorption_v"] = float(v_abs)
+    return summary

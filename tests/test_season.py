@@ -1,0 +1,105 @@
+"""The season study: energy closes, months add up, the bank stays in bounds, the CLI writes its outputs."""
+
+import json
+
+import numpy as np
+import pytest
+
+from pvsource import bank as bank_model
+from pvsource.demo import demo_system, synthetic_weather
+from pvsource.season import ENERGY_KEYS, SOC_GRID, integrate_soc, run_season
+
+from conftest import run_cli
+
+
+@pytest.fixture(scope="module")
+def demo_run():
+    system = demo_system()
+    weather = synthetic_weather(system)
+    return system, weather, run_season(system, weather)
+
+
+def test_annual_energy_balance_closes(demo_run):
+    # Law: conservation of energy over the year, within 0.01 %.
+    _, _, result = demo_run
+    s = result.summary
+    parts = s["wiring_loss_kwh"] + s["controller_loss_kwh"] + s["bank_internal_loss_kwh"] + s["energy_stored_kwh"]
+    assert parts == pytest.approx(s["energy_generated_kwh"], rel=1e-4)
+    assert s["energy_generated_kwh"] + s["curtailed_kwh"] <= s["energy_mpp_kwh"] * (1 + 1e-9)
+
+
+def test_monthly_sums_equal_the_annual(demo_run):
+    _, _, result = demo_run
+    s = result.summary
+    assert len(s["monthly"]) == 12
+    for key in ENERGY_KEYS:
+        assert sum(m[key] for m in s["monthly"]) == pytest.approx(s[key], rel=1e-9, abs=1e-9)
+
+
+def test_state_of_charge_and_bank_voltage_stay_in_bounds(demo_run):
+    system, _, result = demo_run
+    steps = result.steps
+    assert steps["soc"].between(0.0, 1.0).all()
+    v_abs, _ = bank_model.charge_voltages_v(system.bank)
+    charging = steps["charge_current_a"] > 0
+    # The controller never drives the bank's terminals above its absorption voltage.
+    assert (steps.loc[charging, "load_v"] <= v_abs + 1e-6).all()
+    # Load goes unmet only in a step that empties the bank: the next one starts at zero.
+    unmet = (steps["unmet_load_w"] > 0).to_numpy()[:-1]
+    assert (steps["soc"].to_numpy()[1:][unmet] == 0.0).all()
+
+
+def test_coulomb_counting_in_the_time_loop():
+    # Law: a constant 10 A into a 100 Ah bank for 5 h at efficiency 0.95 adds 0.475, then clips at full.
+    n = 12
+    charge = np.full((len(SOC_GRID), n), 10.0)
+    emf = np.full((len(SOC_GRID), n), 26.0)
+    soc, unmet, final = integrate_soc(charge, emf, np.zeros(n), 1.0, 100.0, 0.95, 0.2)
+    assert soc[5] == pytest.approx(0.2 + 5 * 10 * 0.95 / 100)
+    assert final == 1.0 and not unmet.any()
+    soc, unmet, final = integrate_soc(np.zeros((len(SOC_GRID), n)), emf, np.full(n, 260.0), 1.0, 100.0, 0.95, 0.05)
+    # 260 W at 26 V is 10 A: half an hour empties 0.05 of 100 Ah, the rest is unmet.
+    assert soc[1] == 0.0 and unmet[0] == pytest.approx(260.0 * 0.5)
+
+
+def test_the_demo_is_reproducible(demo_run):
+    system, weather, result = demo_run
+    again = synthetic_weather(system)
+    assert np.array_equal(again["ghi"].to_numpy(), weather["ghi"].to_numpy())
+    assert result.summary["energy_generated_kwh"] > 0
+
+
+def test_demo_command_writes_every_output(capsys, tmp_path):
+    out = tmp_path / "demo"
+    code, text, err = run_cli(capsys, "demo", "--out", str(out), "--json")
+    assert code == 0
+    rec = json.loads(text)
+    keys = ("poa_insolation_kwh_m2", "energy_mpp_kwh", "energy_delivered_kwh", "energy_stored_kwh",
+            "wiring_loss_kwh", "controller_loss_kwh", "curtailed_kwh")
+    assert all(k in rec for k in keys)
+    assert all(k in rec["monthly"][0] for k in keys)
+    for name in ("steps.parquet", "steps.csv", "summary.json", "monthly.csv", "report.html",
+                 "monthly_energy.png", "wiring_loss_heatmap.png", "charge_duration.png", "state_of_charge.png",
+                 "iv_curves.png"):
+        assert (out / name).stat().st_size > 0, name
+    page = (out / "report.html").read_text()
+    assert "src=\"http" not in page and "data:image/png;base64," in page  # readable offline
+    assert not list(out.glob(".*"))  # no temporary files left
+    code, _, err = run_cli(capsys, "demo", "--out", str(out))
+    assert code == 2 and "--force" in err and err.count("\n") == 1
+
+
+def test_season_from_a_weather_csv_matches_the_demo(capsys, tmp_path, demo_run):
+    system, weather, result = demo_run
+    csv = tmp_path / "weather.csv"
+    table = weather.copy()
+    table.index = table.index.map(lambda ts: ts.isoformat())
+    table.index.name = "timestamp"
+    table.to_csv(csv)
+    system_file = tmp_path / "system.toml"
+    from importlib import resources
+    system_file.write_text((resources.files("pvsource") / "data" / "demo" / "system.toml").read_text())
+    code, text, err = run_cli(capsys, "season", str(system_file), str(csv), "--out", str(tmp_path / "out"), "--json")
+    assert code == 0, err
+    rec = json.loads(text)
+    assert rec["energy_stored_kwh"] == pytest.approx(result.summary["energy_stored_kwh"], rel=1e-6)
