@@ -51,6 +51,7 @@ _SCALARS = {
                                    "charge voltage must fall as the battery warms"),
     "max_charge_c_rate": (lambda x: 0 < x <= 10, "a charge rate above 0 and at most 10 [1/h]"),
     "min_charge_temp_c": (lambda x: -60 <= x <= 70, "a temperature from -60 to 70 [degC]"),
+    "absorption_start_soc": (lambda x: 0.5 <= x < 1, "a state of charge from 0.5 to below 1"),
     "coulombic_efficiency": (lambda x: 0 < x <= 1, "a fraction above 0 and at most 1"),
 }
 _TABLES = ("ocv_soc", "ocv_v_per_cell")
@@ -78,6 +79,9 @@ class Chemistry:
     max_charge_c_rate, min_charge_temp_c, coulombic_efficiency : float
         Largest charge current over capacity [1/h]; lowest cell temperature
         for charging [°C]; charge stored per charge delivered [fraction].
+    absorption_start_soc : float
+        State of charge from which the bank's charge acceptance tapers to
+        zero at full charge: the constant-voltage stage [fraction].
     sources : tuple of (str, str)
         Each preset name with its source; ``"override"`` where the user set it.
     """
@@ -94,6 +98,7 @@ class Chemistry:
     max_charge_c_rate: float
     min_charge_temp_c: float
     coulombic_efficiency: float
+    absorption_start_soc: float
     sources: tuple[tuple[str, str], ...] = ()
 
     def source(self, name: str) -> str:
@@ -330,3 +335,20 @@ def soc_after(bank: Bank, soc, current_a, hours, temp_c=None):
     i = np.asarray(current_a, dtype=float)
     stored_ah = np.where(i > 0, bank.chemistry.coulombic_efficiency * i, i) * np.asarray(hours, dtype=float)
     return _out(np.clip(soc + stored_ah / bank.capacity_ah, 0.0, 1.0))
+
+
+def acceptance_current_a(bank: Bank, soc=None, temp_c=None):
+    """Charge current the bank accepts near full charge [A].
+
+    A Thevenin bank (resting OCV behind an ohmic resistance) has no voltage
+    rise near full charge, so on its own it would take large currents at the
+    absorption voltage until the very end. Real cells polarise: in the
+    constant-voltage stage the current tapers. This is modelled as a
+    straight taper from the full charge rate at ``absorption_start_soc`` to
+    zero at full charge (common practice: absorption covers roughly the
+    last 20 % of a lead-acid charge and the last few % of a lithium one).
+    """
+    soc = np.asarray(bank.soc if soc is None else soc, dtype=float)
+    start = bank.chemistry.absorption_start_soc
+    share = np.clip((1.0 - soc) / (1.0 - start), 0.0, 1.0)
+    return _out(share * max_charge_current_a(bank, temp_c))

@@ -28,6 +28,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from pvsource.controller import Controller, efficiency_at
+from pvsource.errors import InputError
 from pvsource.network import (
     Network, evaluate_groups, solve_max_power, solve_power_above_mpp, solve_thevenin, subset_rows,
 )
@@ -48,6 +49,7 @@ class BankPoint:
     target_v : the regulation voltage of the stage in force (absorption or float) [V]
     floating : True where the target is the float voltage
     max_charge_a : the bank's maximum charge current (0 where charging is not allowed) [A]
+    accept_a : what the bank accepts in the constant-voltage stage near full charge [A]
     """
 
     emf_v: np.ndarray
@@ -55,6 +57,26 @@ class BankPoint:
     target_v: np.ndarray
     floating: np.ndarray
     max_charge_a: np.ndarray
+    accept_a: np.ndarray
+
+    def cv_current_a(self):
+        """The constant-voltage stage's current: the law (V - E)/R, within the bank's acceptance."""
+        with np.errstate(divide="ignore", invalid="ignore"):
+            law = np.maximum((self.target_v - self.emf_v) / self.r_ohm, 0.0)
+        return np.minimum(law, self.accept_a)
+
+
+def controller_rated_w(controller: Controller, bank: BankPoint):
+    """The power an MPPT efficiency curve's load fractions refer to [W].
+
+    ``rated_power_w``, or else the maximum output current at the bank's
+    regulation voltage.
+    """
+    if controller.rated_power_w is not None:
+        return controller.rated_power_w
+    if controller.max_output_a is None:
+        raise InputError("controller", "max_output_a", "a tracking controller needs max_output_a or rated_power_w")
+    return controller.max_output_a * np.maximum(bank.target_v, 1.0)
 
 
 def _quadratic_current(p_out_w, emf_v, r_ohm):
@@ -69,8 +91,18 @@ def _stage_names(cv_binds, floating, limit_other):
     return np.where(cv_binds, np.where(floating, "float", "absorption"), limit_other)
 
 
+def array_side(net: Network, r_feeder_ohm: float):
+    """What a tracker's array side looks like whatever the bank does: open circuit and MPP.
+
+    Solve it once and pass it to :func:`solve_charging` for every state of
+    charge of the same conditions.
+    """
+    oc = solve_thevenin(net, 0.0, np.inf)
+    return oc, solve_max_power(net, r_feeder_ohm, open_circuit=oc)
+
+
 def solve_charging(net: Network, controller: Controller, bank: BankPoint, r_feeder_ohm: float,
-                   r_bank_cables_ohm: float) -> dict:
+                   r_bank_cables_ohm: float, array=None) -> dict:
     """Operating point, charge current, stage and loss split for every condition.
 
     Parameters
@@ -83,6 +115,8 @@ def solve_charging(net: Network, controller: Controller, bank: BankPoint, r_feed
         Loop resistance from the combiner bus to the controller input [ohm].
     r_bank_cables_ohm : float
         Loop resistance from the controller output to the bank, interconnects included [ohm].
+    array : tuple, optional
+        :func:`array_side` of the same network, when already solved (trackers only).
 
     Returns
     -------
@@ -95,7 +129,8 @@ def solve_charging(net: Network, controller: Controller, bank: BankPoint, r_feed
         on-state array quantities into averages.
     """
     if controller.kind == "mppt":
-        return _mppt(net, controller, bank, r_feeder_ohm, r_bank_cables_ohm)
+        return _mppt(net, controller, bank, r_feeder_ohm, r_bank_cables_ohm,
+                     array if array is not None else array_side(net, r_feeder_ohm))
     return _switched(net, controller, bank, r_feeder_ohm, r_bank_cables_ohm)
 
 
@@ -113,8 +148,7 @@ def _switched(net, controller, bank, r_f, r_bc):
             bus = np.where(blocked, oc.bus_v, sol.bus_v)
             sol = type(sol)(x, bus, sol.converged & (oc.converged | ~blocked), sol.iterations)
             i_on = np.where(blocked, 0.0, i_on)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        i_cv = np.maximum((bank.target_v - bank.emf_v) / bank.r_ohm, 0.0)
+    i_cv = bank.cv_current_a()
     if controller.kind == "pwm":
         i_target = np.minimum(i_cv, bank.max_charge_a)
         regulating = i_on > i_target
@@ -128,9 +162,13 @@ def _switched(net, controller, bank, r_f, r_bc):
     else:
         duty = np.ones_like(i_on)
         i_bank = i_on
+        # Nothing regulates a direct connection; say when the bank is charged
+        # outside what its chemistry allows.
         over = bank.emf_v + i_on * bank.r_ohm > bank.target_v
         stage = np.full(i_on.shape, "unregulated", dtype=object)
-        limit = np.where(over, "none: above the regulation voltage", "none")
+        limit = np.select([(i_on > 0) & (bank.max_charge_a <= 0), i_on > bank.max_charge_a, over],
+                          ["none: charging below the bank's minimum temperature",
+                           "none: above the bank's charge rate", "none: above the regulation voltage"], "none")
     held = np.isin(stage, ("absorption", "float"))
     stage = np.where((i_bank > 0.0) | held, stage, np.where(i_bank < 0.0, "discharging", "idle")).astype(object)
     i_on_avg = duty * i_on
@@ -139,7 +177,8 @@ def _switched(net, controller, bank, r_f, r_bc):
         "input_v": sol.bus_v - i_on * r_f,
         "charge_current_a": i_bank, "stage": stage, "limit": limit.astype(object),
         "stored_w": bank.emf_v * i_bank,
-        "curtailed_w": np.zeros_like(i_on),
+        # A switch that is open part of the time leaves that share of the on-state power on the curve.
+        "curtailed_w": (1.0 - duty) * np.maximum(sol.bus_v * i_on, 0.0),
         "controller_loss_w": v_d * np.maximum(i_on_avg, 0.0),
         "bank_cable_loss_w": duty * i_on * i_on * r_bc,
         "bank_internal_loss_w": duty * i_on * i_on * bank.r_ohm,
@@ -147,11 +186,10 @@ def _switched(net, controller, bank, r_f, r_bc):
     }
 
 
-def _mppt(net, controller, bank, r_f, r_bc):
+def _mppt(net, controller, bank, r_f, r_bc, array):
     """A tracking converter: input at the maximum power point within its window and limits."""
     r_tot = bank.r_ohm + r_bc
-    oc = solve_thevenin(net, 0.0, np.inf)
-    mp = solve_max_power(net, r_f, open_circuit=oc)
+    oc, mp = array
     i_mp = evaluate_groups(net, mp.x_v).group_i_a.sum(axis=-1)
     v_in_mp = mp.bus_v - i_mp * r_f
     # The input window: above the bank voltage by the headroom, and above the
@@ -173,19 +211,28 @@ def _mppt(net, controller, bank, r_f, r_bc):
         i_in = np.where(dead, 0.0, i_in)
     p_avail = np.where(dead, 0.0, (bus - i_in * r_f) * i_in)
 
-    rated = controller.rated_power_w
-    if rated is None:
-        rated = (controller.max_output_a or 1.0) * np.maximum(bank.target_v, 1.0)
+    rated = controller_rated_w(controller, bank)
     p_out = efficiency_at(controller, p_avail / rated) * p_avail
     i_free = _quadratic_current(p_out, bank.emf_v, r_tot)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        i_cv = np.maximum((bank.target_v - bank.emf_v) / bank.r_ohm, 0.0)
+    i_cv = bank.cv_current_a()
     i_ctrl = np.full_like(i_free, np.inf if controller.max_output_a is None else controller.max_output_a)
     i_max = np.minimum(np.minimum(i_ctrl, bank.max_charge_a), i_cv)
     limited = i_free > i_max
     i_bank = np.where(limited, i_max, i_free)
     p_out_actual = np.where(limited, (bank.emf_v + i_bank * r_tot) * i_bank, p_out)
-    p_in_needed = np.where(limited, p_out_actual / efficiency_at(controller, p_out_actual / rated), p_avail)
+    # Input power that gives this output, with the efficiency taken at the
+    # input's own load fraction as above (a few fixed-point steps; the
+    # curve is flat enough), and never more than is available.
+    p_in_needed = p_out_actual / efficiency_at(controller, p_out_actual / rated)
+    for _ in range(8):
+        p_in_needed = p_out_actual / efficiency_at(controller, p_in_needed / rated)
+    # Where even all that is available would not give the limit (the curve's
+    # rising part can make the limited input exceed it), the source binds.
+    short = limited & (p_in_needed >= p_avail)
+    limited = limited & ~short
+    i_bank = np.where(short, i_free, i_bank)
+    p_out_actual = np.where(short, p_out, p_out_actual)
+    p_in_needed = np.where(limited, p_in_needed, p_avail)
 
     if limited.any():
         # Take less: move the input toward Voc until it delivers what is needed.
@@ -204,14 +251,28 @@ def _mppt(net, controller, bank, r_f, r_bc):
             bus = bus.copy()
             x[off], bus[off] = oc.x_v[off], oc.bus_v[off]
     i_in = evaluate_groups(net, x).group_i_a.sum(axis=-1)
+    # Above its maximum input voltage a controller shuts down (if it
+    # survives): no charge, and the array rests at open circuit.
+    over_v = np.zeros_like(dead)
+    if controller.max_input_v is not None:
+        over_v = (bus - i_in * r_f > controller.max_input_v) & ~dead
+        if over_v.any():
+            x = np.where(over_v[:, None], oc.x_v, x)
+            bus = np.where(over_v, oc.bus_v, bus)
+            i_in = np.where(over_v, 0.0, i_in)
+            i_bank = np.where(over_v, 0.0, i_bank)
+            dead = dead | over_v
+            p_out_actual = np.where(over_v, 0.0, p_out_actual)
+            p_out = np.where(over_v, 0.0, p_out)
     p_in = np.where(dead, 0.0, (bus - i_in * r_f) * i_in)
-    p_out_final = np.where(limited, p_out_actual, p_out)
+    p_out_final = np.where(dead, 0.0, np.where(limited, p_out_actual, p_out))
 
-    which = np.select([i_max == i_cv, i_max == bank.max_charge_a], ["voltage regulation", "bank charge rate"],
-                      "controller output current")
+    which = np.select([bank.max_charge_a <= 0.0, i_max == i_cv, i_max == bank.max_charge_a],
+                      ["bank charge rate", "voltage regulation", "bank charge rate"], "controller output current")
     limit = np.where(limited, which, np.where(low & ~dead, "input voltage window", "source"))
     dark = oc.bus_v <= controller.min_headroom_v  # no usable light at all
-    limit = np.where(dead, np.where(dark, "dark", "input voltage window"), limit).astype(object)
+    limit = np.where(dead, np.where(dark, "dark", "input voltage window"), limit)
+    limit = np.where(over_v, "input above max_input_v: controller off", limit).astype(object)
     cv = limited & (which == "voltage regulation")
     stage = _stage_names(cv, bank.floating, "bulk")
     stage = np.where((i_bank > 0.0) | cv, stage, "idle").astype(object)
@@ -220,7 +281,7 @@ def _mppt(net, controller, bank, r_f, r_bc):
         "input_v": bus - i_in * r_f,
         "charge_current_a": i_bank, "stage": stage, "limit": limit,
         "stored_w": bank.emf_v * i_bank,
-        "curtailed_w": np.maximum(p_avail - p_in, 0.0),
+        "curtailed_w": np.where(over_v, 0.0, np.maximum(p_avail - p_in, 0.0)),
         "controller_loss_w": p_in - p_out_final,
         "bank_cable_loss_w": i_bank * i_bank * r_bc,
         "bank_internal_loss_w": i_bank * i_bank * bank.r_ohm,

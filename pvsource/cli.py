@@ -255,7 +255,7 @@ def sweep(
         "--over", help="load-resistance, bank-voltage, bank-class, soc, modules, size:RUN, irradiance or cell-temp.")],
     start: Annotated[str, typer.Option("--from", help="First value (a size such as \"6 mm2\" for size:RUN).")],
     stop: Annotated[str, typer.Option("--to", help="Last value.")],
-    steps: Annotated[int, typer.Option("--steps", help="Number of values (sizes and classes step along their series).")] = 25,
+    steps: Annotated[int, typer.Option("--steps", help="Number of values (sizes, bank classes and modules per string step along their own series).")] = 25,
     irradiance: Annotated[Optional[list[str]], typer.Option(
         "--irradiance", metavar="W_M2|GROUP=W_M2", help="Conditions for the sweep; default: the file's.")] = None,
     cell_temp: Annotated[Optional[list[str]], typer.Option(

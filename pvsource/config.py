@@ -240,7 +240,9 @@ def parse_cable(table: Table, index: int, group_names) -> CableRun:
 def parse_controller(table: Table) -> Controller:
     """A ``[controller]``: its kind and behaviour, or just input limits for the checks."""
     where = table.where
-    kind = table.text("kind", "", choices=("", *KINDS)) or None
+    kind = table.text("kind", "") or None
+    if kind is not None and kind not in KINDS:
+        raise InputError(where, table.field("kind"), f"expected one of {', '.join(KINDS)}, got {kind!r}")
     max_v = table.number("max_input_v", float("nan"), positive=True, maximum=1.0e4)
     min_v = table.number("min_input_v", float("nan"), minimum=0.0, maximum=1.0e4)
     max_a = table.number("max_output_a", float("nan"), positive=True, maximum=1.0e5)
@@ -282,6 +284,11 @@ def parse_controller(table: Table) -> Controller:
         for key in ("max_output_a", "rated_power_w", "efficiency", "efficiency_curve", "min_headroom_v"):
             if table.has(key):
                 raise InputError(where, table.field(key), "applies to kind = \"mppt\" only")
+    elif controller.max_output_a is None and controller.rated_power_w is None:
+        raise InputError(where, table.field("max_output_a"),
+                         "is missing: a tracking controller needs max_output_a (or rated_power_w)")
+    if kind == "mppt" and table.has("diode_drop_v"):
+        raise InputError(where, table.field("diode_drop_v"), "applies to kind = \"direct\" or \"pwm\" only")
     table.finish()
     return controller
 

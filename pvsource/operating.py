@@ -138,7 +138,8 @@ def _bank_point(system: System, soc, temp_c) -> BankPoint:
     shape = np.broadcast_shapes(np.shape(emf), np.shape(v_abs))
     as_array = lambda a: np.array(np.broadcast_to(a, shape), dtype=float)  # noqa: E731
     return BankPoint(as_array(emf), as_array(r), as_array(np.where(floating, v_float, v_abs)),
-                     np.array(np.broadcast_to(floating, shape)), as_array(bank_model.max_charge_current_a(b, temp_c)))
+                     np.array(np.broadcast_to(floating, shape)), as_array(bank_model.max_charge_current_a(b, temp_c)),
+                     as_array(bank_model.acceptance_current_a(b, soc, temp_c)))
 
 
 def _solve_chunk(system: System, g_w_m2, t_c, soc=None, bank_temp_c=None) -> dict:
@@ -304,6 +305,9 @@ def _solve_chunk(system: System, g_w_m2, t_c, soc=None, bank_temp_c=None) -> dic
             "curtailed_w": charge["curtailed_w"], "bank_internal_loss_w": charge["bank_internal_loss_w"],
             "duty": duty, "controller_input_v": charge["input_v"], "bank_emf_v": bank_pt.emf_v,
             "bank_r_ohm": bank_pt.r_ohm, "bank_target_v": bank_pt.target_v,
+            "bank_soc": np.broadcast_to(system.bank.soc if soc is None else soc, v.shape).astype(float),
+            "bank_temp_c": np.broadcast_to(system.bank.temp_c if bank_temp_c is None else bank_temp_c,
+                                           v.shape).astype(float),
             "bank_max_charge_a": bank_pt.max_charge_a,
             "stage": charge["stage"], "limit": charge["limit"],
         })
@@ -399,6 +403,10 @@ def operating_points(system: System, irradiance_w_m2=None, cell_temp_c=None, *, 
                                               "give the same number, or a scalar") from None
     if len(g) == 0:
         raise InputError("irradiance_w_m2", None, "no conditions given (an empty array)")
+    if len(g) == 1 and system.bank is not None:
+        # One set of array conditions against many bank states.
+        n_bank = max(np.size(soc) if soc is not None else 1, np.size(bank_temp_c) if bank_temp_c is not None else 1)
+        g, t = np.repeat(g, n_bank, axis=0), np.repeat(t, n_bank, axis=0)
     soc = _bank_condition(system, soc, "soc", (0.0, 1.0), len(g))
     bank_temp_c = _bank_condition(system, bank_temp_c, "bank_temp_c", (-40.0, 70.0), len(g))
     frame = _frame_from_chunks(system, g, t, chunk_size, soc, bank_temp_c)
@@ -493,6 +501,6 @@ def point_record(system: System, row: pd.Series) -> dict:
             "controller": {"kind": system.controller.kind, "input_v": r["controller_input_v"], "duty": r["duty"]},
             "bank": {"chemistry": system.bank.chemistry.key, "emf_v": r["bank_emf_v"], "r_ohm": r["bank_r_ohm"],
                      "target_v": r["bank_target_v"], "max_charge_a": r["bank_max_charge_a"],
-                     "soc": system.bank.soc, "temp_c": system.bank.temp_c},
+                     "soc": r["bank_soc"], "temp_c": r["bank_temp_c"]},
         })
     return rec

@@ -45,7 +45,8 @@ def sweep_figure(rows, design: dict, path, title: str = "") -> Path:
     """
     m = np.asarray(rows["matching_ratio"], float)
     order = np.argsort(m)
-    ok = np.isfinite(m[order]) & (m[order] > 0)
+    # Open circuit (no current) sends m toward infinity: leave it off the axis.
+    ok = np.isfinite(m[order]) & (m[order] > 0) & (m[order] < 1e6)
     idx = order[ok]
     fig, (top, bottom) = plt.subplots(2, 1, figsize=(7.5, 6.2), sharex=True,
                                       gridspec_kw={"height_ratios": [3, 2], "hspace": 0.08})
@@ -66,7 +67,8 @@ def sweep_figure(rows, design: dict, path, title: str = "") -> Path:
         ax.axvline(design["matching_ratio"], color=EXACT, lw=0.6, ls=":")
         ax.grid(True, which="major", color="#d9d9d9", lw=0.6)
         ax.spines[["top", "right"]].set_visible(False)
-    top.plot([design["matching_ratio"]], [design["delivered_w"]], "o", mfc="none", mec=LINEAR, ms=11, mew=1.6,
+    # The ring sits on the array-terminal power, which the linear model passes through.
+    top.plot([design["matching_ratio"]], [design["p"]], "o", mfc="none", mec=LINEAR, ms=11, mew=1.6,
              label="design point")
     bottom.plot([design["matching_ratio"]], [design["efficiency"]], "o", mfc="none", mec=LINEAR, ms=11, mew=1.6)
     top.text(1.06, 0.97, "m = 1\nmaximum power\ntransfer", transform=top.get_xaxis_transform(), ha="left",

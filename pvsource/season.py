@@ -21,10 +21,11 @@ from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
+from numba import njit
 
 from pvsource import bank as bank_model
 from pvsource.errors import InputError
-from pvsource.operating import operating_points
+from pvsource.operating import CHUNK_SIZE, operating_points
 from pvsource.system import System
 
 # States of charge at which the charge current is solved before the time loop
@@ -73,9 +74,38 @@ def group_conditions(system: System, weather: pd.DataFrame, transposition: str =
     return np.clip(np.stack(irr, axis=-1), 0.0, 2000.0), np.stack(temp, axis=-1), poa
 
 
+@njit(cache=True)
+def _soc_kernel(charge, emf, loads, per_ah, coulombic, soc0):  # pragma: no cover - compiled
+    k_max = charge.shape[0] - 1
+    n = loads.shape[0]
+    soc_path = np.empty(n)
+    unmet = np.zeros(n)
+    soc = soc0
+    for k in range(n):
+        soc_path[k] = soc
+        pos = soc * k_max
+        j = min(int(pos), k_max - 1)
+        w = pos - j
+        i_charge = charge[j, k] + (charge[j + 1, k] - charge[j, k]) * w
+        e = emf[j, k] + (emf[j + 1, k] - emf[j, k]) * w
+        net = i_charge - loads[k] / e
+        soc += net * per_ah * (coulombic if net > 0.0 else 1.0)
+        if soc < 0.0:
+            # The bank is empty: the rest of this step's load goes unserved.
+            unmet[k] = -soc / per_ah * e
+            soc = 0.0
+        elif soc > 1.0:
+            soc = 1.0
+    return soc_path, unmet, soc
+
+
 def integrate_soc(charge_grid_a, emf_grid_v, load_w, step_h: float, capacity_ah: float, coulombic: float,
                   soc0: float):
     """State of charge at the start of every step, and the load left unmet [W].
+
+    Coulomb counting, with charge scaled by the coulombic efficiency; the
+    charge current and EMF at the current state of charge are interpolated
+    in the grid. This is the one loop over time, compiled with numba.
 
     Parameters
     ----------
@@ -91,33 +121,56 @@ def integrate_soc(charge_grid_a, emf_grid_v, load_w, step_h: float, capacity_ah:
         Coulombic efficiency of charging [-].
     soc0 : float
         State of charge at the first step [-].
+
+    Returns
+    -------
+    soc_path : array (N,)
+    unmet_w : array (N,)
+    final_soc : float
     """
-    k_max = len(SOC_GRID) - 1
-    charge = np.ascontiguousarray(charge_grid_a.T).tolist()
-    emf = np.ascontiguousarray(emf_grid_v.T).tolist()
-    loads = np.asarray(load_w, float).tolist()
-    n = len(loads)
-    soc_path = [0.0] * n
-    unmet = [0.0] * n
-    soc = float(soc0)
-    per_ah = step_h / capacity_ah
-    for k in range(n):
-        soc_path[k] = soc
-        pos = soc * k_max
-        j = min(int(pos), k_max - 1)
-        w = pos - j
-        row_i, row_e = charge[k], emf[k]
-        i_charge = row_i[j] + (row_i[j + 1] - row_i[j]) * w
-        e = row_e[j] + (row_e[j + 1] - row_e[j]) * w
-        net = i_charge - loads[k] / e
-        soc += net * per_ah * (coulombic if net > 0.0 else 1.0)
-        if soc < 0.0:
-            # The bank is empty: the rest of this step's load goes unserved.
-            unmet[k] = -soc / per_ah * e
-            soc = 0.0
-        elif soc > 1.0:
-            soc = 1.0
-    return np.array(soc_path), np.array(unmet), soc
+    soc_path, unmet, final = _soc_kernel(np.ascontiguousarray(charge_grid_a, dtype=float),
+                                         np.ascontiguousarray(emf_grid_v, dtype=float),
+                                         np.ascontiguousarray(load_w, dtype=float), step_h / capacity_ah,
+                                         float(coulombic), float(soc0))
+    return soc_path, unmet, float(final)
+
+
+def charge_grid_a(system: System, g, t, done=lambda k: None, chunk_size: int = CHUNK_SIZE):
+    """Charge current at every step for every state of charge of :data:`SOC_GRID`, and the bank's EMF.
+
+    Only what the time loop needs: no linearisation, no key points. Dark
+    steps (no irradiance on any group) charge nothing and are not solved; a
+    tracker's array side is solved once per step for all states of charge.
+
+    Returns
+    -------
+    charge_a, emf_v : arrays (K, N)
+    """
+    from pvsource.charging import array_side, solve_charging
+    from pvsource.module import parameters_at
+    from pvsource.network import Network
+    from pvsource.operating import _bank_point
+
+    n = len(g)
+    k_grid = len(SOC_GRID)
+    charge = np.zeros((k_grid, n))
+    emf = np.empty((k_grid, n))
+    for k, soc in enumerate(SOC_GRID):
+        emf[k] = bank_model.open_circuit_v(system.bank, float(soc))
+    lit = np.flatnonzero((np.asarray(g) > 0.0).any(axis=-1))
+    wiring = system.wiring
+    for start in range(0, lit.size, chunk_size):
+        rows = lit[start:start + chunk_size]
+        state = parameters_at(system.module.parameters, g[rows], t[rows])
+        net = Network(state, system.n_series, system.n_parallel, wiring.r_string_ohm, wiring.r_home_ohm)
+        side = array_side(net, wiring.r_feeder_ohm) if system.controller.kind == "mppt" else None
+        for k, soc in enumerate(SOC_GRID):
+            bank_pt = _bank_point(system, np.full(rows.size, float(soc)), None)
+            ch = solve_charging(net, system.controller, bank_pt, wiring.r_feeder_ohm, wiring.r_bank_ohm, side)
+            charge[k, rows] = ch["charge_current_a"]
+    for k in range(k_grid):
+        done(k)
+    return charge, emf
 
 
 def run_season(system: System, weather: pd.DataFrame, *, transposition: str = "perez",
@@ -153,13 +206,8 @@ def run_season(system: System, weather: pd.DataFrame, *, transposition: str = "p
     if system.bank is not None:
         b = system.bank
         start = b.soc if soc0 is None else soc0
-        charge_grid, emf_grid = [], []
-        for k, soc in enumerate(SOC_GRID):
-            df = operating_points(system, g, t, soc=float(soc))
-            charge_grid.append(df["charge_current_a"].to_numpy())
-            emf_grid.append(df["bank_emf_v"].to_numpy())
-            report(2 + k, total)
-        soc_path, unmet, _ = integrate_soc(np.array(charge_grid), np.array(emf_grid), load_w, step_h,
+        charge_grid, emf_grid = charge_grid_a(system, g, t, lambda k: report(2 + k, total))
+        soc_path, unmet, _ = integrate_soc(charge_grid, emf_grid, load_w, step_h,
                                            b.capacity_ah, b.chemistry.coulombic_efficiency, start)
         steps = operating_points(system, g, t, soc=soc_path)
     else:

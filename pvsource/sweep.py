@@ -77,6 +77,7 @@ def sweep_values(system: System, variable: str, start: str, stop: str, steps: in
         hi = conductors.parse_size(stop, where="--to")
         if lo.series != hi.series:
             raise InputError("--to", None, f"{hi.label} is not in the series of {lo.label}")
+        lo, hi = sorted((lo, hi), key=lambda z: z.area_mm2)
         sizes = [s for s in conductors.standard_sizes(lo.series) if lo.area_mm2 <= s.area_mm2 <= hi.area_mm2]
         if not sizes:
             raise InputError("--from", None, f"no standard size between {lo.label} and {hi.label}")
@@ -181,6 +182,7 @@ def run_sweep(system: System, variable: str, start: str, stop: str, steps: int, 
             frames.append(operating_points(_variant(system, variable, value), g, t))
     df = pd.concat(frames, ignore_index=True)
     m = df["matching_ratio"].to_numpy()
+    m = np.where(np.abs(m) < 1e6, m, np.nan)  # open circuit: no current, no ratio
     # The linear model describes a source feeding a load (m > 0); back-feed has no analogue.
     with np.errstate(invalid="ignore", divide="ignore"):
         lin = linear_transfer(e, r, np.where(m > 0, m, np.nan) * r)

@@ -305,9 +305,10 @@ def render_sweep(system: System, rows, design: dict, plot) -> str:
     lines = [f"pvsource sweep over {design['variable']}: {system.name or system.source}",
              f"design point: m = {_num(design['matching_ratio'], 3)}, delivered {_num(design['delivered_w'], 1, 'W')}, "
              f"array linearised as E {_num(design['e_v'], 2, 'V')} behind {_num(design['r_ohm'], 4, 'ohm')}"]
-    lines.append(f"\n{'value':>12} {'delivered':>11} {'effic.':>8} {'m':>9} {'charge':>9} {'linear P':>10} "
-                 f"{'linear eff':>10}")
-    lines.append(f"{'[' + unit + ']':>12} {'[W]':>11} {'[%]':>8} {'[-]':>9} {'[A]':>9} {'[W]':>10} {'[%]':>10}")
+    lines.append(f"\n{'value':>12} {'delivered':>11} {'effic.':>8} {'m':>9} {'charge':>9} {'array P':>10} "
+                 f"{'linear P':>10} {'linear eff':>10}")
+    lines.append(f"{'[' + unit + ']':>12} {'[W]':>11} {'[%]':>8} {'[-]':>9} {'[A]':>9} {'[W]':>10} {'[W]':>10} "
+                 f"{'[%]':>10}")
     best = rows["delivered_w"].astype(float).idxmax() if rows["delivered_w"].notna().any() else None
     for k, r in rows.iterrows():
         value = r["value"] if isinstance(r["value"], str) else f"{r['value']:.4g}"
@@ -315,10 +316,12 @@ def render_sweep(system: System, rows, design: dict, plot) -> str:
             else f"{r['charge_current_a']:.2f}"
         eff = "n/a" if not math.isfinite(r["efficiency"]) else f"{100 * r['efficiency']:.2f}"
         flag = "  <- most delivered" if k == best else ""
+        lin_eff = "n/a" if not math.isfinite(r["linear_efficiency"]) else f"{100 * r['linear_efficiency']:.2f}"
         lines.append(f"{value:>12} {r['delivered_w']:>11.1f} {eff:>8} {_num(r['matching_ratio'], 4):>9} "
-                     f"{charge:>9} {r['linear_p_w']:>10.1f} {100 * r['linear_efficiency']:>10.2f}{flag}")
-    lines.append("\nThe linear columns are what the array's Thevenin equivalent at the design point predicts at the "
-                 "same matching ratio: its power peaks at m = 1 with 50 % efficiency.")
+                     f"{charge:>9} {r['p']:>10.1f} {_num(r['linear_p_w'], 1):>10} {lin_eff:>10}{flag}")
+    lines.append("\n'array P' is the exact power at the array terminals; the linear columns are what the array's "
+                 "Thevenin equivalent at the design point predicts there at the same matching ratio: its power "
+                 "peaks at m = 1 with 50 % efficiency. An open circuit has no ratio (n/a).")
     if plot is not None:
         lines.append(f"plot written to {plot}")
     lines.append(render_cautions())
