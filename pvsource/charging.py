@@ -125,6 +125,7 @@ def solve_charging(net: Network, controller: Controller, bank: BankPoint, r_feed
         ``converged``; ``duty``; ``input_v``: controller input voltage;
         ``charge_current_a``; ``stage``; ``limit``; ``stored_w``;
         ``curtailed_w``; ``controller_loss_w``; ``bank_cable_loss_w``;
+        ``free_current_a``: the current before any bank or controller limit;
         ``bank_internal_loss_w``; ``scale``: the factor (duty) that turns
         on-state array quantities into averages.
     """
@@ -175,7 +176,7 @@ def _switched(net, controller, bank, r_f, r_bc):
     return {
         "x_v": sol.x_v, "bus_v": sol.bus_v, "converged": sol.converged, "duty": duty,
         "input_v": sol.bus_v - i_on * r_f,
-        "charge_current_a": i_bank, "stage": stage, "limit": limit.astype(object),
+        "charge_current_a": i_bank, "free_current_a": i_on, "stage": stage, "limit": limit.astype(object),
         "stored_w": bank.emf_v * i_bank,
         # A switch that is open part of the time leaves that share of the on-state power on the curve.
         "curtailed_w": (1.0 - duty) * np.maximum(sol.bus_v * i_on, 0.0),
@@ -280,6 +281,7 @@ def _mppt(net, controller, bank, r_f, r_bc, array):
         "x_v": x, "bus_v": bus, "converged": converged, "duty": np.ones_like(bus),
         "input_v": bus - i_in * r_f,
         "charge_current_a": i_bank, "stage": stage, "limit": limit,
+        "free_current_a": np.where(dead, 0.0, i_free),
         "stored_w": bank.emf_v * i_bank,
         "curtailed_w": np.where(over_v, 0.0, np.maximum(p_avail - p_in, 0.0)),
         "controller_loss_w": p_in - p_out_final,

@@ -30,7 +30,20 @@ from pvsource.system import System
 
 # States of charge at which the charge current is solved before the time loop
 # interpolates between them; the exact pass afterwards uses the true path.
-SOC_GRID = np.linspace(0.0, 1.0, 21)
+SOC_GRID = np.linspace(0.0, 1.0, 11)
+
+
+def soc_grid(system: System) -> np.ndarray:
+    """:data:`SOC_GRID` with the points where the bank's behaviour bends: the
+    breakpoints of its OCV table (so the EMF interpolates exactly), where
+    absorption starts, and where float takes over."""
+    from pvsource.charging import FLOAT_SOC
+
+    if system.bank is None:
+        return SOC_GRID
+    chem = system.bank.chemistry
+    extra = [*chem.ocv_soc, chem.absorption_start_soc, FLOAT_SOC]
+    return np.unique(np.clip(np.concatenate([SOC_GRID, extra]), 0.0, 1.0))
 FULL_SOC = 0.99  # a day "reaches full charge" when the state of charge gets here
 ENERGY_KEYS = ("poa_insolation_kwh_m2", "energy_mpp_kwh", "energy_generated_kwh", "energy_delivered_kwh",
                "energy_stored_kwh", "wiring_loss_kwh", "controller_loss_kwh", "bank_internal_loss_kwh",
@@ -75,19 +88,35 @@ def group_conditions(system: System, weather: pd.DataFrame, transposition: str =
 
 
 @njit(cache=True)
-def _soc_kernel(charge, emf, loads, per_ah, coulombic, soc0):  # pragma: no cover - compiled
-    k_max = charge.shape[0] - 1
+def _soc_kernel(grid, free, emf, loads, per_ah, coulombic, soc0, kind, limits):  # pragma: no cover - compiled
+    # limits: controller current, bank charge current, acceptance start, R,
+    # absorption V, float V, float state of charge.
+    i_ctrl, i_rate, start, r_bank, v_abs, v_float, float_soc = limits
+    k_max = free.shape[0] - 1
     n = loads.shape[0]
     soc_path = np.empty(n)
     unmet = np.zeros(n)
     soc = soc0
+    j = 0
     for k in range(n):
         soc_path[k] = soc
-        pos = soc * k_max
-        j = min(int(pos), k_max - 1)
-        w = pos - j
-        i_charge = charge[j, k] + (charge[j + 1, k] - charge[j, k]) * w
+        # The state of charge moves little per step: walk to its grid cell.
+        while j > 0 and soc < grid[j]:
+            j -= 1
+        while j < k_max - 1 and soc > grid[j + 1]:
+            j += 1
+        w = (soc - grid[j]) / (grid[j + 1] - grid[j])
+        i_charge = free[j, k] + (free[j + 1, k] - free[j, k]) * w
         e = emf[j, k] + (emf[j + 1, k] - emf[j, k]) * w
+        if kind > 0 and i_charge > 0.0:
+            # The bank's own limits, exact in the state of charge (the grid
+            # carries only the smooth, unlimited current).
+            target = v_float if soc >= float_soc else v_abs
+            i_cv = max((target - e) / r_bank, 0.0)
+            share = min(max((1.0 - soc) / (1.0 - start), 0.0), 1.0)
+            i_charge = min(i_charge, i_rate, i_cv, share * i_rate)
+            if kind == 2:
+                i_charge = min(i_charge, i_ctrl)
         net = i_charge - loads[k] / e
         soc += net * per_ah * (coulombic if net > 0.0 else 1.0)
         if soc < 0.0:
@@ -100,7 +129,7 @@ def _soc_kernel(charge, emf, loads, per_ah, coulombic, soc0):  # pragma: no cove
 
 
 def integrate_soc(charge_grid_a, emf_grid_v, load_w, step_h: float, capacity_ah: float, coulombic: float,
-                  soc0: float):
+                  soc0: float, grid=None, limits=None, kind: str = "direct"):
     """State of charge at the start of every step, and the load left unmet [W].
 
     Coulomb counting, with charge scaled by the coulombic efficiency; the
@@ -121,6 +150,14 @@ def integrate_soc(charge_grid_a, emf_grid_v, load_w, step_h: float, capacity_ah:
         Coulombic efficiency of charging [-].
     soc0 : float
         State of charge at the first step [-].
+    grid : array (K,), optional
+        The states of charge of the grid's rows, rising from 0 to 1; default :data:`SOC_GRID`.
+    limits : tuple, optional
+        (controller current [A], bank charge current [A], absorption start
+        [-], bank resistance [ohm], absorption [V], float [V], float state of
+        charge [-]), applied exactly at each step's state of charge, for
+        ``kind`` "pwm" or "mppt"; the grid then holds the unlimited current.
+    kind : {"direct", "pwm", "mppt"}
 
     Returns
     -------
@@ -128,15 +165,18 @@ def integrate_soc(charge_grid_a, emf_grid_v, load_w, step_h: float, capacity_ah:
     unmet_w : array (N,)
     final_soc : float
     """
-    soc_path, unmet, final = _soc_kernel(np.ascontiguousarray(charge_grid_a, dtype=float),
+    grid = np.asarray(SOC_GRID if grid is None else grid, dtype=float)
+    code = {"direct": 0, "pwm": 1, "mppt": 2}[kind] if limits is not None else 0
+    limits = tuple(float(v) for v in (limits or (0.0,) * 7))
+    soc_path, unmet, final = _soc_kernel(grid, np.ascontiguousarray(charge_grid_a, dtype=float),
                                          np.ascontiguousarray(emf_grid_v, dtype=float),
                                          np.ascontiguousarray(load_w, dtype=float), step_h / capacity_ah,
-                                         float(coulombic), float(soc0))
+                                         float(coulombic), float(soc0), code, limits)
     return soc_path, unmet, float(final)
 
 
 def charge_grid_a(system: System, g, t, done=lambda k: None, chunk_size: int = CHUNK_SIZE):
-    """Charge current at every step for every state of charge of :data:`SOC_GRID`, and the bank's EMF.
+    """Unlimited charge current at every step for every state of charge of :func:`soc_grid`, and the bank's EMF.
 
     Only what the time loop needs: no linearisation, no key points. Dark
     steps (no irradiance on any group) charge nothing and are not solved; a
@@ -152,10 +192,11 @@ def charge_grid_a(system: System, g, t, done=lambda k: None, chunk_size: int = C
     from pvsource.operating import _bank_point
 
     n = len(g)
-    k_grid = len(SOC_GRID)
+    grid = soc_grid(system)
+    k_grid = len(grid)
     charge = np.zeros((k_grid, n))
     emf = np.empty((k_grid, n))
-    for k, soc in enumerate(SOC_GRID):
+    for k, soc in enumerate(grid):
         emf[k] = bank_model.open_circuit_v(system.bank, float(soc))
     lit = np.flatnonzero((np.asarray(g) > 0.0).any(axis=-1))
     wiring = system.wiring
@@ -164,10 +205,10 @@ def charge_grid_a(system: System, g, t, done=lambda k: None, chunk_size: int = C
         state = parameters_at(system.module.parameters, g[rows], t[rows])
         net = Network(state, system.n_series, system.n_parallel, wiring.r_string_ohm, wiring.r_home_ohm)
         side = array_side(net, wiring.r_feeder_ohm) if system.controller.kind == "mppt" else None
-        for k, soc in enumerate(SOC_GRID):
+        for k, soc in enumerate(grid):
             bank_pt = _bank_point(system, np.full(rows.size, float(soc)), None)
             ch = solve_charging(net, system.controller, bank_pt, wiring.r_feeder_ohm, wiring.r_bank_ohm, side)
-            charge[k, rows] = ch["charge_current_a"]
+            charge[k, rows] = ch["free_current_a"]
     for k in range(k_grid):
         done(k)
     return charge, emf
@@ -196,7 +237,7 @@ def run_season(system: System, weather: pd.DataFrame, *, transposition: str = "p
     notes = list(weather.attrs.get("notes", []))
     step_h = float(weather.attrs.get("step_h") or _step_hours(weather.index))
     report = progress or (lambda done, total: None)
-    total = len(SOC_GRID) + 3
+    total = len(soc_grid(system)) + 3
     g, t, poa = group_conditions(system, weather, transposition)
     report(1, total)
     load_w = weather["load_w"].to_numpy(float) if "load_w" in weather else np.zeros(len(weather))
@@ -207,11 +248,18 @@ def run_season(system: System, weather: pd.DataFrame, *, transposition: str = "p
         b = system.bank
         start = b.soc if soc0 is None else soc0
         charge_grid, emf_grid = charge_grid_a(system, g, t, lambda k: report(2 + k, total))
-        soc_path, unmet, _ = integrate_soc(charge_grid, emf_grid, load_w, step_h,
-                                           b.capacity_ah, b.chemistry.coulombic_efficiency, start)
-        steps = operating_points(system, g, t, soc=soc_path)
+        from pvsource.charging import FLOAT_SOC
+
+        v_abs, v_float = bank_model.charge_voltages_v(b)
+        c = system.controller
+        limits = (c.max_output_a if c.max_output_a is not None else np.inf,
+                  float(bank_model.max_charge_current_a(b)), b.chemistry.absorption_start_soc,
+                  float(bank_model.internal_resistance_ohm(b)), float(v_abs), float(v_float), FLOAT_SOC)
+        soc_path, unmet, _ = integrate_soc(charge_grid, emf_grid, load_w, step_h, b.capacity_ah,
+                                           b.chemistry.coulombic_efficiency, start, soc_grid(system), limits, c.kind)
+        steps = operating_points(system, g, t, soc=soc_path, drift_check=False)
     else:
-        steps = operating_points(system, g, t)
+        steps = operating_points(system, g, t, drift_check=False)
     report(total - 1, total)
     steps.index = weather.index
     steps["poa_global_w_m2"] = poa

@@ -103,3 +103,18 @@ def test_season_from_a_weather_csv_matches_the_demo(capsys, tmp_path, demo_run):
     assert code == 0, err
     rec = json.loads(text)
     assert rec["energy_stored_kwh"] == pytest.approx(result.summary["energy_stored_kwh"], rel=1e-6)
+
+
+def test_the_grid_interpolated_path_agrees_with_exact_coulomb_counting(demo_run):
+    # Consistency: recount the charge with the exact per-step currents along the
+    # path; the interpolated time loop must not drift from it.
+    system, weather, result = demo_run
+    steps = result.steps
+    b = system.bank
+    net = steps["charge_current_a"].to_numpy() - steps["load_w"].to_numpy() / steps["bank_emf_v"].to_numpy()
+    eta = b.chemistry.coulombic_efficiency
+    soc, path = steps["soc"].iloc[0], []
+    for k, i in enumerate(net):
+        path.append(soc)
+        soc = min(max(soc + i * (eta if i > 0 else 1.0) * 1.0 / b.capacity_ah, 0.0), 1.0)
+    assert np.max(np.abs(np.array(path) - steps["soc"].to_numpy())) < 0.01
