@@ -101,6 +101,24 @@ def array_side(net: Network, r_feeder_ohm: float):
     return oc, solve_max_power(net, r_feeder_ohm, open_circuit=oc)
 
 
+def unlimited_current_a(net: Network, controller: Controller, bank: BankPoint, r_feeder_ohm: float,
+                        r_bank_cables_ohm: float, array=None):
+    """The charge current before any bank or controller limit, (N,) [A].
+
+    For a tracker: its efficiency times what it takes at the MPP within its
+    input window, into the bank's EMF behind the bank-side resistance. Smooth
+    in the state of charge, so a season study can interpolate it; the limits,
+    with their kinks, are applied afterwards.
+    """
+    if controller.kind != "mppt":
+        return solve_charging(net, controller, bank, r_feeder_ohm, r_bank_cables_ohm)["free_current_a"]
+    oc, mp = array if array is not None else array_side(net, r_feeder_ohm)
+    p_avail, _, _, _, dead, _ = _tracker_input(net, controller, bank, r_feeder_ohm, oc, mp)
+    rated = controller_rated_w(controller, bank)
+    p_out = efficiency_at(controller, p_avail / rated) * p_avail
+    return np.where(dead, 0.0, _quadratic_current(p_out, bank.emf_v, bank.r_ohm + r_bank_cables_ohm))
+
+
 def solve_charging(net: Network, controller: Controller, bank: BankPoint, r_feeder_ohm: float,
                    r_bank_cables_ohm: float, array=None) -> dict:
     """Operating point, charge current, stage and loss split for every condition.
@@ -187,10 +205,11 @@ def _switched(net, controller, bank, r_f, r_bc):
     }
 
 
-def _mppt(net, controller, bank, r_f, r_bc, array):
-    """A tracking converter: input at the maximum power point within its window and limits."""
-    r_tot = bank.r_ohm + r_bc
-    oc, mp = array
+def _tracker_input(net, controller, bank, r_f, oc, mp):
+    """Where a tracker takes its input: the MPP, or the bottom of its window; nothing if the array cannot reach it.
+
+    Returns (power available at the input [W], x, bus voltage, converged, dead, held low).
+    """
     i_mp = evaluate_groups(net, mp.x_v).group_i_a.sum(axis=-1)
     v_in_mp = mp.bus_v - i_mp * r_f
     # The input window: above the bank voltage by the headroom, and above the
@@ -212,6 +231,14 @@ def _mppt(net, controller, bank, r_f, r_bc, array):
         i_in = np.where(dead, 0.0, i_in)
     p_avail = np.where(dead, 0.0, (bus - i_in * r_f) * i_in)
 
+    return p_avail, x, bus, converged, dead, low
+
+
+def _mppt(net, controller, bank, r_f, r_bc, array):
+    """A tracking converter: input at the maximum power point within its window and limits."""
+    r_tot = bank.r_ohm + r_bc
+    oc, mp = array
+    p_avail, x, bus, converged, dead, low = _tracker_input(net, controller, bank, r_f, oc, mp)
     rated = controller_rated_w(controller, bank)
     p_out = efficiency_at(controller, p_avail / rated) * p_avail
     i_free = _quadratic_current(p_out, bank.emf_v, r_tot)

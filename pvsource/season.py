@@ -34,16 +34,12 @@ SOC_GRID = np.linspace(0.0, 1.0, 11)
 
 
 def soc_grid(system: System) -> np.ndarray:
-    """:data:`SOC_GRID` with the points where the bank's behaviour bends: the
-    breakpoints of its OCV table (so the EMF interpolates exactly), where
-    absorption starts, and where float takes over."""
-    from pvsource.charging import FLOAT_SOC
-
+    """:data:`SOC_GRID` with the breakpoints of the bank's OCV table, so the
+    EMF interpolates exactly. The grid carries the unlimited current, smooth
+    in the state of charge; the limits' kinks are applied in the time loop."""
     if system.bank is None:
         return SOC_GRID
-    chem = system.bank.chemistry
-    extra = [*chem.ocv_soc, chem.absorption_start_soc, FLOAT_SOC]
-    return np.unique(np.clip(np.concatenate([SOC_GRID, extra]), 0.0, 1.0))
+    return np.unique(np.clip(np.concatenate([SOC_GRID, system.bank.chemistry.ocv_soc]), 0.0, 1.0))
 FULL_SOC = 0.99  # a day "reaches full charge" when the state of charge gets here
 ENERGY_KEYS = ("poa_insolation_kwh_m2", "energy_mpp_kwh", "energy_generated_kwh", "energy_delivered_kwh",
                "energy_stored_kwh", "wiring_loss_kwh", "controller_loss_kwh", "bank_internal_loss_kwh",
@@ -186,7 +182,7 @@ def charge_grid_a(system: System, g, t, done=lambda k: None, chunk_size: int = C
     -------
     charge_a, emf_v : arrays (K, N)
     """
-    from pvsource.charging import array_side, solve_charging
+    from pvsource.charging import array_side, unlimited_current_a
     from pvsource.module import parameters_at
     from pvsource.network import Network
     from pvsource.operating import _bank_point
@@ -207,8 +203,8 @@ def charge_grid_a(system: System, g, t, done=lambda k: None, chunk_size: int = C
         side = array_side(net, wiring.r_feeder_ohm) if system.controller.kind == "mppt" else None
         for k, soc in enumerate(grid):
             bank_pt = _bank_point(system, np.full(rows.size, float(soc)), None)
-            ch = solve_charging(net, system.controller, bank_pt, wiring.r_feeder_ohm, wiring.r_bank_ohm, side)
-            charge[k, rows] = ch["free_current_a"]
+            charge[k, rows] = unlimited_current_a(net, system.controller, bank_pt, wiring.r_feeder_ohm,
+                                                  wiring.r_bank_ohm, side)
     for k in range(k_grid):
         done(k)
     return charge, emf

@@ -417,6 +417,49 @@ def _is_tmy3(path: Path) -> bool:
     return len(fields) == 7 and fields[0].strip().isdigit()
 
 
+# Below this step the sun is placed every SUN_STEP and interpolated: its
+# position is smooth over minutes, and the full algorithm is the costliest
+# part of a fine year (checked to 0.01 degrees in the tests).
+SUN_STEP = pd.Timedelta("5min")
+REFRACTION_DEG = 0.5667  # SPA's atmospheric refraction at sunrise and sunset (pvlib's default)
+
+
+def sun_position(times: pd.DatetimeIndex, latitude: float, longitude: float, altitude_m: float,
+                 temp_air) -> pd.DataFrame:
+    """Apparent zenith and azimuth of the sun at each time [deg].
+
+    pvlib's SPA (:func:`pvlib.solarposition.get_solarposition`) at the times
+    themselves, or, for steps shorter than :data:`SUN_STEP`, on a
+    :data:`SUN_STEP` grid interpolated linearly (azimuth unwrapped), the
+    refraction correction of SPA [1]_ then applied at each time.
+
+    References
+    ----------
+    .. [1] I. Reda, A. Andreas, "Solar position algorithm for solar radiation
+       applications", Solar Energy 76 (2004) 577-589, doi:10.1016/j.solener.2003.12.003
+    """
+    pressure = atmosphere.alt2pres(altitude_m)
+    temp = pd.Series(np.asarray(temp_air, float), index=times)
+    if len(times) < 3 or pd.Timedelta(np.median(np.diff(times.asi8)), "ns") >= SUN_STEP:
+        return solarposition.get_solarposition(times, latitude, longitude, altitude=altitude_m,
+                                               pressure=pressure, temperature=temp)
+    coarse = pd.date_range(times[0].floor(SUN_STEP), times[-1].ceil(SUN_STEP), freq=SUN_STEP, tz=times.tz)
+    ns, coarse_ns = times.asi8.astype(float), coarse.asi8.astype(float)
+    coarse_temp = np.interp(coarse_ns, ns, temp.to_numpy())
+    sun = solarposition.get_solarposition(coarse, latitude, longitude, altitude=altitude_m, pressure=pressure,
+                                          temperature=coarse_temp)
+    azimuth = np.degrees(np.unwrap(np.radians(sun["azimuth"].to_numpy())))
+    zenith = np.interp(ns, coarse_ns, sun["zenith"].to_numpy())
+    # Refraction bends sharply near the horizon: apply SPA's own correction
+    # at every time to the smooth geometric elevation, not interpolate it.
+    elevation = 90.0 - zenith
+    switch = elevation >= -(0.26667 + REFRACTION_DEG)
+    bend = (pressure / 100.0 / 1010.0) * (283.0 / (273.0 + temp.to_numpy())) * 1.02 \
+        / (60.0 * np.tan(np.radians(elevation + 10.3 / (elevation + 5.11)))) * switch
+    return pd.DataFrame({"apparent_zenith": zenith - bend, "zenith": zenith,
+                         "azimuth": np.mod(np.interp(ns, coarse_ns, azimuth), 360.0)}, index=times)
+
+
 def poa_conditions(weather: pd.DataFrame, latitude: float, longitude: float, altitude_m: float,
                    tilt_deg: float, azimuth_deg: float, *, model: str = "perez",
                    albedo: float = 0.2, mounting: str = "open_rack") -> pd.DataFrame:
@@ -484,8 +527,7 @@ def poa_conditions(weather: pd.DataFrame, latitude: float, longitude: float, alt
             raise InputError(where, f"weather column {name}", "has missing values; read it with policy fill or skip")
     notes = []
     temp_air = weather["temp_air"]
-    sun = solarposition.get_solarposition(times, latitude, longitude, altitude=altitude_m,
-                                          pressure=atmosphere.alt2pres(altitude_m), temperature=temp_air)
+    sun = sun_position(times, latitude, longitude, altitude_m, temp_air)
     zenith, sun_azimuth = sun["apparent_zenith"], sun["azimuth"]
     night = (zenith > 90).to_numpy()
     aoi = irradiance.aoi(tilt_deg, azimuth_deg, zenith, sun_azimuth)

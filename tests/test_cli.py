@@ -298,3 +298,18 @@ def test_point_with_a_bank_reports_charging(capsys):
                                                + parts["bank_internal"] + rec["stored_w"], rel=1e-9)
     code, out, _ = run(capsys, "point", str(DATA / "example-cabin-mppt.toml"))
     assert "Charging" in out and "stage" in out
+
+
+@pytest.mark.parametrize("edit, field", [
+    (("soc = 0.55", "soc = 1.5"), "[bank].soc"),
+    (('chemistry = "lfp"', 'chemistry = "unobtainium"'), "[bank].chemistry"),
+    (("max_input_v = 150", "max_input_v = 24"), "[controller].max_input_v"),
+])
+def test_bad_bank_or_controller_values_exit_2_with_one_line(capsys, tmp_path, edit, field):
+    text = (DATA / "example-cabin-mppt.toml").read_text().replace(
+        'file = "modules/ashgrove-ag300.toml"', f'file = "{(DATA / "modules" / "ashgrove-ag300.toml").as_posix()}"')
+    assert edit[0] in text
+    path = tmp_path / "bank.toml"
+    path.write_text(text.replace(*edit))
+    code, out, err = run(capsys, "point", str(path))
+    assert code == 2 and out == "" and err.count("\n") == 1 and field in err and "Traceback" not in err

@@ -353,3 +353,18 @@ def test_gaps_are_counted_under_skip(tmp_path):
     w = read_weather_csv(write_csv(tmp_path, ["timestamp", "ghi", "temp_air"], rows[:5] + rows[8:]),
                          policy="skip")
     assert "1 gaps in the time step counted (largest 4 h)" in w.attrs["notes"] and w.attrs["step_h"] == 1.0
+
+
+def test_interpolated_sun_position_matches_pvlib_spa_to_a_hundredth_of_a_degree():
+    # Reference: pvlib.solarposition.get_solarposition (SPA) at every minute of two days.
+    from pvlib import atmosphere, solarposition
+    from pvsource.weather import sun_position
+    times = pd.date_range("2025-06-20", periods=2 * 1440, freq="1min", tz="Etc/GMT-1")
+    temp = 15.0 + 8.0 * np.sin(np.arange(len(times)) / 1440 * 2 * np.pi)
+    ours = sun_position(times, 46.2, 8.9, 640.0, temp)
+    ref = solarposition.get_solarposition(times, 46.2, 8.9, altitude=640.0, pressure=atmosphere.alt2pres(640.0),
+                                          temperature=temp)
+    up = ref["apparent_zenith"] < 90
+    assert np.max(np.abs(ours["apparent_zenith"] - ref["apparent_zenith"])[up]) < 0.01
+    daz = np.abs((ours["azimuth"] - ref["azimuth"] + 180) % 360 - 180)
+    assert np.max(daz[up]) < 0.01
