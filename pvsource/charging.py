@@ -50,6 +50,7 @@ class BankPoint:
     floating : True where the target is the float voltage
     max_charge_a : the bank's maximum charge current (0 where charging is not allowed) [A]
     accept_a : what the bank accepts in the constant-voltage stage near full charge [A]
+    cap_a : in a season study, the current that fills the bank within the step [A]
     """
 
     emf_v: np.ndarray
@@ -58,6 +59,11 @@ class BankPoint:
     floating: np.ndarray
     max_charge_a: np.ndarray
     accept_a: np.ndarray
+    cap_a: np.ndarray | None = None
+
+    def room_a(self):
+        """What still fits in the bank this step (a season study's cap); infinite by default [A]."""
+        return np.full_like(self.emf_v, np.inf) if self.cap_a is None else self.cap_a
 
     def cv_current_a(self):
         """The constant-voltage stage's current: the law (V - E)/R, within the bank's acceptance."""
@@ -168,16 +174,18 @@ def _switched(net, controller, bank, r_f, r_bc):
             sol = type(sol)(x, bus, sol.converged & (oc.converged | ~blocked), sol.iterations)
             i_on = np.where(blocked, 0.0, i_on)
     i_cv = bank.cv_current_a()
+    room = bank.room_a()
     if controller.kind == "pwm":
-        i_target = np.minimum(i_cv, bank.max_charge_a)
+        i_target = np.minimum(np.minimum(i_cv, bank.max_charge_a), room)
         regulating = i_on > i_target
         with np.errstate(divide="ignore", invalid="ignore"):
             duty = np.where(regulating, i_target / i_on, 1.0)
         i_bank = np.where(regulating, i_target, i_on)
-        cv = regulating & (i_cv <= bank.max_charge_a)
-        other = np.where(regulating, "bulk", "bulk")
-        limit = np.where(regulating, np.where(cv, "voltage regulation", "bank charge rate"), "source")
-        stage = _stage_names(cv, bank.floating, other)
+        full = regulating & (room <= np.minimum(i_cv, bank.max_charge_a))
+        cv = regulating & ~full & (i_cv <= bank.max_charge_a)
+        limit = np.where(regulating, np.where(full, "bank full", np.where(cv, "voltage regulation",
+                                                                          "bank charge rate")), "source")
+        stage = _stage_names(cv | full, bank.floating | full, "bulk")
     else:
         duty = np.ones_like(i_on)
         i_bank = i_on
@@ -185,8 +193,9 @@ def _switched(net, controller, bank, r_f, r_bc):
         # outside what its chemistry allows.
         over = bank.emf_v + i_on * bank.r_ohm > bank.target_v
         stage = np.full(i_on.shape, "unregulated", dtype=object)
-        limit = np.select([(i_on > 0) & (bank.max_charge_a <= 0), i_on > bank.max_charge_a, over],
-                          ["none: charging below the bank's minimum temperature",
+        limit = np.select([i_on > room, (i_on > 0) & (bank.max_charge_a <= 0), i_on > bank.max_charge_a, over],
+                          ["none: the bank is full and overcharged",
+                           "none: charging below the bank's minimum temperature",
                            "none: above the bank's charge rate", "none: above the regulation voltage"], "none")
     held = np.isin(stage, ("absorption", "float"))
     stage = np.where((i_bank > 0.0) | held, stage, np.where(i_bank < 0.0, "discharging", "idle")).astype(object)
@@ -195,12 +204,15 @@ def _switched(net, controller, bank, r_f, r_bc):
         "x_v": sol.x_v, "bus_v": sol.bus_v, "converged": sol.converged, "duty": duty,
         "input_v": sol.bus_v - i_on * r_f,
         "charge_current_a": i_bank, "free_current_a": i_on, "stage": stage, "limit": limit.astype(object),
-        "stored_w": bank.emf_v * i_bank,
+        # Past full, a direct connection's charge cannot be stored: it heats
+        # (and, in lead-acid, gasses) the bank.
+        "stored_w": bank.emf_v * np.minimum(i_bank, room),
         # A switch that is open part of the time leaves that share of the on-state power on the curve.
         "curtailed_w": (1.0 - duty) * np.maximum(sol.bus_v * i_on, 0.0),
         "controller_loss_w": v_d * np.maximum(i_on_avg, 0.0),
         "bank_cable_loss_w": duty * i_on * i_on * r_bc,
-        "bank_internal_loss_w": duty * i_on * i_on * bank.r_ohm,
+        "bank_internal_loss_w": duty * i_on * i_on * bank.r_ohm
+        + bank.emf_v * np.maximum(i_bank - np.minimum(i_bank, room), 0.0),
         "scale": duty,
     }
 
@@ -244,7 +256,8 @@ def _mppt(net, controller, bank, r_f, r_bc, array):
     i_free = _quadratic_current(p_out, bank.emf_v, r_tot)
     i_cv = bank.cv_current_a()
     i_ctrl = np.full_like(i_free, np.inf if controller.max_output_a is None else controller.max_output_a)
-    i_max = np.minimum(np.minimum(i_ctrl, bank.max_charge_a), i_cv)
+    room = bank.room_a()
+    i_max = np.minimum(np.minimum(np.minimum(i_ctrl, bank.max_charge_a), i_cv), room)
     limited = i_free > i_max
     i_bank = np.where(limited, i_max, i_free)
     p_out_actual = np.where(limited, (bank.emf_v + i_bank * r_tot) * i_bank, p_out)
@@ -295,14 +308,16 @@ def _mppt(net, controller, bank, r_f, r_bc, array):
     p_in = np.where(dead, 0.0, (bus - i_in * r_f) * i_in)
     p_out_final = np.where(dead, 0.0, np.where(limited, p_out_actual, p_out))
 
-    which = np.select([bank.max_charge_a <= 0.0, i_max == i_cv, i_max == bank.max_charge_a],
-                      ["bank charge rate", "voltage regulation", "bank charge rate"], "controller output current")
+    which = np.select([bank.max_charge_a <= 0.0, i_max == room, i_max == i_cv, i_max == bank.max_charge_a],
+                      ["bank charge rate", "bank full", "voltage regulation", "bank charge rate"],
+                      "controller output current")
     limit = np.where(limited, which, np.where(low & ~dead, "input voltage window", "source"))
     dark = oc.bus_v <= controller.min_headroom_v  # no usable light at all
     limit = np.where(dead, np.where(dark, "dark", "input voltage window"), limit)
     limit = np.where(over_v, "input above max_input_v: controller off", limit).astype(object)
-    cv = limited & (which == "voltage regulation")
-    stage = _stage_names(cv, bank.floating, "bulk")
+    full = limited & (which == "bank full")
+    cv = limited & ((which == "voltage regulation") | full)
+    stage = _stage_names(cv, bank.floating | full, "bulk")
     stage = np.where((i_bank > 0.0) | cv, stage, "idle").astype(object)
     return {
         "x_v": x, "bus_v": bus, "converged": converged, "duty": np.ones_like(bus),

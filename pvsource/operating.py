@@ -128,7 +128,7 @@ def _load_branch(system: System):
     return th[0], th[1] + system.wiring.r_load_side_ohm
 
 
-def _bank_point(system: System, soc, temp_c) -> BankPoint:
+def _bank_point(system: System, soc, temp_c, cap_a=None) -> BankPoint:
     """The bank's Thevenin equivalent, stage target and charge limit at each condition."""
     b = system.bank
     emf, r = bank_model.thevenin(b, soc, temp_c)
@@ -139,10 +139,12 @@ def _bank_point(system: System, soc, temp_c) -> BankPoint:
     as_array = lambda a: np.array(np.broadcast_to(a, shape), dtype=float)  # noqa: E731
     return BankPoint(as_array(emf), as_array(r), as_array(np.where(floating, v_float, v_abs)),
                      np.array(np.broadcast_to(floating, shape)), as_array(bank_model.max_charge_current_a(b, temp_c)),
-                     as_array(bank_model.acceptance_current_a(b, soc, temp_c)))
+                     as_array(bank_model.acceptance_current_a(b, soc, temp_c)),
+                     None if cap_a is None else as_array(cap_a))
 
 
-def _solve_chunk(system: System, g_w_m2, t_c, soc=None, bank_temp_c=None, drift_check: bool = True) -> dict:
+def _solve_chunk(system: System, g_w_m2, t_c, soc=None, bank_temp_c=None, drift_check: bool = True,
+                 charge_cap_a=None) -> dict:
     """All outputs for one chunk of conditions, as a dict of 1-D arrays."""
     wiring = system.wiring
     n_s, n_p = system.n_series, system.n_parallel
@@ -182,7 +184,7 @@ def _solve_chunk(system: System, g_w_m2, t_c, soc=None, bank_temp_c=None, drift_
     branch = _load_branch(system)
     charge = None
     if system.bank is not None:
-        bank_pt = _bank_point(system, soc, bank_temp_c)
+        bank_pt = _bank_point(system, soc, bank_temp_c, charge_cap_a)
         charge = solve_charging(net, system.controller, bank_pt, wiring.r_feeder_ohm, wiring.r_bank_ohm)
         x_sol, v, duty = charge["x_v"], charge["bus_v"], charge["scale"]
         converged &= charge["converged"]
@@ -327,7 +329,7 @@ def _solve_chunk(system: System, g_w_m2, t_c, soc=None, bank_temp_c=None, drift_
 
 
 def _frame_from_chunks(system: System, g, t, chunk_size: int, soc=None, bank_temp_c=None,
-                       drift_check: bool = True) -> pd.DataFrame:
+                       drift_check: bool = True, charge_cap_a=None) -> pd.DataFrame:
     """Solve chunk by chunk into one preallocated column-major block.
 
     One block of the float columns, filled in place, becomes the DataFrame
@@ -339,7 +341,8 @@ def _frame_from_chunks(system: System, g, t, chunk_size: int, soc=None, bank_tem
     for start in range(0, n, chunk_size):
         sl = slice(start, start + chunk_size)
         part = _solve_chunk(system, g[sl], t[sl], None if soc is None else soc[sl],
-                            None if bank_temp_c is None else bank_temp_c[sl], drift_check)
+                            None if bank_temp_c is None else bank_temp_c[sl], drift_check,
+                            None if charge_cap_a is None else charge_cap_a[sl])
         if block is None:
             columns = [k for k, a in part.items() if np.asarray(a).dtype.kind == "f"]
             others = {k: np.empty(n, np.asarray(a).dtype) for k, a in part.items() if k not in columns}
@@ -356,7 +359,8 @@ def _frame_from_chunks(system: System, g, t, chunk_size: int, soc=None, bank_tem
 
 
 def operating_points(system: System, irradiance_w_m2=None, cell_temp_c=None, *, soc=None, bank_temp_c=None,
-                     drift_check: bool = True, on_failure: str = "raise", chunk_size: int = CHUNK_SIZE) -> pd.DataFrame:
+                     charge_cap_a=None, drift_check: bool = True, on_failure: str = "raise",
+                     chunk_size: int = CHUNK_SIZE) -> pd.DataFrame:
     """Exact operating points, linearised equivalents and accounting per condition.
 
     Parameters
@@ -371,6 +375,9 @@ def operating_points(system: System, irradiance_w_m2=None, cell_temp_c=None, *, 
     soc, bank_temp_c : float or array (N,), optional
         The bank's state of charge [-] and temperature [degC], where the
         system has a bank; by default the system file's.
+    charge_cap_a : array (N,), optional
+        A season study's cap on the charge current: what still fits in the
+        bank within each step [A]; infinite where it does not bind.
     drift_check : bool
         Solve the exact curve at +/-10 % of the operating voltage to show how
         far the linear model holds (two extra solves); off, those columns are NaN.
@@ -416,7 +423,11 @@ def operating_points(system: System, irradiance_w_m2=None, cell_temp_c=None, *, 
         g, t = np.repeat(g, n_bank, axis=0), np.repeat(t, n_bank, axis=0)
     soc = _bank_condition(system, soc, "soc", (0.0, 1.0), len(g))
     bank_temp_c = _bank_condition(system, bank_temp_c, "bank_temp_c", (-40.0, 70.0), len(g))
-    frame = _frame_from_chunks(system, g, t, chunk_size, soc, bank_temp_c, drift_check)
+    if charge_cap_a is not None:
+        charge_cap_a = np.array(np.broadcast_to(np.asarray(charge_cap_a, float), (len(g),)))
+        if np.any(np.isnan(charge_cap_a) | (charge_cap_a < 0)):
+            raise InputError("charge_cap_a", None, "expected currents of 0 A or more (inf where no cap)")
+    frame = _frame_from_chunks(system, g, t, chunk_size, soc, bank_temp_c, drift_check, charge_cap_a)
 
     bad = ~frame["converged"].to_numpy()
     if bad.any():

@@ -92,6 +92,7 @@ def _soc_kernel(grid, free, emf, loads, per_ah, coulombic, soc0, kind, limits): 
     n = loads.shape[0]
     soc_path = np.empty(n)
     unmet = np.zeros(n)
+    cap = np.full(n, np.inf)
     soc = soc0
     j = 0
     for k in range(n):
@@ -113,7 +114,13 @@ def _soc_kernel(grid, free, emf, loads, per_ah, coulombic, soc0, kind, limits): 
             i_charge = min(i_charge, i_rate, i_cv, share * i_rate)
             if kind == 2:
                 i_charge = min(i_charge, i_ctrl)
-        net = i_charge - loads[k] / e
+        load_a = loads[k] / e
+        net = i_charge - load_a
+        room = (1.0 - soc) / (per_ah * coulombic)
+        if net > room:
+            # The bank fills within the step: it takes only what fits.
+            cap[k] = load_a + room
+            net = room
         soc += net * per_ah * (coulombic if net > 0.0 else 1.0)
         if soc < 0.0:
             # The bank is empty: the rest of this step's load goes unserved.
@@ -121,7 +128,7 @@ def _soc_kernel(grid, free, emf, loads, per_ah, coulombic, soc0, kind, limits): 
             soc = 0.0
         elif soc > 1.0:
             soc = 1.0
-    return soc_path, unmet, soc
+    return soc_path, unmet, soc, cap
 
 
 def integrate_soc(charge_grid_a, emf_grid_v, load_w, step_h: float, capacity_ah: float, coulombic: float,
@@ -160,15 +167,18 @@ def integrate_soc(charge_grid_a, emf_grid_v, load_w, step_h: float, capacity_ah:
     soc_path : array (N,)
     unmet_w : array (N,)
     final_soc : float
+    cap_a : array (N,)
+        Where the bank fills within a step, the charge current that just
+        fills it (load included); infinite elsewhere.
     """
     grid = np.asarray(SOC_GRID if grid is None else grid, dtype=float)
     code = {"direct": 0, "pwm": 1, "mppt": 2}[kind] if limits is not None else 0
     limits = tuple(float(v) for v in (limits or (0.0,) * 7))
-    soc_path, unmet, final = _soc_kernel(grid, np.ascontiguousarray(charge_grid_a, dtype=float),
-                                         np.ascontiguousarray(emf_grid_v, dtype=float),
-                                         np.ascontiguousarray(load_w, dtype=float), step_h / capacity_ah,
-                                         float(coulombic), float(soc0), code, limits)
-    return soc_path, unmet, float(final)
+    soc_path, unmet, final, cap = _soc_kernel(grid, np.ascontiguousarray(charge_grid_a, dtype=float),
+                                              np.ascontiguousarray(emf_grid_v, dtype=float),
+                                              np.ascontiguousarray(load_w, dtype=float), step_h / capacity_ah,
+                                              float(coulombic), float(soc0), code, limits)
+    return soc_path, unmet, float(final), cap
 
 
 def charge_grid_a(system: System, g, t, done=lambda k: None, chunk_size: int = CHUNK_SIZE):
@@ -239,6 +249,14 @@ def run_season(system: System, weather: pd.DataFrame, *, transposition: str = "p
     load_w = weather["load_w"].to_numpy(float) if "load_w" in weather else np.zeros(len(weather))
     if "load_w" not in weather and system.bank is not None:
         notes.append("no load_w column: the bank feeds no load")
+    if "load_w" in weather and system.bank is None:
+        notes.append("load_w is reported but not drawn: the system has no bank")
+        load_w = np.zeros(len(weather))
+    file_site = weather.attrs.get("site")
+    if file_site and system.site and (abs(file_site["latitude"] - system.site.latitude) > 1.0
+                                      or abs(file_site["longitude"] - system.site.longitude) > 1.0):
+        notes.append(f"the weather file's site ({file_site['latitude']:g}, {file_site['longitude']:g}) is more "
+                     f"than a degree from [site] ({system.site.latitude:g}, {system.site.longitude:g})")
     soc_path = unmet = None
     if system.bank is not None:
         b = system.bank
@@ -251,9 +269,10 @@ def run_season(system: System, weather: pd.DataFrame, *, transposition: str = "p
         limits = (c.max_output_a if c.max_output_a is not None else np.inf,
                   float(bank_model.max_charge_current_a(b)), b.chemistry.absorption_start_soc,
                   float(bank_model.internal_resistance_ohm(b)), float(v_abs), float(v_float), FLOAT_SOC)
-        soc_path, unmet, _ = integrate_soc(charge_grid, emf_grid, load_w, step_h, b.capacity_ah,
-                                           b.chemistry.coulombic_efficiency, start, soc_grid(system), limits, c.kind)
-        steps = operating_points(system, g, t, soc=soc_path, drift_check=False)
+        soc_path, unmet, _, cap = integrate_soc(charge_grid, emf_grid, load_w, step_h, b.capacity_ah,
+                                                b.chemistry.coulombic_efficiency, start, soc_grid(system), limits,
+                                                c.kind)
+        steps = operating_points(system, g, t, soc=soc_path, charge_cap_a=cap, drift_check=False)
     else:
         steps = operating_points(system, g, t, drift_check=False)
     report(total - 1, total)
@@ -271,7 +290,7 @@ def run_season(system: System, weather: pd.DataFrame, *, transposition: str = "p
 def _step_hours(index) -> float:
     if len(index) < 2:
         raise InputError("weather", None, "needs at least two time steps")
-    return float(np.median(np.diff(index.asi8)) / 3.6e12)
+    return float(pd.Series(index).diff().median().total_seconds() / 3600.0)
 
 
 def _energies(steps: pd.DataFrame, step_h: float) -> dict:
@@ -281,7 +300,7 @@ def _energies(steps: pd.DataFrame, step_h: float) -> dict:
         "energy_mpp_kwh": kwh("groups_p_mp_w"),
         "energy_generated_kwh": kwh("generated_w"),
         "energy_delivered_kwh": kwh("delivered_w"),
-        "energy_stored_kwh": kwh("stored_w") if "stored_w" in steps else kwh("delivered_w"),
+        "energy_stored_kwh": kwh("stored_w"),
         "wiring_loss_kwh": kwh("cable_loss_w"),
         "controller_loss_kwh": kwh("controller_loss_w"),
         "bank_internal_loss_kwh": kwh("bank_internal_loss_w"),
@@ -290,9 +309,11 @@ def _energies(steps: pd.DataFrame, step_h: float) -> dict:
         "load_kwh": kwh("load_w"),
         "unmet_load_kwh": kwh("unmet_load_w"),
     }
-    gen = out["energy_generated_kwh"]
-    for key in ("wiring_loss", "controller_loss", "bank_internal_loss", "curtailed"):
+    gen, avail = out["energy_generated_kwh"], out["energy_mpp_kwh"]
+    for key in ("wiring_loss", "controller_loss", "bank_internal_loss"):
         out[f"{key}_pct"] = 100.0 * out[f"{key}_kwh"] / gen if gen > 0 else None
+    # Curtailed energy was never generated: a share of what was available.
+    out["curtailed_pct"] = 100.0 * out["curtailed_kwh"] / avail if avail > 0 else None
     return out
 
 

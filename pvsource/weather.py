@@ -275,6 +275,9 @@ def _zone(tz: str):
                          "Europe/Berlin, UTC, or an offset such as +01:00") from None
 
 
+_OFFSET_CAPTURE = r"(Z|z|[+-]\d{2}:?\d{2})\s*$"
+
+
 def _parse_times(where: str, cells: pd.Series, tz: str | None, cell: str) -> pd.Series:
     zone = _zone(tz) if tz else None
     has_offset = cells.str.contains(_OFFSET, regex=True).to_numpy()
@@ -283,6 +286,12 @@ def _parse_times(where: str, cells: pd.Series, tz: str | None, cell: str) -> pd.
         # the order checks catch files where they are not.
         times = pd.to_datetime(cells, format="ISO8601", utc=True, errors="coerce")
         times[~has_offset] = pd.NaT
+        if zone is None:
+            # One offset throughout is the file's own local clock: keep it, so
+            # months and days are the site's, not UTC's.
+            offsets = cells[has_offset].str.extract(_OFFSET_CAPTURE, expand=False).dropna().unique()
+            if len(offsets) == 1:
+                zone = _zone(offsets[0] if offsets[0] not in ("Z", "z") else "UTC")
         return times.dt.tz_convert(zone) if zone is not None else times
     if zone is None:
         raise InputError(where, f"column {cell!r}", "timestamps carry no time zone; give --tz "
@@ -440,11 +449,11 @@ def sun_position(times: pd.DatetimeIndex, latitude: float, longitude: float, alt
     """
     pressure = atmosphere.alt2pres(altitude_m)
     temp = pd.Series(np.asarray(temp_air, float), index=times)
-    if len(times) < 3 or pd.Timedelta(np.median(np.diff(times.asi8)), "ns") >= SUN_STEP:
+    if len(times) < 3 or pd.Series(times).diff().median() >= SUN_STEP:
         return solarposition.get_solarposition(times, latitude, longitude, altitude=altitude_m,
                                                pressure=pressure, temperature=temp)
     coarse = pd.date_range(times[0].floor(SUN_STEP), times[-1].ceil(SUN_STEP), freq=SUN_STEP, tz=times.tz)
-    ns, coarse_ns = times.asi8.astype(float), coarse.asi8.astype(float)
+    ns, coarse_ns = _ns(times).astype(float), _ns(coarse).astype(float)
     coarse_temp = np.interp(coarse_ns, ns, temp.to_numpy())
     sun = solarposition.get_solarposition(coarse, latitude, longitude, altitude=altitude_m, pressure=pressure,
                                           temperature=coarse_temp)
