@@ -197,6 +197,8 @@ def _switched(net, controller, bank, r_f, r_bc):
                           ["none: the bank is full and overcharged",
                            "none: charging below the bank's minimum temperature",
                            "none: above the bank's charge rate", "none: above the regulation voltage"], "none")
+    dark = net.state.i_l_a.sum(axis=-1) <= 0.0
+    limit = np.where(dark & (i_on <= 0.0), "dark", limit)
     held = np.isin(stage, ("absorption", "float"))
     stage = np.where((i_bank > 0.0) | held, stage, np.where(i_bank < 0.0, "discharging", "idle")).astype(object)
     i_on_avg = duty * i_on
