@@ -45,6 +45,7 @@ import numpy as np
 from pvsource.module import DiodeState, diode_current, diode_voltage_upper_bound
 
 MAX_ITERATIONS = 100
+STIFF_OHM = 1e-12
 # Stop when KVL holds to this fraction of the bus voltage (plus 1 nV), then
 # take one more step: quadratic convergence squares the error, far below
 # what the 1e-9 energy-balance guard needs.
@@ -166,7 +167,7 @@ class _Prepared:
         scale = _gsum(share * self.n_s * self.a)
         voc = self.n_s * self.x_oc
         top = voc.max(axis=0)
-        with np.errstate(divide="ignore", over="ignore"):
+        with np.errstate(divide="ignore", over="ignore", invalid="ignore"):  # dark rows: 0/0, masked below
             v = top - scale * np.log(_gsum(share * np.exp(np.minimum((top - voc) / scale, 700.0))))
         return np.where(lit, np.clip(v, voc.min(axis=0), top), 0.0)
 
@@ -361,11 +362,13 @@ def solve_thevenin(net: Network, emf_v, r_ohm, x0_v=None) -> Solution:
     p = net.prepared
     m = p.i_l.shape[1]
     emf, r = _flat(emf_v, m), _flat(r_ohm, m)
-    fixed = r == 0.0
-    with np.errstate(divide="ignore"):
-        g_load = np.where(fixed, 0.0, 1.0 / r)
+    # Below a picohm a branch is a stiff voltage for all purposes (and its
+    # conductance would overflow).
+    fixed = r < STIFF_OHM
+    with np.errstate(divide="ignore", over="ignore"):
+        g_load = np.where(fixed, 0.0, 1.0 / np.where(fixed, 1.0, r))
     v_oc = p.v_oc_bound
-    with np.errstate(divide="ignore", invalid="ignore"):
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         load_back = np.where(fixed | ~np.isfinite(r), 0.0, np.maximum(emf, 0.0) / r)
     x_hi = p.x_cap(np.maximum(v_oc, emf), load_back, np.where(fixed, emf, np.nan))
     if x0_v is None:

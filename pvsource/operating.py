@@ -230,7 +230,8 @@ def _solve_chunk(system: System, g_w_m2, t_c, soc=None, bank_temp_c=None, drift_
     else:
         e_l, r_l = branch
         with np.errstate(divide="ignore", invalid="ignore"):
-            expected_i = np.where(r_l == 0.0, i, (v - e_l) / np.where(r_l == 0.0, 1.0, r_l))
+            stiff = r_l < 1e-12
+            expected_i = np.where(stiff, i, (v - e_l) / np.where(stiff, 1.0, r_l))
         kcl = np.abs(i - expected_i)
         if charge is not None:
             kcl = np.where(charge["stage"] == "idle", 0.0, kcl)  # a blocking diode or open switch
