@@ -307,8 +307,8 @@ def _progress(label: str):
     return report
 
 
-def _season_outputs(system, weather, out: Path, force: bool, transposition: str, as_json: bool) -> None:
-    folder = prepare_folder(out, force)
+def _season_outputs(system, weather, out: Path, force: bool, transposition: str, as_json: bool, inputs=()) -> None:
+    folder = prepare_folder(out, force, inputs)
     result = run_season(system, weather, transposition=transposition, progress=_progress("season"))
     write_report(folder, system, result, weather)
     if as_json:
@@ -351,7 +351,7 @@ def season(
     from pvsource.weather import read_weather
 
     weather = read_weather(weather_file, columns=columns or None, tz=tz, policy=policy)
-    _season_outputs(system, weather, out, force, transposition, as_json)
+    _season_outputs(system, weather, out, force, transposition, as_json, (system_file, weather_file))
 
 
 @app.command()

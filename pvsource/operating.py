@@ -447,6 +447,12 @@ def operating_points(system: System, irradiance_w_m2=None, cell_temp_c=None, *, 
     eff = frame["efficiency"].to_numpy()[ok]
     if np.any(eff > 1.0 + ENERGY_BALANCE_TOLERANCE):
         raise PhysicsGuardError("an efficiency above 1 was computed; result withheld")
+    if system.bank is not None and system.controller.kind in ("direct", "pwm"):
+        # Through a switch or a wire the bank cannot get more than the array's short-circuit current.
+        over = frame["charge_current_a"].to_numpy()[ok] > frame["source_i_sc"].to_numpy()[ok] * (1 + 1e-9) + 1e-12
+        if np.any(over):
+            raise PhysicsGuardError("a charge current above the array's short-circuit current was computed "
+                                    "through a direct or PWM connection; result withheld")
     return frame
 
 

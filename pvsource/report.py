@@ -44,9 +44,16 @@ def json_ready(obj):
     return obj
 
 
-def prepare_folder(out: Path, force: bool) -> Path:
-    """Create ``out`` if needed; refuse a non-empty folder unless ``force``."""
+OUTPUT_NAMES = ("steps.parquet", "steps.csv", "summary.json", "monthly.csv", "report.html", *FIGURES)
+
+
+def prepare_folder(out: Path, force: bool, inputs=()) -> Path:
+    """Create ``out`` if needed; refuse a non-empty folder unless ``force``,
+    and any folder where an output would replace one of the ``inputs``."""
     out = Path(out)
+    for path in inputs:
+        if Path(path).resolve() in {(out / name).resolve() for name in OUTPUT_NAMES}:
+            raise InputError("--out", None, f"would overwrite the input {str(path)!r}; choose another folder")
     if out.exists() and not out.is_dir():
         raise InputError("--out", None, f"{str(out)!r} is a file, not a folder")
     if out.exists() and any(out.iterdir()) and not force:

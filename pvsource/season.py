@@ -283,6 +283,12 @@ def run_season(system: System, weather: pd.DataFrame, *, transposition: str = "p
     if soc_path is not None:
         steps["soc"] = soc_path
     summary = summarise(system, steps, step_h)
+    if system.bank is not None and summary["poa_insolation_kwh_m2"] > 1.0 and summary["energy_stored_kwh"] <= 0.0:
+        # A study of nothing must not look like a result.
+        why = steps["limit"].value_counts().index[0] if len(steps) else "unknown"
+        raise InputError(system.source, "[array]",
+                         f"the array never charged the bank over the whole span (most often limited by: {why}); "
+                         "check modules_per_string against the bank voltage and the controller's input window")
     report(total, total)
     return SeasonResult(steps, summary, tuple(notes))
 

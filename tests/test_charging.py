@@ -175,3 +175,21 @@ def test_direct_coupled_current_matches_pvlib_at_the_bank_voltage(demo_module):
     ref = 2 * float(pvsystem.i_from_v(v_terminal, st.i_l_a, st.i_o_a, st.r_s_ohm, st.r_sh_ohm, st.a_v,
                                       method="lambertw"))
     assert r["charge_current_a"] == pytest.approx(ref, rel=1e-9)
+
+
+def test_a_charge_current_above_the_arrays_isc_is_withheld(demo_module, monkeypatch):
+    # Guard rail: through a wire or a switch the bank cannot get more than Isc.
+    import pvsource.operating as op
+    from pvsource.errors import PhysicsGuardError
+    real = op.solve_charging
+
+    def inflated(*args, **kwargs):
+        out = real(*args, **kwargs)
+        out["charge_current_a"] = out["charge_current_a"] * 10.0
+        return out
+
+    monkeypatch.setattr(op, "solve_charging", inflated)
+    monkeypatch.setattr(op, "ENERGY_BALANCE_TOLERANCE", 1e9)  # let the current guard speak first
+    system = bank_system(demo_module, "direct", groups=((1, 3),))
+    with pytest.raises(PhysicsGuardError, match="short-circuit"):
+        operating_points(system, 800.0, 40.0)

@@ -139,3 +139,32 @@ def test_what_is_stored_is_what_the_state_of_charge_gains(demo_run):
     # The loop interpolates the current it integrates; the exact pass does
     # not: they may part by a fraction of a thousandth of the throughput.
     assert abs(gained - (soc[-1] - soc[0])) <= 1e-3 * throughput
+
+
+def test_a_study_where_the_array_never_charges_says_so(tmp_path):
+    # One module per string cannot lift a 48 V bank: a clear statement, not a zero-current study.
+    from dataclasses import replace
+
+    from pvsource.bank import make_bank
+    from pvsource.errors import InputError
+    system = demo_system()
+    system = replace(system, groups=(replace(system.groups[0], modules_per_string=1),),
+                     bank=make_bank("lfp", 16, 1, 100, 0.5, 20))
+    weather = synthetic_weather(system).iloc[: 24 * 20]
+    with pytest.raises(InputError, match="never charged the bank"):
+        run_season(system, weather)
+
+
+def test_outputs_never_overwrite_an_input(capsys, tmp_path, demo_run):
+    _, weather, _ = demo_run
+    csv = tmp_path / "steps.csv"
+    table = weather.iloc[:48].copy()
+    table.index = table.index.map(lambda ts: ts.isoformat())
+    table.index.name = "timestamp"
+    table.to_csv(csv)
+    from importlib import resources
+    system_file = tmp_path / "system.toml"
+    system_file.write_text((resources.files("pvsource") / "data" / "demo" / "system.toml").read_text())
+    before = csv.read_bytes()
+    code, _, err = run_cli(capsys, "season", str(system_file), str(csv), "--out", str(tmp_path), "--force")
+    assert code == 2 and "would overwrite the input" in err and csv.read_bytes() == before
