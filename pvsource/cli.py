@@ -426,7 +426,12 @@ def main(argv: list[str] | None = None) -> None:
             # Numerical warnings are not messages for a user: results that
             # matter are guarded (convergence, energy balance) and reported.
             warnings.simplefilter("ignore")
-            app(args=argv, prog_name="pvsource", standalone_mode=False)
+            rc = app(args=argv, prog_name="pvsource", standalone_mode=False)
+        # Typer turns Ctrl-C and explicit exits into a returned exit code.
+        if rc == 130:
+            _fail("interrupted", 130)
+        if isinstance(rc, int) and rc:
+            sys.exit(rc)
     except InputError as exc:
         _fail(exc.one_line(), 2)
     except _cli_errors.NoArgsIsHelpError:

@@ -278,7 +278,16 @@ def _zone(tz: str):
 _OFFSET_CAPTURE = r"(Z|z|[+-]\d{2}:?\d{2})\s*$"
 
 
+YEARS = (1900, 2200)  # outside these a timestamp is a typing mistake (and beyond pandas' nanosecond range)
+
+
 def _parse_times(where: str, cells: pd.Series, tz: str | None, cell: str) -> pd.Series:
+    times = _parse_times_raw(where, cells, tz, cell)
+    years = times.dt.year
+    return times.where((years >= YEARS[0]) & (years <= YEARS[1]))
+
+
+def _parse_times_raw(where: str, cells: pd.Series, tz: str | None, cell: str) -> pd.Series:
     zone = _zone(tz) if tz else None
     has_offset = cells.str.contains(_OFFSET, regex=True).to_numpy()
     if has_offset.any():

@@ -168,3 +168,22 @@ def test_outputs_never_overwrite_an_input(capsys, tmp_path, demo_run):
     before = csv.read_bytes()
     code, _, err = run_cli(capsys, "season", str(system_file), str(csv), "--out", str(tmp_path), "--force")
     assert code == 2 and "would overwrite the input" in err and csv.read_bytes() == before
+
+
+def test_an_interrupt_leaves_no_half_written_file(capsys, tmp_path, monkeypatch):
+    # Ctrl-C while the figures are drawn: what was written is whole, nothing is half-written.
+    import pandas as pd
+
+    from pvsource import plots
+
+    def interrupted(*args, **kwargs):
+        raise KeyboardInterrupt
+
+    monkeypatch.setattr(plots, "soc_figure", interrupted)
+    out = tmp_path / "demo"
+    code, _, err = run_cli(capsys, "demo", "--out", str(out))
+    assert code == 130 and err.strip() == "pvsource: error: interrupted"
+    assert not list(out.glob(".*"))  # no temporary names left behind
+    json.loads((out / "summary.json").read_text())
+    assert len(pd.read_parquet(out / "steps.parquet")) == 8760
+    assert not (out / "report.html").exists()
