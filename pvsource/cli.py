@@ -39,7 +39,8 @@ from pvsource.runs import quick_record, wire_record
 from pvsource.sweep import run_sweep
 from pvsource.system import Load
 from pvsource.terminal import (
-    fit_record, render_checks, render_fit, render_point, render_quick_wire, render_season, render_sweep, render_wire,
+    fit_record, render_checks, render_explore, render_fit, render_point, render_quick_wire, render_season,
+    render_sweep, render_wire,
 )
 
 app = typer.Typer(
@@ -365,6 +366,57 @@ def demo(
     system = demo_system()
     weather = synthetic_weather(system)
     _season_outputs(system, weather, out, force, "perez", as_json)
+
+
+@app.command()
+def explore(
+    system_file: Annotated[Path, typer.Argument(metavar="SYSTEM.toml", help="The system file, with a [site].")],
+    weather_file: Annotated[Path, typer.Argument(metavar="WEATHER", help="A weather CSV, TMY3 file or EPW file.")],
+    vary: Annotated[list[str], typer.Option(
+        "--vary", metavar="KEY=V1,V2,...",
+        help="A choice to vary: modules_per_string, strings, size:RUN, bank_voltage, bank_capacity_ah, controller, "
+             "tilt_deg. Repeat for more.")],
+    out: Annotated[Path, typer.Option("--out", metavar="DIR", help="Folder for the results.")],
+    price_per_kg: Annotated[float, typer.Option("--price-per-kg", help="Conductor metal price per kg.")],
+    energy_value: Annotated[float, typer.Option("--energy-value", help="Value of one lost kWh.")],
+    years: Annotated[float, typer.Option("--years", help="Service life [years].")] = 20.0,
+    tz: Annotated[Optional[str], typer.Option("--tz", help="Time zone of naive timestamps.")] = None,
+    resume: Annotated[bool, typer.Option("--resume", help="Skip the combinations already in --out.")] = False,
+    force: Annotated[bool, typer.Option("--force", help="Write into a folder that already holds files.")] = False,
+    as_json: Annotated[bool, typer.Option("--json", help="Print the ranked rows as JSON.")] = False,
+):
+    """Every combination of design choices over a weather year, checked, ranked, with the cost-energy front."""
+    for name, value, lo, hi in (("--price-per-kg", price_per_kg, 0.0, 1e4), ("--energy-value", energy_value, 0.0, 1e4),
+                                ("--years", years, 0.1, 100.0)):
+        if not math.isfinite(value) or not lo <= value <= hi:
+            raise InputError(name, None, f"expected {lo:g} to {hi:g}, got {value!r}")
+    system = load_system(system_file)
+    from pvsource.explore import explore as run_explore
+    from pvsource.explore import parse_vary
+    from pvsource.weather import read_weather
+
+    choices = parse_vary(vary, system)
+    weather = read_weather(weather_file, tz=tz)
+    folder = prepare_folder(out, force or resume, (system_file, weather_file))
+    ranked = run_explore(system, weather, choices, folder,
+                         {"price_per_kg": price_per_kg, "energy_value": energy_value, "years": years},
+                         resume=resume, progress=_progress("explore"))
+    table = ranked.copy()
+    _atomic_frame(folder / "results.parquet", table)
+    if (~ranked["excluded"]).any():
+        from pvsource.plots import pareto_figure
+        pareto_figure(ranked, folder / "pareto.png")
+    rows = json_ready(ranked.to_dict(orient="records"))
+    if as_json:
+        _emit_json({"rows": rows, "out": str(folder)})
+    else:
+        typer.echo(render_explore(ranked, folder))
+
+
+def _atomic_frame(path: Path, frame) -> None:
+    from pvsource.report import _atomic
+
+    _atomic(path, lambda tmp: frame.to_parquet(tmp))
 
 
 @app.command()

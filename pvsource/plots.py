@@ -188,3 +188,20 @@ def iv_figure(curves: list, path) -> Path:
     ax.legend(fontsize=7.5, frameon=False)
     ax.set_title("The array's curve and its operating point at chosen hours", fontsize=10, loc="left")
     return save_atomically(fig, path)
+
+
+def pareto_figure(ranked, path) -> Path:
+    """Lifetime cost against delivered energy for every feasible combination, the front joined."""
+    ok = ranked[~ranked["excluded"]]
+    fig, ax = plt.subplots(figsize=(7.0, 4.2))
+    ax.scatter(ok["energy_delivered_kwh_per_year"], ok["lifetime_cost"], s=22, color="#9aa9b2", label="combination")
+    front = ok[ok["pareto"]].sort_values("energy_delivered_kwh_per_year")
+    ax.plot(front["energy_delivered_kwh_per_year"], front["lifetime_cost"], "o-", color=LINEAR, ms=6, lw=1.4,
+            label="no other is both cheaper and delivers more")
+    ax.set_xlabel("energy delivered per year [kWh]")
+    ax.set_ylabel("lifetime cost (conductors + lost energy)")
+    ax.spines[["top", "right"]].set_visible(False)
+    ax.grid(True, color="#e3e3e3", lw=0.6)
+    ax.legend(fontsize=7.5, frameon=False)
+    ax.set_title("Design combinations: cost against energy", fontsize=10, loc="left")
+    return save_atomically(fig, path)

@@ -300,3 +300,17 @@ def quick_record(current_a: float, length_m: float, size_text: str, material: st
         if note:
             rec["recommendation_note"] = note
     return rec
+
+
+def resize_run(system: System, name: str, size: conductors.ConductorSize) -> System:
+    """The system with run ``name`` in another conductor size (resistance recomputed for it)."""
+    from dataclasses import replace
+
+    runs = []
+    for run in system.cables:
+        if run.name == name:
+            r_km = 1000.0 * float(conductors.resistance_per_m_ohm(size.area_mm2, run.material, run.temp_c,
+                                                                    conductor_class=run.conductor_class))
+            run = replace(run, size=size, resistance_ohm_per_km=r_km)
+        runs.append(run)
+    return replace(system, cables=tuple(runs))

@@ -35,6 +35,7 @@ from pvsource import conductors
 from pvsource.errors import InputError
 from pvsource.linear import linear_transfer
 from pvsource.operating import operating_points
+from pvsource.runs import resize_run
 from pvsource.system import Load, System
 
 VARIABLES = ("load-resistance", "bank-voltage", "bank-class", "soc", "modules", "size:RUN", "irradiance",
@@ -135,15 +136,7 @@ def _variant(system: System, variable: str, value) -> System:
     if variable == "modules":
         return replace(system, groups=tuple(replace(g, modules_per_string=int(value)) for g in system.groups))
     if variable.startswith("size:"):
-        name = variable[5:]
-        cables = []
-        for run in system.cables:
-            if run.name == name:
-                r_km = 1000.0 * float(conductors.resistance_per_m_ohm(value.area_mm2, run.material, run.temp_c,
-                                                                        conductor_class=run.conductor_class))
-                run = replace(run, size=value, resistance_ohm_per_km=r_km)
-            cables.append(run)
-        return replace(system, cables=tuple(cables))
+        return resize_run(system, variable[5:], value)
     return system
 
 

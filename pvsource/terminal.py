@@ -363,3 +363,26 @@ def render_season(system: System, summary: dict, folder, notes=()) -> str:
     lines.append(f"\nTables, figures and report.html written to {folder}")
     lines.append(render_cautions(cautions.WIRING))
     return "\n".join(lines)
+
+
+def render_explore(ranked, folder) -> str:
+    """The ranked table of ``pvsource explore``."""
+    choice_cols = [c for c in ranked.columns if c not in (
+        "rank", "id", "excluded", "reason", "pareto", "energy_delivered_kwh_per_year", "energy_stored_kwh_per_year",
+        "wiring_loss_kwh_per_year", "curtailed_kwh_per_year", "unmet_load_kwh_per_year", "conductor_mass_kg",
+        "lifetime_cost")]
+    lines = [f"pvsource design search: {len(ranked)} combinations, {int((~ranked['excluded']).sum())} feasible"]
+    head = "  ".join(f"{c:>14}" for c in choice_cols)
+    lines.append(f"\n{'rank':>4}  {head}  {'delivered/yr':>12} {'cable loss':>10} {'metal kg':>9} {'lifetime cost':>13}  front")
+    for _, r in ranked.iterrows():
+        values = "  ".join(f"{str(r[c]):>14}" for c in choice_cols)
+        if r["excluded"]:
+            lines.append(f"{'-':>4}  {values}  excluded: {r['reason']}")
+        else:
+            lines.append(f"{int(r['rank']):>4}  {values}  {r['energy_delivered_kwh_per_year']:>12.1f} "
+                         f"{r['wiring_loss_kwh_per_year']:>10.2f} {r['conductor_mass_kg']:>9.2f} "
+                         f"{r['lifetime_cost']:>13.2f}  {'*' if r['pareto'] else ''}")
+    lines.append("\n* on the front: no other combination is both cheaper over its life and delivers more.")
+    lines.append(f"Results written to {folder}")
+    lines.append(render_cautions(cautions.WIRING))
+    return "\n".join(lines)

@@ -47,3 +47,21 @@ def run_cli(capsys, *args):
         raise SystemExit(0)
     out = capsys.readouterr()
     return exc.value.code or 0, out.out, out.err
+
+
+def write_weather_csv(frame, path):
+    """A weather frame as a CSV with ISO timestamps carrying their offsets."""
+    table = frame.copy()
+    table.index = table.index.map(lambda ts: ts.isoformat())
+    table.index.name = "timestamp"
+    table.to_csv(path)
+    return path
+
+
+def demo_system_file(folder):
+    """The demo system file copied into ``folder``."""
+    from importlib import resources
+
+    path = folder / "system.toml"
+    path.write_text((resources.files("pvsource") / "data" / "demo" / "system.toml").read_text())
+    return path

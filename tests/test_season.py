@@ -9,7 +9,7 @@ from pvsource import bank as bank_model
 from pvsource.demo import demo_system, synthetic_weather
 from pvsource.season import ENERGY_KEYS, SOC_GRID, integrate_soc, run_season
 
-from conftest import run_cli
+from conftest import demo_system_file, run_cli, write_weather_csv
 
 
 @pytest.fixture(scope="module")
@@ -96,13 +96,8 @@ def test_demo_command_writes_every_output(capsys, tmp_path):
 def test_season_from_a_weather_csv_matches_the_demo(capsys, tmp_path, demo_run):
     system, weather, result = demo_run
     csv = tmp_path / "weather.csv"
-    table = weather.copy()
-    table.index = table.index.map(lambda ts: ts.isoformat())
-    table.index.name = "timestamp"
-    table.to_csv(csv)
-    system_file = tmp_path / "system.toml"
-    from importlib import resources
-    system_file.write_text((resources.files("pvsource") / "data" / "demo" / "system.toml").read_text())
+    write_weather_csv(weather, csv)
+    system_file = demo_system_file(tmp_path)
     code, text, err = run_cli(capsys, "season", str(system_file), str(csv), "--out", str(tmp_path / "out"), "--json")
     assert code == 0, err
     rec = json.loads(text)
@@ -158,13 +153,8 @@ def test_a_study_where_the_array_never_charges_says_so(tmp_path):
 def test_outputs_never_overwrite_an_input(capsys, tmp_path, demo_run):
     _, weather, _ = demo_run
     csv = tmp_path / "steps.csv"
-    table = weather.iloc[:48].copy()
-    table.index = table.index.map(lambda ts: ts.isoformat())
-    table.index.name = "timestamp"
-    table.to_csv(csv)
-    from importlib import resources
-    system_file = tmp_path / "system.toml"
-    system_file.write_text((resources.files("pvsource") / "data" / "demo" / "system.toml").read_text())
+    write_weather_csv(weather.iloc[:48], csv)
+    system_file = demo_system_file(tmp_path)
     before = csv.read_bytes()
     code, _, err = run_cli(capsys, "season", str(system_file), str(csv), "--out", str(tmp_path), "--force")
     assert code == 2 and "would overwrite the input" in err and csv.read_bytes() == before

@@ -1,0 +1,232 @@
+"""Design-space search: every combination of a few design choices over a weather year.
+
+Each combination is checked (:func:`pvsource.checks.design_checks` against the
+weather's own temperature extremes); combinations that fail a check are kept
+out and say why. The rest run the season study and are ranked by delivered
+energy, wiring loss and lifetime cost:
+
+    lifetime cost = conductor metal mass x price per kg
+                    + wiring loss per year x value of energy x service years,
+
+Kelvin's economic conductor size applied to the whole system. The Pareto front
+of lifetime cost against delivered energy shows the combinations no other
+beats on both.
+
+Results are written one file per combination as each finishes, so an
+interrupted search loses nothing finished, and ``resume`` skips what is done.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import itertools
+import json
+import os
+import tempfile
+from dataclasses import replace
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from pvsource import conductors
+from pvsource.checks import design_checks
+from pvsource.errors import InputError
+from pvsource.runs import resize_run
+from pvsource.season import run_season
+from pvsource.sweep import CLASS_CELLS
+from pvsource.system import System
+
+VARY_KEYS = ("modules_per_string", "strings", "size:RUN", "bank_voltage", "bank_capacity_ah", "controller",
+             "tilt_deg")
+MAX_COMBINATIONS = 5000
+
+
+def parse_vary(texts, system: System) -> dict:
+    """``["modules_per_string=2,3", "size:feeder=6 mm2,10 mm2"]`` -> {key: [values]} checked against the system."""
+    vary = {}
+    for text in texts or []:
+        key, sep, values = text.partition("=")
+        key = key.strip()
+        items = [v.strip() for v in values.split(",") if v.strip()]
+        if not sep or not items:
+            raise InputError("--vary", None, f"expected KEY=V1,V2,..., got {text!r}")
+        if key in vary:
+            raise InputError("--vary", None, f"{key!r} is given twice")
+        vary[key] = [_value(key, item, system) for item in items]
+    if not vary:
+        raise InputError("--vary", None, f"give at least one KEY=V1,V2,...; keys: {', '.join(VARY_KEYS)}")
+    count = int(np.prod([len(v) for v in vary.values()]))
+    if count > MAX_COMBINATIONS:
+        raise InputError("--vary", None, f"{count} combinations; at most {MAX_COMBINATIONS}")
+    return vary
+
+
+def _value(key: str, text: str, system: System):
+    def number(kind, lo, hi):
+        try:
+            value = kind(text)
+        except ValueError:
+            raise InputError("--vary", key, f"expected a number, got {text!r}") from None
+        if not lo <= value <= hi:
+            raise InputError("--vary", key, f"expected {lo:g} to {hi:g}, got {text}")
+        return value
+
+    if key in ("modules_per_string", "strings"):
+        return number(int, 1, 200)
+    if key == "tilt_deg":
+        return number(float, 0.0, 90.0)
+    if key == "bank_capacity_ah":
+        if system.bank is None:
+            raise InputError("--vary", key, "needs a system with a [bank]")
+        return number(float, 1.0, 1e6)
+    if key == "bank_voltage":
+        value = number(float, 1.0, 1000.0)
+        if system.bank is None or value not in CLASS_CELLS[system.bank.chemistry.key]:
+            raise InputError("--vary", key, f"expected a nominal class of the bank: 12, 24 or 48 V, got {text}")
+        return value
+    if key == "controller":
+        if text not in ("direct", "pwm", "mppt"):
+            raise InputError("--vary", key, f"expected direct, pwm or mppt, got {text!r}")
+        c = system.controller
+        if c is None or c.kind is None:
+            raise InputError("--vary", key, "needs a system with a [bank] and a [controller]")
+        if text == "mppt" and c.max_output_a is None and c.rated_power_w is None:
+            raise InputError("--vary", key, "a tracker needs max_output_a (or rated_power_w) in [controller]")
+        return text
+    if key.startswith("size:"):
+        name = key[5:]
+        if not any(r.name == name for r in system.cables):
+            raise InputError("--vary", key, f"no cable run named {name!r}")
+        return conductors.parse_size(text, where=f"--vary {key}")
+    raise InputError("--vary", key, f"unknown key; expected one of {', '.join(VARY_KEYS)}")
+
+
+def apply(system: System, combo: dict) -> System:
+    """The system with one combination of choices applied."""
+    for key, value in combo.items():
+        if key == "modules_per_string":
+            system = replace(system, groups=tuple(replace(g, modules_per_string=value) for g in system.groups))
+        elif key == "strings":
+            system = replace(system, groups=tuple(replace(g, strings=value) for g in system.groups))
+        elif key == "tilt_deg":
+            system = replace(system, groups=tuple(replace(g, tilt_deg=value) for g in system.groups))
+        elif key == "bank_capacity_ah":
+            system = replace(system, bank=replace(system.bank, capacity_ah=value))
+        elif key == "bank_voltage":
+            b = system.bank
+            cells = CLASS_CELLS[b.chemistry.key][value]
+            system = replace(system, bank=replace(b, cells_in_series=cells,
+                                                  capacity_ah=b.capacity_ah * b.cells_in_series / cells))
+        elif key == "controller":
+            system = replace(system, controller=replace(system.controller, kind=value))
+        elif key.startswith("size:"):
+            system = resize_run(system, key[5:], value)
+    return system
+
+
+def combination_id(combo: dict) -> str:
+    """A short stable name for a combination (file names, resume)."""
+    text = json.dumps({k: getattr(v, "label", v) for k, v in sorted(combo.items())}, sort_keys=True)
+    return hashlib.sha1(text.encode()).hexdigest()[:12]
+
+
+def conductor_mass_kg(system: System) -> float:
+    """Metal in every sized run, string leads counted once per string [kg]."""
+    strings = {g.name: g.strings for g in system.groups}
+    total = 0.0
+    for run in system.cables:
+        if run.size is None:
+            continue
+        copies = strings[run.group] if run.role == "string" else 1
+        total += copies * float(conductors.conductor_mass_kg(run.length_m, run.size.area_mm2, run.material,
+                                                             run.conductors_in_parallel))
+    return total
+
+
+def evaluate(system: System, weather: pd.DataFrame, combo: dict, prices: dict) -> dict:
+    """One combination: excluded with reasons, or its energy, losses and lifetime cost."""
+    row = {"id": combination_id(combo), **{k: getattr(v, "label", v) for k, v in combo.items()}}
+    variant = apply(system, combo)
+    t_min, t_max = float(weather["temp_air"].min()), float(weather["temp_air"].max())
+    failed = [f"{c.name}: {c.value:.1f} {c.unit} against {c.limit:.1f}" for c in design_checks(variant, t_min, t_max)
+              if c.passed is False]
+    if failed:
+        return {**row, "excluded": True, "reason": "; ".join(failed)}
+    try:
+        summary = run_season(variant, weather).summary
+    except InputError as exc:
+        return {**row, "excluded": True, "reason": exc.expected}
+    years = span_years(summary)
+    mass = conductor_mass_kg(variant)
+    loss_per_year = summary["wiring_loss_kwh"] / years
+    cost = mass * prices["price_per_kg"] + loss_per_year * prices["energy_value"] * prices["years"]
+    return {**row, "excluded": False, "reason": "",
+            "energy_delivered_kwh_per_year": summary["energy_delivered_kwh"] / years,
+            "energy_stored_kwh_per_year": summary["energy_stored_kwh"] / years,
+            "wiring_loss_kwh_per_year": loss_per_year,
+            "curtailed_kwh_per_year": summary["curtailed_kwh"] / years,
+            "unmet_load_kwh_per_year": summary["unmet_load_kwh"] / years,
+            "conductor_mass_kg": mass, "lifetime_cost": cost}
+
+
+def span_years(summary: dict) -> float:
+    return summary["steps"] * summary["step_h"] / 8760.0
+
+
+def pareto_front(frame: pd.DataFrame) -> np.ndarray:
+    """True for the rows no other row beats on both cost (lower) and delivered energy (higher)."""
+    cost = frame["lifetime_cost"].to_numpy()
+    energy = frame["energy_delivered_kwh_per_year"].to_numpy()
+    keep = np.ones(len(frame), bool)
+    for k in range(len(frame)):
+        better = (cost <= cost[k]) & (energy >= energy[k]) & ((cost < cost[k]) | (energy > energy[k]))
+        keep[k] = not better.any()
+    return keep
+
+
+def _write_part(folder: Path, row: dict) -> None:
+    part = folder / f"{row['id']}.json"
+    fd, tmp = tempfile.mkstemp(prefix=f".{part.name}.", dir=folder)
+    os.close(fd)
+    try:
+        Path(tmp).write_text(json.dumps(row, default=float))
+        os.replace(tmp, part)
+    finally:
+        if os.path.exists(tmp):
+            os.remove(tmp)
+
+
+def explore(system: System, weather: pd.DataFrame, vary: dict, out: Path, prices: dict,
+            resume: bool = False, progress=None) -> pd.DataFrame:
+    """Run every combination (skipping finished ones when resuming) and rank them.
+
+    Returns
+    -------
+    DataFrame
+        All combinations: the feasible ones ranked by lifetime cost, then
+        delivered energy, with ``pareto`` marking the front; the excluded
+        ones last with their reasons.
+    """
+    parts = Path(out) / "parts"
+    parts.mkdir(parents=True, exist_ok=True)
+    keys = list(vary)
+    combos = [dict(zip(keys, values)) for values in itertools.product(*(vary[k] for k in keys))]
+    done = {p.stem for p in parts.glob("*.json")} if resume else set()
+    for k, combo in enumerate(combos):
+        if combination_id(combo) not in done:
+            _write_part(parts, evaluate(system, weather, combo, prices))
+        if progress:
+            progress(k + 1, len(combos))
+    wanted = {combination_id(c) for c in combos}
+    rows = [json.loads(p.read_text()) for p in sorted(parts.glob("*.json")) if p.stem in wanted]
+    frame = pd.DataFrame(rows)
+    ok = frame[~frame["excluded"]].copy()
+    if len(ok):
+        ok["pareto"] = pareto_front(ok)
+        ok = ok.sort_values(["lifetime_cost", "energy_delivered_kwh_per_year"], ascending=[True, False])
+    bad = frame[frame["excluded"]].copy()
+    bad["pareto"] = False
+    ranked = pd.concat([ok, bad], ignore_index=True)
+    ranked.insert(0, "rank", np.where(ranked["excluded"], 0, np.arange(1, len(ranked) + 1)))
+    return ranked

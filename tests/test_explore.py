@@ -1,0 +1,76 @@
+"""Design-space search: combinations, exclusions, ranking, the cost-energy front, resume."""
+
+import json
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from pvsource import explore as ex
+from pvsource.demo import demo_system, synthetic_weather
+from pvsource.errors import InputError
+
+from conftest import demo_system_file, run_cli, write_weather_csv
+
+PRICES = {"price_per_kg": 12.0, "energy_value": 0.3, "years": 20.0}
+
+
+@pytest.fixture(scope="module")
+def short_year():
+    system = demo_system()
+    return system, synthetic_weather(system).iloc[: 24 * 6]
+
+
+def test_pareto_front_keeps_exactly_the_undominated():
+    frame = pd.DataFrame({"lifetime_cost": [1.0, 2.0, 3.0, 2.5, 1.5],
+                          "energy_delivered_kwh_per_year": [10.0, 20.0, 30.0, 15.0, 9.0]})
+    assert list(ex.pareto_front(frame)) == [True, True, True, False, False]
+
+
+def test_search_ranks_excludes_and_resumes(short_year, tmp_path, monkeypatch):
+    system, weather = short_year
+    vary = ex.parse_vary(["modules_per_string=1,3", "size:roof to controller=4 mm2,10 mm2"], system)
+    ranked = ex.explore(system, weather, vary, tmp_path, PRICES)
+    assert len(ranked) == 4
+    bad = ranked[ranked["excluded"]]
+    assert set(bad["modules_per_string"]) == {1} and bad["reason"].str.contains("min_string_vmp").all()
+    ok = ranked[~ranked["excluded"]]
+    assert list(ok["rank"]) == [1, 2] and ok["lifetime_cost"].is_monotonic_increasing
+    # Kelvin: the bigger conductor costs more metal and loses less energy.
+    small, big = ok.sort_values("conductor_mass_kg").to_dict("records")
+    assert big["wiring_loss_kwh_per_year"] < small["wiring_loss_kwh_per_year"]
+    expected = small["conductor_mass_kg"] * 12.0 + small["wiring_loss_kwh_per_year"] * 0.3 * 20.0
+    assert small["lifetime_cost"] == pytest.approx(expected)
+    # Resume: nothing is evaluated again, and the result is the same.
+    calls = []
+    monkeypatch.setattr(ex, "evaluate", lambda *a, **k: calls.append(a) or {})
+    again = ex.explore(system, weather, vary, tmp_path, PRICES, resume=True)
+    assert calls == [] and len(again) == 4 and not again["id"].duplicated().any()
+
+
+@pytest.mark.parametrize("texts, match", [
+    ([], "at least one"),
+    (["wind=1,2"], "unknown key"),
+    (["modules_per_string=two"], "number"),
+    (["size:nowhere=6 mm2"], "no cable run"),
+    (["bank_voltage=36"], "nominal class"),
+    (["modules_per_string=1", "modules_per_string=2"], "twice"),
+])
+def test_bad_choices(short_year, texts, match):
+    with pytest.raises(InputError, match=match):
+        ex.parse_vary(texts, short_year[0])
+
+
+def test_cli_explore_json(capsys, tmp_path, short_year):
+    system, weather = short_year
+    csv = tmp_path / "w.csv"
+    write_weather_csv(weather, csv)
+    system_file = demo_system_file(tmp_path)
+    out = tmp_path / "out"
+    code, text, err = run_cli(capsys, "explore", str(system_file), str(csv), "--vary", "tilt_deg=20,40",
+                              "--out", str(out), "--price-per-kg", "12", "--energy-value", "0.3", "--json")
+    assert code == 0, err
+    rows = json.loads(text)["rows"]
+    assert [r["rank"] for r in rows] == [1, 2] and all("lifetime_cost" in r for r in rows)
+    assert (out / "results.parquet").exists() and (out / "pareto.png").exists()
+    assert np.isfinite([r["energy_delivered_kwh_per_year"] for r in rows]).all()
