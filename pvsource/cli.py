@@ -382,6 +382,11 @@ def explore(
     years: Annotated[float, typer.Option("--years", help="Service life [years].")] = 20.0,
     tz: Annotated[Optional[str], typer.Option("--tz", help="Time zone of naive timestamps.")] = None,
     resume: Annotated[bool, typer.Option("--resume", help="Skip the combinations already in --out.")] = False,
+    engine: Annotated[str, typer.Option("--engine", help="local (this machine's cores) or dask.")] = "local",
+    workers: Annotated[Optional[int], typer.Option("--workers", help="Processes (local) or LocalCluster workers.")]
+    = None,
+    scheduler: Annotated[Optional[str], typer.Option(
+        "--scheduler", metavar="ADDRESS", help="A running dask scheduler, e.g. tcp://10.0.0.5:8786.")] = None,
     force: Annotated[bool, typer.Option("--force", help="Write into a folder that already holds files.")] = False,
     as_json: Annotated[bool, typer.Option("--json", help="Print the ranked rows as JSON.")] = False,
 ):
@@ -395,12 +400,17 @@ def explore(
     from pvsource.explore import parse_vary
     from pvsource.weather import read_weather
 
+    if workers is not None and not 1 <= workers <= 1024:
+        raise InputError("--workers", None, f"expected 1 to 1024, got {workers}")
+    if scheduler is not None and engine != "dask":
+        raise InputError("--scheduler", None, "goes with --engine dask")
     choices = parse_vary(vary, system)
     weather = read_weather(weather_file, tz=tz)
     folder = prepare_folder(out, force or resume, (system_file, weather_file))
     ranked = run_explore(system, weather, choices, folder,
                          {"price_per_kg": price_per_kg, "energy_value": energy_value, "years": years},
-                         resume=resume, progress=_progress("explore"))
+                         resume=resume, progress=_progress("explore"), engine=engine, workers=workers,
+                         scheduler=scheduler)
     table = ranked.copy()
     _atomic_frame(folder / "results.parquet", table)
     if (~ranked["excluded"]).any():

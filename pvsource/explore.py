@@ -197,9 +197,65 @@ def _write_part(folder: Path, row: dict) -> None:
             os.remove(tmp)
 
 
+ENGINES = ("local", "dask")
+
+
+def _run_local(system, weather, todo, prices, parts: Path, workers: int | None, report) -> None:
+    """In this process, or a pool of processes when there is more than one task and one core."""
+    workers = workers or os.cpu_count() or 1
+    if workers <= 1 or len(todo) <= 1:
+        for combo in todo:
+            _write_part(parts, evaluate(system, weather, combo, prices))
+            report()
+        return
+    from concurrent.futures import ProcessPoolExecutor, as_completed
+
+    with ProcessPoolExecutor(max_workers=min(workers, len(todo))) as pool:
+        futures = [pool.submit(evaluate, system, weather, combo, prices) for combo in todo]
+        for future in as_completed(futures):
+            _write_part(parts, future.result())
+            report()
+
+
+def _run_dask(system, weather, todo, prices, parts: Path, workers: int | None, scheduler: str | None, report) -> None:
+    """On dask.distributed: an existing scheduler, or a LocalCluster started (and stopped) here."""
+    try:
+        from distributed import Client, LocalCluster, as_completed
+    except ImportError:
+        raise InputError("--engine", None, "dask needs the dask[distributed] package: pip install 'pvsource[dask]'") from None
+    cluster = None
+    if scheduler is None:
+        cluster = LocalCluster(n_workers=workers or 2, threads_per_worker=1, processes=True, dashboard_address=None)
+        client = Client(cluster)
+    else:
+        try:
+            client = Client(scheduler, timeout="10s")
+        except (OSError, TimeoutError) as exc:
+            raise InputError("--scheduler", None, f"cannot reach {scheduler!r} ({exc})") from None
+    try:
+        shared_system, shared_weather = client.scatter([system, weather], broadcast=True)
+        futures = [client.submit(evaluate, shared_system, shared_weather, combo, prices, pure=False) for combo in todo]
+        # Each result is written as it arrives: a lost worker loses only what it had not finished.
+        for future in as_completed(futures):
+            _write_part(parts, future.result())
+            report()
+    finally:
+        client.close()
+        if cluster is not None:
+            cluster.close()
+
+
 def explore(system: System, weather: pd.DataFrame, vary: dict, out: Path, prices: dict,
-            resume: bool = False, progress=None) -> pd.DataFrame:
+            resume: bool = False, progress=None, engine: str = "local", workers: int | None = None,
+            scheduler: str | None = None) -> pd.DataFrame:
     """Run every combination (skipping finished ones when resuming) and rank them.
+
+    Parameters
+    ----------
+    engine : {"local", "dask"}
+        ``local``: in this process, or a process pool over ``workers`` cores
+        (default: all). ``dask``: dask.distributed, on the ``scheduler``
+        address given, or a LocalCluster of ``workers`` processes.
 
     Returns
     -------
@@ -208,25 +264,34 @@ def explore(system: System, weather: pd.DataFrame, vary: dict, out: Path, prices
         delivered energy, with ``pareto`` marking the front; the excluded
         ones last with their reasons.
     """
+    if engine not in ENGINES:
+        raise InputError("--engine", None, f"expected one of {', '.join(ENGINES)}, got {engine!r}")
     parts = Path(out) / "parts"
     parts.mkdir(parents=True, exist_ok=True)
     keys = list(vary)
     combos = [dict(zip(keys, values)) for values in itertools.product(*(vary[k] for k in keys))]
     done = {p.stem for p in parts.glob("*.json")} if resume else set()
-    for k, combo in enumerate(combos):
-        if combination_id(combo) not in done:
-            _write_part(parts, evaluate(system, weather, combo, prices))
+    todo = [c for c in combos if combination_id(c) not in done]
+    finished = [len(combos) - len(todo)]
+
+    def report():
+        finished[0] += 1
         if progress:
-            progress(k + 1, len(combos))
+            progress(finished[0], len(combos))
+
+    if engine == "dask":
+        _run_dask(system, weather, todo, prices, parts, workers, scheduler, report)
+    else:
+        _run_local(system, weather, todo, prices, parts, workers, report)
     wanted = {combination_id(c) for c in combos}
     rows = [json.loads(p.read_text()) for p in sorted(parts.glob("*.json")) if p.stem in wanted]
     frame = pd.DataFrame(rows)
     ok = frame[~frame["excluded"]].copy()
     if len(ok):
         ok["pareto"] = pareto_front(ok)
-        ok = ok.sort_values(["lifetime_cost", "energy_delivered_kwh_per_year"], ascending=[True, False])
+        ok = ok.sort_values(["lifetime_cost", "energy_delivered_kwh_per_year", "id"], ascending=[True, False, True])
     bad = frame[frame["excluded"]].copy()
     bad["pareto"] = False
-    ranked = pd.concat([ok, bad], ignore_index=True)
+    ranked = pd.concat([ok, bad.sort_values("id")], ignore_index=True)
     ranked.insert(0, "rank", np.where(ranked["excluded"], 0, np.arange(1, len(ranked) + 1)))
     return ranked

@@ -74,3 +74,38 @@ def test_cli_explore_json(capsys, tmp_path, short_year):
     assert [r["rank"] for r in rows] == [1, 2] and all("lifetime_cost" in r for r in rows)
     assert (out / "results.parquet").exists() and (out / "pareto.png").exists()
     assert np.isfinite([r["energy_delivered_kwh_per_year"] for r in rows]).all()
+
+
+def test_a_process_pool_and_a_dask_cluster_give_exactly_the_local_result(short_year, tmp_path):
+    # Same tasks, same numbers, whichever engine runs them.
+    system, weather = short_year
+    vary = ex.parse_vary(["tilt_deg=15,30,45"], system)
+    base = ex.explore(system, weather, vary, tmp_path / "one", PRICES, workers=1)
+    pool = ex.explore(system, weather, vary, tmp_path / "pool", PRICES, workers=2)
+    dask = ex.explore(system, weather, vary, tmp_path / "dask", PRICES, engine="dask", workers=2)
+    pd.testing.assert_frame_equal(base, pool)
+    pd.testing.assert_frame_equal(base, dask)
+
+
+def test_a_run_that_dies_midway_resumes_to_a_complete_result_without_duplicates(short_year, tmp_path, monkeypatch):
+    system, weather = short_year
+    vary = ex.parse_vary(["tilt_deg=10,20,30,40"], system)
+    real = ex.evaluate
+    calls = []
+
+    def dies_on_the_third(*args, **kwargs):
+        calls.append(1)
+        if len(calls) == 3:
+            raise KeyboardInterrupt  # the run is killed here
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(ex, "evaluate", dies_on_the_third)
+    with pytest.raises(KeyboardInterrupt):
+        ex.explore(system, weather, vary, tmp_path, PRICES, workers=1)
+    assert len(list((tmp_path / "parts").glob("*.json"))) == 2  # what finished is kept
+    assert not list((tmp_path / "parts").glob(".*"))  # and nothing half-written
+    monkeypatch.setattr(ex, "evaluate", real)
+    resumed = ex.explore(system, weather, vary, tmp_path, PRICES, resume=True, workers=1)
+    fresh = ex.explore(system, weather, vary, tmp_path / "fresh", PRICES, workers=1)
+    assert len(resumed) == 4 and not resumed["id"].duplicated().any()
+    pd.testing.assert_frame_equal(resumed, fresh)
