@@ -423,6 +423,40 @@ def explore(
         typer.echo(render_explore(ranked, folder))
 
 
+@app.command()
+def fleet(
+    source: Annotated[Path, typer.Argument(
+        metavar="FOLDER|MANIFEST.csv", help="A folder of NAME.toml + NAME.csv pairs, or a manifest CSV (name,system,weather).")],
+    out: Annotated[Path, typer.Option("--out", metavar="DIR", help="Folder for the fleet table.")],
+    tz: Annotated[Optional[str], typer.Option("--tz", help="Time zone of naive timestamps.")] = None,
+    force: Annotated[bool, typer.Option("--force", help="Write into a folder that already holds files.")] = False,
+    as_json: Annotated[bool, typer.Option("--json", help="Print the table as JSON rows.")] = False,
+):
+    """The season study over many systems and weather files, with one summary table across them."""
+    from pvsource.explore import fleet_table, read_fleet
+    from pvsource.weather import read_weather
+
+    members = read_fleet(source)
+    folder = prepare_folder(out, force, [p for _, s_, w in members for p in (s_, w)])
+    report = _progress("fleet")
+    results = []
+    for k, (name, system_file, weather_file) in enumerate(members):
+        system = load_system(system_file)
+        result = run_season(system, read_weather(weather_file, tz=tz))
+        results.append((name, result.summary))
+        if report:
+            report(k + 1, len(members))
+    table = fleet_table(results)
+    _atomic_frame(folder / "fleet.parquet", table)
+    from pvsource.report import write_text
+    write_text(folder / "fleet.csv", table.to_csv(index=False))
+    if as_json:
+        _emit_json({"rows": json_ready(table.to_dict(orient="records")), "out": str(folder)})
+    else:
+        typer.echo(table.to_string(index=False, float_format=lambda v: f"{v:,.1f}"))
+        typer.echo(f"\nFleet table written to {folder}")
+
+
 def _atomic_frame(path: Path, frame) -> None:
     from pvsource.report import _atomic
 

@@ -295,3 +295,50 @@ def explore(system: System, weather: pd.DataFrame, vary: dict, out: Path, prices
     ranked = pd.concat([ok, bad.sort_values("id")], ignore_index=True)
     ranked.insert(0, "rank", np.where(ranked["excluded"], 0, np.arange(1, len(ranked) + 1)))
     return ranked
+
+
+def read_fleet(source) -> list[tuple[str, Path, Path]]:
+    """The systems of a fleet: a folder of ``NAME.toml`` with ``NAME.csv`` (or ``.epw``) beside each,
+    or a manifest CSV with columns ``name,system,weather`` (paths relative to the manifest).
+
+    Returns
+    -------
+    list of (name, system file, weather file)
+    """
+    source = Path(source)
+    if source.is_dir():
+        pairs = []
+        for system_file in sorted(source.glob("*.toml")):
+            weather = next((system_file.with_suffix(ext) for ext in (".csv", ".epw", ".CSV", ".EPW")
+                            if system_file.with_suffix(ext).exists()), None)
+            if weather is None:
+                raise InputError(str(system_file), None, "has no weather file beside it (same name, .csv or .epw)")
+            pairs.append((system_file.stem, system_file, weather))
+        if not pairs:
+            raise InputError(str(source), None, "holds no system files (*.toml)")
+        return pairs
+    try:
+        manifest = pd.read_csv(source, dtype=str, keep_default_na=False)
+    except (OSError, ValueError, UnicodeDecodeError) as exc:
+        raise InputError(str(source), None, f"cannot be read as a manifest CSV ({exc})") from None
+    missing = [c for c in ("name", "system", "weather") if c not in manifest.columns]
+    if missing:
+        raise InputError(str(source), f"column {missing[0]!r}", "is missing (expected name,system,weather)")
+    if manifest["name"].duplicated().any():
+        raise InputError(str(source), "column 'name'", f"repeats {manifest['name'][manifest['name'].duplicated()].iloc[0]!r}")
+    rows = []
+    for k, r in manifest.iterrows():
+        system_file, weather = source.parent / r["system"], source.parent / r["weather"]
+        for path in (system_file, weather):
+            if not path.exists():
+                raise InputError(str(source), f"row {k + 2}", f"{str(path)!r} does not exist")
+        rows.append((r["name"], system_file, weather))
+    return rows
+
+
+def fleet_table(results: list[tuple[str, dict]]) -> pd.DataFrame:
+    """One row per system: the annual summary's energies and the bank's extremes."""
+    keys = ("poa_insolation_kwh_m2", "energy_mpp_kwh", "energy_generated_kwh", "energy_delivered_kwh",
+            "energy_stored_kwh", "wiring_loss_kwh", "controller_loss_kwh", "curtailed_kwh", "unmet_load_kwh",
+            "min_soc", "days_reaching_full")
+    return pd.DataFrame([{"name": name, **{k: summary.get(k) for k in keys}} for name, summary in results])

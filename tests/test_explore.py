@@ -109,3 +109,22 @@ def test_a_run_that_dies_midway_resumes_to_a_complete_result_without_duplicates(
     fresh = ex.explore(system, weather, vary, tmp_path / "fresh", PRICES, workers=1)
     assert len(resumed) == 4 and not resumed["id"].duplicated().any()
     pd.testing.assert_frame_equal(resumed, fresh)
+
+
+def test_fleet_runs_every_member_and_tabulates_them(capsys, tmp_path, short_year):
+    system, weather = short_year
+    members = tmp_path / "fleet"
+    members.mkdir()
+    for name in ("north-barn", "south-barn"):
+        demo_system_file(members).rename(members / f"{name}.toml")
+        write_weather_csv(weather, members / f"{name}.csv")
+    code, text, err = run_cli(capsys, "fleet", str(members), "--out", str(tmp_path / "out"), "--json")
+    assert code == 0, err
+    rows = json.loads(text)["rows"]
+    assert [r["name"] for r in rows] == ["north-barn", "south-barn"]
+    assert rows[0]["energy_stored_kwh"] == pytest.approx(rows[1]["energy_stored_kwh"])
+    manifest = tmp_path / "manifest.csv"
+    manifest.write_text("name,system,weather\na,fleet/north-barn.toml,fleet/north-barn.csv\n"
+                        "b,fleet/south-barn.toml,fleet/missing.csv\n")
+    code, _, err = run_cli(capsys, "fleet", str(manifest), "--out", str(tmp_path / "out2"))
+    assert code == 2 and "row 3" in err and "missing.csv" in err
