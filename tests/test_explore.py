@@ -128,3 +128,44 @@ def test_fleet_runs_every_member_and_tabulates_them(capsys, tmp_path, short_year
                         "b,fleet/south-barn.toml,fleet/missing.csv\n")
     code, _, err = run_cli(capsys, "fleet", str(manifest), "--out", str(tmp_path / "out2"))
     assert code == 2 and "row 3" in err and "missing.csv" in err
+
+
+def test_killing_a_dask_worker_midway_loses_nothing(short_year, tmp_path):
+    # A worker dies while the search runs; the cluster reruns its tasks, the
+    # finished results stay written, and a resume adds nothing twice.
+    import os
+    import threading
+    import time
+
+    from distributed import Client, LocalCluster
+
+    system, weather = short_year
+    vary = ex.parse_vary(["tilt_deg=5,10,15,20,25,30,35,40"], system)
+    local = ex.explore(system, weather, vary, tmp_path / "local", PRICES, workers=1)
+    cluster = LocalCluster(n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None)
+    client = Client(cluster)
+    killed = []
+
+    def kill_one_worker_after_the_first_result():
+        deadline = time.monotonic() + 60
+        while time.monotonic() < deadline and not list((tmp_path / "dask" / "parts").glob("*.json")):
+            time.sleep(0.02)
+        victim = sorted(client.scheduler_info()["workers"])[0]
+        killed.append(victim)
+        client.run(os._exit, 1, workers=[victim], wait=False)
+
+    watcher = threading.Thread(target=kill_one_worker_after_the_first_result)
+    watcher.start()
+    try:
+        ranked = ex.explore(system, weather, vary, tmp_path / "dask", PRICES, engine="dask",
+                            scheduler=cluster.scheduler_address)
+        watcher.join()
+        resumed = ex.explore(system, weather, vary, tmp_path / "dask", PRICES, engine="dask",
+                             scheduler=cluster.scheduler_address, resume=True)
+    finally:
+        client.close()
+        cluster.close()
+    assert killed
+    assert len(ranked) == 8 and not ranked["id"].duplicated().any()
+    pd.testing.assert_frame_equal(ranked, local)
+    pd.testing.assert_frame_equal(resumed, local)
