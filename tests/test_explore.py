@@ -134,6 +134,7 @@ def test_killing_a_dask_worker_midway_loses_nothing(short_year, tmp_path):
     # A worker dies while the search runs; the cluster reruns its tasks, the
     # finished results stay written, and a resume adds nothing twice.
     import os
+    import signal
     import threading
     import time
 
@@ -151,8 +152,9 @@ def test_killing_a_dask_worker_midway_loses_nothing(short_year, tmp_path):
         while time.monotonic() < deadline and not list((tmp_path / "dask" / "parts").glob("*.json")):
             time.sleep(0.02)
         victim = sorted(client.scheduler_info()["workers"])[0]
-        killed.append(victim)
-        client.run(os._exit, 1, workers=[victim], wait=False)
+        pid = client.run(os.getpid, workers=[victim])[victim]
+        os.kill(pid, signal.SIGKILL)
+        killed.append(pid)
 
     watcher = threading.Thread(target=kill_one_worker_after_the_first_result)
     watcher.start()
