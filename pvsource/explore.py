@@ -186,11 +186,12 @@ def pareto_front(frame: pd.DataFrame) -> np.ndarray:
 
 
 def _write_part(folder: Path, row: dict) -> None:
-    part = folder / f"{row['id']}.json"
+    """One finished combination as its own Parquet file, written under a temporary name then renamed."""
+    part = folder / f"{row['id']}.parquet"
     fd, tmp = tempfile.mkstemp(prefix=f".{part.name}.", dir=folder)
     os.close(fd)
     try:
-        Path(tmp).write_text(json.dumps(row, default=float))
+        pd.DataFrame([row]).to_parquet(tmp)
         os.replace(tmp, part)
     finally:
         if os.path.exists(tmp):
@@ -270,7 +271,7 @@ def explore(system: System, weather: pd.DataFrame, vary: dict, out: Path, prices
     parts.mkdir(parents=True, exist_ok=True)
     keys = list(vary)
     combos = [dict(zip(keys, values)) for values in itertools.product(*(vary[k] for k in keys))]
-    done = {p.stem for p in parts.glob("*.json")} if resume else set()
+    done = {p.stem for p in parts.glob("*.parquet")} if resume else set()
     todo = [c for c in combos if combination_id(c) not in done]
     finished = [len(combos) - len(todo)]
 
@@ -284,8 +285,8 @@ def explore(system: System, weather: pd.DataFrame, vary: dict, out: Path, prices
     else:
         _run_local(system, weather, todo, prices, parts, workers, report)
     wanted = {combination_id(c) for c in combos}
-    rows = [json.loads(p.read_text()) for p in sorted(parts.glob("*.json")) if p.stem in wanted]
-    frame = pd.DataFrame(rows)
+    frame = pd.concat([pd.read_parquet(p) for p in sorted(parts.glob("*.parquet")) if p.stem in wanted],
+                      ignore_index=True)
     ok = frame[~frame["excluded"]].copy()
     if len(ok):
         ok["pareto"] = pareto_front(ok)

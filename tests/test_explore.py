@@ -102,7 +102,7 @@ def test_a_run_that_dies_midway_resumes_to_a_complete_result_without_duplicates(
     monkeypatch.setattr(ex, "evaluate", dies_on_the_third)
     with pytest.raises(KeyboardInterrupt):
         ex.explore(system, weather, vary, tmp_path, PRICES, workers=1)
-    assert len(list((tmp_path / "parts").glob("*.json"))) == 2  # what finished is kept
+    assert len(list((tmp_path / "parts").glob("*.parquet"))) == 2  # what finished is kept
     assert not list((tmp_path / "parts").glob(".*"))  # and nothing half-written
     monkeypatch.setattr(ex, "evaluate", real)
     resumed = ex.explore(system, weather, vary, tmp_path, PRICES, resume=True, workers=1)
@@ -149,7 +149,7 @@ def test_killing_a_dask_worker_midway_loses_nothing(short_year, tmp_path):
 
     def kill_one_worker_after_the_first_result():
         deadline = time.monotonic() + 60
-        while time.monotonic() < deadline and not list((tmp_path / "dask" / "parts").glob("*.json")):
+        while time.monotonic() < deadline and not list((tmp_path / "dask" / "parts").glob("*.parquet")):
             time.sleep(0.02)
         victim = sorted(client.scheduler_info()["workers"])[0]
         pid = client.run(os.getpid, workers=[victim])[victim]
