@@ -10,7 +10,6 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-import numpy as np
 
 
 @dataclass(frozen=True)
@@ -45,26 +44,3 @@ class StringGroup:
     tilt_deg: float = 0.0
     azimuth_deg: float = 180.0
     mounting: str = "open_rack"
-
-    @property
-    def module_count(self) -> int:
-        return self.modules_per_string * self.strings
-
-
-def string_voltage_v(module_v, modules_per_string):
-    """Voltage of a string of identical modules carrying the same current [V]."""
-    return np.asarray(module_v) * modules_per_string
-
-
-def group_current_a(module_i, strings):
-    """Current of identical strings in parallel at the same voltage [A]."""
-    return np.asarray(module_i) * strings
-
-
-def group_resistance_ohm(module_r_ohm, modules_per_string, strings):
-    """A resistance per module seen at the group's terminals [ohm].
-
-    Series modules add, parallel strings divide: R n_s / n_p. Applies to the
-    series resistance and to the dynamic (incremental) resistance alike.
-    """
-    return np.asarray(module_r_ohm) * modules_per_string / strings

@@ -352,3 +352,17 @@ def acceptance_current_a(bank: Bank, soc=None, temp_c=None):
     start = bank.chemistry.absorption_start_soc
     share = np.clip((1.0 - soc) / (1.0 - start), 0.0, 1.0)
     return _out(share * max_charge_current_a(bank, temp_c))
+
+
+#: Cells in series of the nominal 12, 24 and 48 V classes (common practice:
+#: LFP 12.8/25.6/51.2 V, lead-acid 6/12/24 cells, NMC 3S/7S/13S packs).
+NOMINAL_CLASS_CELLS = {"lfp": {12.0: 4, 24.0: 8, 48.0: 16}, "lead-acid-flooded": {12.0: 6, 24.0: 12, 48.0: 24},
+                       "lead-acid-sealed": {12.0: 6, 24.0: 12, 48.0: 24}, "nmc": {12.0: 3, 24.0: 7, 48.0: 13}}
+
+
+def with_nominal_class(bank: Bank, volts: float) -> Bank:
+    """The same bank rebuilt for a nominal voltage class, storing the same energy."""
+    from dataclasses import replace
+
+    cells = NOMINAL_CLASS_CELLS[bank.chemistry.key][float(volts)]
+    return replace(bank, cells_in_series=cells, capacity_ah=bank.capacity_ah * bank.cells_in_series / cells)

@@ -113,13 +113,6 @@ def module_voc_at(system: System, cell_temp_c: float) -> tuple[float, str]:
     return voc, f"Voc from the single-diode model at 1000 W/m2 and {cell_temp_c:g} degC"
 
 
-def module_vmp_at(system: System, cell_temp_c: float) -> float:
-    """Module Vmp at 1000 W/m2 and the given cell temperature, from the single-diode model [V]."""
-    state = parameters_at(system.module.parameters, STC_IRRADIANCE_W_M2, cell_temp_c)
-    return float(np.squeeze(pvsystem.singlediode(state.i_l_a, state.i_o_a, state.r_s_ohm, state.r_sh_ohm,
-                                                 state.a_v)["v_mp"]))
-
-
 def module_isc_stc(system: System) -> float:
     """Module Isc at STC [A]: the datasheet's, or the model's."""
     ds = system.module.datasheet

@@ -33,7 +33,7 @@ from pvsource.errors import ConvergenceError, InputError, PhysicsGuardError
 from pvsource.operating import CELL_TEMP_RANGE_C, IRRADIANCE_RANGE_W_M2, operating_points, point_record
 from pvsource.demo import demo_system, synthetic_weather
 from pvsource.plots import sweep_figure
-from pvsource.report import prepare_folder, write_report
+from pvsource.report import json_ready, prepare_folder, write_report
 from pvsource.season import run_season
 from pvsource.runs import quick_record, wire_record
 from pvsource.sweep import run_sweep
@@ -65,17 +65,6 @@ def _root(
                                           help="Print the version and exit.")] = False,
 ):
     """pvsource command line."""
-
-
-def json_ready(obj):
-    """Replace NaN and infinities with None, recursively, so the output is strict JSON."""
-    if isinstance(obj, dict):
-        return {k: json_ready(v) for k, v in obj.items()}
-    if isinstance(obj, (list, tuple)):
-        return [json_ready(v) for v in obj]
-    if isinstance(obj, float) and not math.isfinite(obj):
-        return None
-    return obj
 
 
 def _emit_json(obj) -> None:

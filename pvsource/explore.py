@@ -29,12 +29,12 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from pvsource import bank as bank_model
 from pvsource import conductors
 from pvsource.checks import design_checks
 from pvsource.errors import InputError
 from pvsource.runs import resize_run
 from pvsource.season import run_season
-from pvsource.sweep import CLASS_CELLS
 from pvsource.system import System
 
 VARY_KEYS = ("modules_per_string", "strings", "size:RUN", "bank_voltage", "bank_capacity_ah", "controller",
@@ -82,7 +82,7 @@ def _value(key: str, text: str, system: System):
         return number(float, 1.0, 1e6)
     if key == "bank_voltage":
         value = number(float, 1.0, 1000.0)
-        if system.bank is None or value not in CLASS_CELLS[system.bank.chemistry.key]:
+        if system.bank is None or value not in bank_model.NOMINAL_CLASS_CELLS[system.bank.chemistry.key]:
             raise InputError("--vary", key, f"expected a nominal class of the bank: 12, 24 or 48 V, got {text}")
         return value
     if key == "controller":
@@ -114,10 +114,7 @@ def apply(system: System, combo: dict) -> System:
         elif key == "bank_capacity_ah":
             system = replace(system, bank=replace(system.bank, capacity_ah=value))
         elif key == "bank_voltage":
-            b = system.bank
-            cells = CLASS_CELLS[b.chemistry.key][value]
-            system = replace(system, bank=replace(b, cells_in_series=cells,
-                                                  capacity_ah=b.capacity_ah * b.cells_in_series / cells))
+            system = replace(system, bank=bank_model.with_nominal_class(system.bank, value))
         elif key == "controller":
             system = replace(system, controller=replace(system.controller, kind=value))
         elif key.startswith("size:"):

@@ -128,7 +128,7 @@ def _load_branch(system: System):
     return th[0], th[1] + system.wiring.r_load_side_ohm
 
 
-def _bank_point(system: System, soc, temp_c, cap_a=None) -> BankPoint:
+def bank_point(system: System, soc, temp_c, cap_a=None) -> BankPoint:
     """The bank's Thevenin equivalent, stage target and charge limit at each condition."""
     b = system.bank
     emf, r = bank_model.thevenin(b, soc, temp_c)
@@ -184,7 +184,7 @@ def _solve_chunk(system: System, g_w_m2, t_c, soc=None, bank_temp_c=None, drift_
     branch = _load_branch(system)
     charge = None
     if system.bank is not None:
-        bank_pt = _bank_point(system, soc, bank_temp_c, charge_cap_a)
+        bank_pt = bank_point(system, soc, bank_temp_c, charge_cap_a)
         charge = solve_charging(net, system.controller, bank_pt, wiring.r_feeder_ohm, wiring.r_bank_ohm)
         x_sol, v, duty = charge["x_v"], charge["bus_v"], charge["scale"]
         converged &= charge["converged"]

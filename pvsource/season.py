@@ -195,7 +195,7 @@ def charge_grid_a(system: System, g, t, done=lambda k: None, chunk_size: int = C
     from pvsource.charging import array_side, unlimited_current_a
     from pvsource.module import parameters_at
     from pvsource.network import Network
-    from pvsource.operating import _bank_point
+    from pvsource.operating import bank_point
 
     n = len(g)
     grid = soc_grid(system)
@@ -212,7 +212,7 @@ def charge_grid_a(system: System, g, t, done=lambda k: None, chunk_size: int = C
         net = Network(state, system.n_series, system.n_parallel, wiring.r_string_ohm, wiring.r_home_ohm)
         side = array_side(net, wiring.r_feeder_ohm) if system.controller.kind == "mppt" else None
         for k, soc in enumerate(grid):
-            bank_pt = _bank_point(system, np.full(rows.size, float(soc)), None)
+            bank_pt = bank_point(system, np.full(rows.size, float(soc)), None)
             charge[k, rows] = unlimited_current_a(net, system.controller, bank_pt, wiring.r_feeder_ohm,
                                                   wiring.r_bank_ohm, side)
     for k in range(k_grid):

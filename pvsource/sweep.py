@@ -42,16 +42,8 @@ VARIABLES = ("load-resistance", "bank-voltage", "bank-class", "soc", "modules", 
              "cell-temp")
 MAX_STEPS = 2000
 NOMINAL_CLASSES_V = (12.0, 24.0, 48.0)
-# Cells in series of the nominal 12, 24 and 48 V classes (common practice:
-# LFP 12.8/25.6/51.2 V, lead-acid 6/12/24 cells, NMC 3S/7S/13S packs).
-CLASS_CELLS = {"lfp": {12.0: 4, 24.0: 8, 48.0: 16}, "lead-acid-flooded": {12.0: 6, 24.0: 12, 48.0: 24},
-               "lead-acid-sealed": {12.0: 6, 24.0: 12, 48.0: 24}, "nmc": {12.0: 3, 24.0: 7, 48.0: 13}}
 ROW_KEYS = ("value", "delivered_w", "efficiency", "matching_ratio", "charge_current_a", "v", "i", "p",
             "generated_w", "linear_p_w", "linear_efficiency")
-
-
-def _grid(start: float, stop: float, steps: int) -> np.ndarray:
-    return np.linspace(start, stop, steps)
 
 
 def _number(text: str, option: str) -> float:
@@ -110,7 +102,7 @@ def sweep_values(system: System, variable: str, start: str, stop: str, steps: in
     if variable == "load-resistance":
         # Resistances matter by ratio: step them geometrically.
         return list(np.geomspace(a, b, steps)), unit
-    return list(_grid(a, b, steps)), unit
+    return list(np.linspace(a, b, steps)), unit
 
 
 def _bank_resistance(system: System) -> float:
@@ -129,10 +121,7 @@ def _variant(system: System, variable: str, value) -> System:
         return replace(system, load=Load("battery", emf_v=float(value), resistance_ohm=_bank_resistance(system)),
                        bank=None)
     if variable == "bank-class":
-        b = system.bank
-        cells = CLASS_CELLS[b.chemistry.key][float(value)]
-        energy = b.capacity_ah * b.cells_in_series
-        return replace(system, bank=replace(b, cells_in_series=cells, capacity_ah=energy / cells))
+        return replace(system, bank=bank_model.with_nominal_class(system.bank, value))
     if variable == "modules":
         return replace(system, groups=tuple(replace(g, modules_per_string=int(value)) for g in system.groups))
     if variable.startswith("size:"):
