@@ -33,7 +33,7 @@ class StringGroup:
     azimuth_deg : float
         Direction the modules face, degrees east of north (180 = south) [deg].
     mounting : str
-        Mounting preset for the cell-temperature model (see :mod:`pvsource.weather`).
+        Mounting preset for the cell-temperature model (see :mod:`pvsource.sky`).
     """
 
     name: str

@@ -3,7 +3,7 @@
 Pipeline, every step an explicit call on arrays:
 
 1. each group's plane-of-array irradiance and cell temperature from the
-   weather (:func:`pvsource.weather.poa_conditions`);
+   weather (:func:`pvsource.sky.poa_conditions`);
 2. with a bank, the charge current at every step for a grid of states of
    charge (vectorised over the steps, one solve per grid value);
 3. the state of charge, integrated step by step with the load: the one loop
@@ -67,7 +67,7 @@ class SeasonResult:
 
 def group_conditions(system: System, weather: pd.DataFrame, transposition: str = "perez"):
     """Effective irradiance and cell temperature of every group, (N, G) each, and the first group's POA."""
-    from pvsource.weather import poa_conditions
+    from pvsource.sky import poa_conditions
 
     if system.site is None:
         raise InputError(system.source, "[site]", "is missing: a season study needs latitude and longitude")

@@ -1,10 +1,7 @@
-"""Weather files and plane-of-array conditions.
+"""Weather files: readers, units, time and bad rows.
 
-References used below: pvlib's own readers and irradiance functions
-(reference library), the TMY3 file shipped with pvlib (open dataset),
-the horizontal-plane identity POA = GHI (law), and the daily extraterrestrial
-irradiation on a horizontal surface, Duffie & Beckman, Solar Engineering of
-Thermal Processes, 4th ed. (2013), eq. 1.10.3 (handbook).
+References used below: pvlib's own readers (reference library) and the TMY3
+file shipped with pvlib (open dataset).
 """
 
 from pathlib import Path
@@ -13,13 +10,10 @@ import numpy as np
 import pandas as pd
 import pvlib
 import pytest
-from hypothesis import given, settings
-from hypothesis import strategies as st
-from pvlib import atmosphere, clearsky, irradiance, solarposition, temperature
 
 from pvsource.errors import InputError
-from pvsource.weather import (MOUNTING_PRESETS, TRANSPOSITION_MODELS, poa_conditions, read_weather,
-                              read_weather_csv)
+from pvsource.weather import read_weather, read_weather_csv
+
 
 TMY3 = Path(pvlib.__file__).parent / "data" / "723170TYA.CSV"
 
@@ -81,106 +75,6 @@ def test_epw_dispatch(tmp_path):
     np.testing.assert_allclose(w["ghi"].to_numpy(), ref["ghi"].to_numpy())
     np.testing.assert_allclose(w["temp_air"].to_numpy(), ref["temp_air"].to_numpy())
     assert w.attrs["site"]["altitude_m"] == 100.0
-
-
-# --- plane of array against pvlib ----------------------------------------------------
-
-def reference_poa(w, site, tilt, azimuth, model, albedo=0.2, decompose=False):
-    """The same chain called directly in pvlib (reference library)."""
-    sun = solarposition.get_solarposition(w.index, site["latitude"], site["longitude"],
-                                          altitude=site["altitude_m"],
-                                          pressure=atmosphere.alt2pres(site["altitude_m"]),
-                                          temperature=w["temp_air"])
-    zen = sun["apparent_zenith"]
-    dni, dhi = w["dni"], w["dhi"]
-    if decompose:
-        parts = irradiance.erbs(w["ghi"], zen, w.index)
-        dni, dhi = parts["dni"], parts["dhi"]
-    poa = irradiance.get_total_irradiance(tilt, azimuth, zen, sun["azimuth"], dni, w["ghi"], dhi,
-                                          dni_extra=irradiance.get_extra_radiation(w.index),
-                                          airmass=atmosphere.get_relative_airmass(zen),
-                                          albedo=albedo, model=model)
-    return poa, zen
-
-
-@pytest.mark.parametrize("model", TRANSPOSITION_MODELS)
-@pytest.mark.parametrize("decompose", [False, True])
-def test_poa_matches_pvlib_on_tmy3(tmy3, model, decompose):
-    site = tmy3.attrs["site"]
-    w = tmy3.drop(columns=["dni", "dhi"]) if decompose else tmy3
-    ours = poa_conditions(w, site["latitude"], site["longitude"], site["altitude_m"], 30, 180, model=model)
-    ref, zen = reference_poa(tmy3, site, 30, 180, model, decompose=decompose)
-    day = (zen <= 90).to_numpy()
-    # Perez's sky clearness is 0/0 when dhi = 0; no diffuse light means no sky diffuse
-    no_diffuse = (tmy3["dhi"] == 0).to_numpy()
-    assert not ref["poa_global"][day & ~no_diffuse].isna().any()
-    ref = ref.fillna(0.0)
-    # reference library: pvlib.irradiance.get_total_irradiance called directly
-    np.testing.assert_allclose(ours["poa_global_w_m2"][day], ref["poa_global"][day].clip(lower=0), atol=1e-9)
-    np.testing.assert_allclose(ours["poa_direct_w_m2"][day], ref["poa_direct"][day].clip(lower=0), atol=1e-9)
-    # night: the sun is below the horizon, so nothing arrives (never NaN, never negative)
-    assert (ours.loc[~day, ["poa_global_w_m2", "effective_irradiance_w_m2"]] == 0).all().all()
-    assert ours.notna().all().all() and (ours["poa_global_w_m2"] >= 0).all()
-    assert (ours["effective_irradiance_w_m2"] <= ours["poa_global_w_m2"] + 1e-9).all()
-    # reference library: the Sandia open-rack cell temperature from pvlib
-    params = temperature.TEMPERATURE_MODEL_PARAMETERS["sapm"]["open_rack_glass_glass"]
-    cell = temperature.sapm_cell(ours["poa_global_w_m2"], tmy3["temp_air"], tmy3["wind_speed"], **params)
-    np.testing.assert_allclose(ours["cell_temp_c"], cell)
-    assert ("Erbs" in " ".join(ours.attrs["notes"])) == decompose
-
-
-@pytest.mark.parametrize("model, rel", [("isotropic", 1e-12), ("haydavies", 1e-4), ("perez", 2e-3)])
-def test_horizontal_plane_sees_ghi_on_a_clear_equinox_day(model, rel):
-    # law: a horizontal plane receives exactly the global horizontal irradiance.
-    # Perez and Hay-Davies cap the circumsolar ratio near the horizon, hence rel.
-    times = pd.date_range("2024-03-20", periods=24 * 60, freq="min", tz="UTC")
-    sun = solarposition.get_solarposition(times, 0.0, 0.0, altitude=0.0, pressure=101325.0,
-                                          temperature=20.0)
-    am = atmosphere.get_absolute_airmass(atmosphere.get_relative_airmass(sun["apparent_zenith"]))
-    sky = clearsky.ineichen(sun["apparent_zenith"], am, linke_turbidity=3.0,
-                            dni_extra=irradiance.get_extra_radiation(times))
-    w = pd.DataFrame({"ghi": sky["ghi"].fillna(0.0), "temp_air": 20.0}, index=times)
-    ours = poa_conditions(w, 0.0, 0.0, 0.0, 0.0, 180.0, model=model)
-    ghi_kwh = w["ghi"].sum() / 60 / 1000
-    assert ours["poa_global_w_m2"].sum() / 60 / 1000 == pytest.approx(ghi_kwh, rel=rel)
-    # handbook: H0 = (24/pi) G_sc (cos(phi) cos(delta) sin(w_s) + w_s sin(phi) sin(delta)),
-    # at phi = delta = 0 and w_s = pi/2 about 10.4 kWh/m2; clear days give KT ~ 0.65-0.8
-    h0_kwh = 24 / np.pi * 1361 / 1000
-    assert 0.6 < ghi_kwh / h0_kwh < 0.85
-
-
-@settings(max_examples=25, deadline=None)
-@given(tilt=st.floats(0, 90), azimuth=st.floats(0, 360), model=st.sampled_from(TRANSPOSITION_MODELS),
-       albedo=st.floats(0, 1))
-def test_any_plane_is_finite_non_negative_and_dark_at_night(tmy3, tilt, azimuth, model, albedo):
-    # law: irradiance is never negative; incidence-angle loss never adds light
-    w = tmy3.iloc[4000:4168]
-    ours = poa_conditions(w, 36.1, -79.95, 273.0, tilt, azimuth, model=model, albedo=albedo)
-    assert ours.notna().all().all() and (ours["poa_global_w_m2"] >= 0).all()
-    assert (ours["effective_irradiance_w_m2"] <= ours["poa_global_w_m2"] + 1e-9).all()
-    assert (ours.loc[ours["solar_zenith_deg"] > 90, "poa_global_w_m2"] == 0).all()
-
-
-def test_measured_poa_is_used_directly():
-    times = pd.date_range("2024-06-01", periods=24, freq="h", tz="Europe/Madrid")
-    w = pd.DataFrame({"poa_global": 500.0, "temp_air": 25.0}, index=times)
-    ours = poa_conditions(w, 40.4, -3.7, 650.0, 30, 180)
-    day = ours["solar_zenith_deg"] <= 90
-    assert (ours.loc[day, "effective_irradiance_w_m2"] == 500.0).all()
-    assert (ours.loc[~day, "poa_global_w_m2"] == 0).all()
-    assert any("1 m/s" in n for n in ours.attrs["notes"])
-
-
-def test_mounting_presets_and_bad_choices(tmy3):
-    w = tmy3.iloc[4000:4048]
-    for name in MOUNTING_PRESETS:
-        assert poa_conditions(w, 36.1, -79.95, 273, 30, 180, mounting=name)["cell_temp_c"].notna().all()
-    with pytest.raises(InputError, match="open_rack, .*insulated_back"):
-        poa_conditions(w, 36.1, -79.95, 273, 30, 180, mounting="roof")
-    with pytest.raises(InputError, match="perez, haydavies, isotropic"):
-        poa_conditions(w, 36.1, -79.95, 273, 30, 180, model="klucher")
-    with pytest.raises(InputError, match="tilt_deg"):
-        poa_conditions(w, 36.1, -79.95, 273, 200, 180)
 
 
 # --- CSV parsing ---------------------------------------------------------------------
@@ -353,18 +247,3 @@ def test_gaps_are_counted_under_skip(tmp_path):
     w = read_weather_csv(write_csv(tmp_path, ["timestamp", "ghi", "temp_air"], rows[:5] + rows[8:]),
                          policy="skip")
     assert "1 gaps in the time step counted (largest 4 h)" in w.attrs["notes"] and w.attrs["step_h"] == 1.0
-
-
-def test_interpolated_sun_position_matches_pvlib_spa_to_a_hundredth_of_a_degree():
-    # Reference: pvlib.solarposition.get_solarposition (SPA) at every minute of two days.
-    from pvlib import atmosphere, solarposition
-    from pvsource.weather import sun_position
-    times = pd.date_range("2025-06-20", periods=2 * 1440, freq="1min", tz="Etc/GMT-1")
-    temp = 15.0 + 8.0 * np.sin(np.arange(len(times)) / 1440 * 2 * np.pi)
-    ours = sun_position(times, 46.2, 8.9, 640.0, temp)
-    ref = solarposition.get_solarposition(times, 46.2, 8.9, altitude=640.0, pressure=atmosphere.alt2pres(640.0),
-                                          temperature=temp)
-    up = ref["apparent_zenith"] < 90
-    assert np.max(np.abs(ours["apparent_zenith"] - ref["apparent_zenith"])[up]) < 0.01
-    daz = np.abs((ours["azimuth"] - ref["azimuth"] + 180) % 360 - 180)
-    assert np.max(daz[up]) < 0.01
