@@ -169,24 +169,44 @@ def soc_figure(steps, path) -> Path:
 
 
 def iv_figure(curves: list, path) -> Path:
-    """I-V curves of the array at chosen hours, each with its operating point.
+    """The array's I-V and P-V curves at chosen steps, each operating point with its Thevenin tangent.
 
-    ``curves`` holds dicts with ``label``, ``v`` and ``i`` (arrays) and the
-    point ``v_op``, ``i_op``.
+    ``curves`` holds dicts with ``label``, ``v``, ``i`` and ``p`` (arrays), the
+    point ``v_op``, ``i_op`` and the tangent's ``e_th_v`` and ``r_th_ohm``. The
+    tangent I = (E_th - V) / R_th is the linear model the tool reasons with:
+    it touches the curve at the point and shows how far from it the model holds.
     """
-    fig, ax = plt.subplots(figsize=(7.0, 4.0))
-    shades = plt.get_cmap("cividis")(np.linspace(0.1, 0.85, max(len(curves), 1)))
+    fig, (ax_i, ax_p) = plt.subplots(1, 2, figsize=(9.0, 4.4), gridspec_kw={"width_ratios": [3, 2], "wspace": 0.28})
+    shades = plt.get_cmap("cividis")(np.linspace(0.05, 0.8, max(len(curves), 1)))
+    i_top = max((float(np.nanmax(c["i"])) for c in curves), default=1.0) * 1.08 or 1.0
+    v_top = max((float(np.nanmax(c["v"])) for c in curves), default=1.0) * 1.04 or 1.0
     for c, colour in zip(curves, shades):
-        ax.plot(c["v"], c["i"], color=colour, lw=1.4, label=c["label"])
-        ax.plot([c["v_op"]], [c["i_op"]], "o", color=colour, mec="black", mew=0.6, ms=6)
-    ax.set_xlabel("array voltage [V]")
-    ax.set_ylabel("array current [A]")
-    ax.set_ylim(bottom=0)
-    ax.set_xlim(left=0)
-    ax.spines[["top", "right"]].set_visible(False)
-    ax.grid(True, color="#e3e3e3", lw=0.6)
-    ax.legend(fontsize=7.5, frameon=False)
-    ax.set_title("The array's curve and its operating point at chosen hours", fontsize=10, loc="left")
+        ax_i.plot(c["v"], c["i"], color=colour, lw=1.5, label=c["label"])
+        if np.isfinite(c["e_th_v"]) and np.isfinite(c["r_th_ohm"]) and c["r_th_ohm"] > 0:
+            # The tangent over the span where it stays on the axes.
+            v_line = np.linspace(max(c["e_th_v"] - c["r_th_ohm"] * i_top, 0.0), min(c["e_th_v"], v_top), 50)
+            ax_i.plot(v_line, (c["e_th_v"] - v_line) / c["r_th_ohm"], "--", color=colour, lw=0.9)
+        ax_i.plot([c["v_op"]], [c["i_op"]], "o", color=colour, mec="black", mew=0.6, ms=6, zorder=5)
+        ax_p.plot(c["v"], c["p"], color=colour, lw=1.5)
+        ax_p.plot([c["v_op"]], [c["v_op"] * c["i_op"]], "o", color=colour, mec="black", mew=0.6, ms=6, zorder=5)
+    ax_i.plot([], [], "--", color="#555555", lw=0.9, label="Thevenin tangent at the operating point")
+    ax_i.plot([], [], "o", color="white", mec="black", mew=0.6, ms=6, label="operating point")
+    ax_i.set_ylim(0, i_top)
+    ax_i.set_xlim(0, v_top)
+    ax_p.set_ylim(bottom=0)
+    ax_p.set_xlim(0, v_top)
+    ax_i.set_xlabel("array voltage [V]")
+    ax_i.set_ylabel("array current [A]")
+    ax_p.set_xlabel("array voltage [V]")
+    ax_p.set_ylabel("array power [W]")
+    for ax in (ax_i, ax_p):
+        ax.spines[["top", "right"]].set_visible(False)
+        ax.grid(True, color="#e3e3e3", lw=0.6)
+    ax_i.set_title("I-V at the array terminals", fontsize=10, loc="left")
+    ax_p.set_title("P-V", fontsize=10, loc="left")
+    # The legend goes under the axes, never over a curve.
+    fig.legend(*ax_i.get_legend_handles_labels(), loc="lower center", ncol=2, fontsize=7.5, frameon=False)
+    fig.subplots_adjust(bottom=0.3, top=0.9, left=0.08, right=0.98)
     return save_atomically(fig, path)
 
 

@@ -16,12 +16,11 @@ import tempfile
 from pathlib import Path
 
 import numpy as np
-import pvlib
 
 from pvsource import cautions, plots
 from pvsource.checks import design_checks
+from pvsource.curves import array_curves, thevenin_at
 from pvsource.errors import InputError
-from pvsource.module import parameters_at
 from pvsource.season import SeasonResult
 from pvsource.system import System
 
@@ -78,29 +77,51 @@ def write_text(path: Path, text: str) -> Path:
     return _atomic(Path(path), lambda tmp: Path(tmp).write_text(text, encoding="utf-8"))
 
 
-def iv_curves(system: System, steps, count: int = 4) -> list:
-    """I-V curves of the ideal array at a few telling hours: the sunniest, and midday on three other days."""
+def telling_hours(steps, count: int = 4) -> list[tuple[int, str]]:
+    """Rows of a study worth drawing the array's curve at, each with why.
+
+    The sunniest step; the hottest and the coldest of the bright steps (at
+    least 60 % of the sunniest), where the curve's knee moves furthest; and a
+    dim step (nearest a quarter of the sunniest), where a string is a current
+    source.
+    """
     if not len(steps):
         return []
-    sunny = steps["groups_p_mp_w"].to_numpy()
-    picks = [int(np.nanargmax(sunny))]
-    noon = np.flatnonzero((steps.index.hour == 12) & (sunny > 0))
-    if noon.size:
-        picks += [int(noon[k]) for k in np.linspace(0, noon.size - 1, count - 1).astype(int)]
-    curves = []
-    for k in dict.fromkeys(picks):
-        row = steps.iloc[k]
-        v_grid = np.linspace(0.0, row["source_v_oc"], 120)
-        total = np.zeros_like(v_grid)
-        for g in system.groups:
-            st = parameters_at(system.module.parameters, row[f"group_{g.name}_irradiance_w_m2"],
-                               row[f"group_{g.name}_cell_temp_c"])
-            total += g.strings * np.asarray(pvlib.pvsystem.i_from_v(
-                v_grid / g.modules_per_string, st.i_l_a, st.i_o_a, st.r_s_ohm, st.r_sh_ohm, st.a_v,
-                method="lambertw"), float)
-        curves.append({"label": steps.index[k].strftime("%Y-%m-%d %H:%M"), "v": v_grid, "i": np.maximum(total, 0),
-                       "v_op": row["v"], "i_op": row["i"]})
-    return curves
+    p_mp = steps["groups_p_mp_w"].to_numpy(float)
+    if not np.isfinite(p_mp).any() or np.nanmax(p_mp) <= 0:
+        return []
+    top = float(np.nanmax(p_mp))
+    temps = steps[[c for c in steps.columns if c.startswith("group_") and c.endswith("_cell_temp_c")]]
+    mean_t = temps.to_numpy(float).mean(axis=1)
+    bright = np.flatnonzero(p_mp >= 0.6 * top)
+    picks = [(int(np.nanargmax(p_mp)), "sunniest"),
+             (int(bright[np.argmax(mean_t[bright])]), "hottest bright"),
+             (int(bright[np.argmin(mean_t[bright])]), "coldest bright"),
+             (int(np.nanargmin(np.abs(np.where(p_mp > 0, p_mp, np.inf) - 0.25 * top))), "dim")]
+    seen, out = set(), []
+    for k, why in picks:
+        if k not in seen:
+            seen.add(k)
+            out.append((k, why))
+    return out[:count]
+
+
+def iv_curves(system: System, steps, count: int = 4) -> list:
+    """The array's I-V curves at telling steps, with the operating point and its Thevenin tangent."""
+    picked = telling_hours(steps, count)
+    if not picked:
+        return []
+    rows = steps.iloc[[k for k, _ in picked]]
+    names = [g.name for g in system.groups]
+    g = rows[[f"group_{n}_irradiance_w_m2" for n in names]].to_numpy(float)
+    t = rows[[f"group_{n}_cell_temp_c" for n in names]].to_numpy(float)
+    found = array_curves(system, g, t)
+    _, tangent = thevenin_at(system, g, t, rows["v"].to_numpy(float))
+    return [{"label": f"{why}: {steps.index[k].strftime('%Y-%m-%d %H:%M')}, {g[n].mean():.0f} W/m2, "
+                      f"cells {t[n].mean():.0f} °C",
+             "v": found.v[n], "i": found.i[n], "p": found.p[n], "v_op": float(rows["v"].iloc[n]),
+             "i_op": float(rows["i"].iloc[n]), "e_th_v": float(tangent.e_v[n]), "r_th_ohm": float(tangent.r_ohm[n])}
+            for n, (k, why) in enumerate(picked)]
 
 
 def _table(rows: list[tuple]) -> str:
