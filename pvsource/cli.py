@@ -191,13 +191,17 @@ def wire(
     volts: Annotated[Optional[float], typer.Option(
         "--volts", help="One run: circuit voltage the drop is compared with [V].")] = None,
     parallel: Annotated[int, typer.Option("--parallel", help="One run: conductors in parallel per pole.")] = 1,
+    resistance_basis: Annotated[str, typer.Option(
+        "--resistance-basis", help="One run: table (IEC 60228 or NEC Chapter 9 Table 8, the default) or computed "
+                                   "(resistivity, area and stranding).")] = "table",
     as_json: Annotated[bool, typer.Option("--json", help="Print one JSON object instead of tables.")] = False,
 ):
     """Voltage drop and loss of every cable run, and the smallest size that meets a budget."""
     budget = _budget_fraction(budget_pct)
     single = {"--current": current, "--length-m": length_m, "--size": size, "--volts": volts,
               "--material": None if material == "copper" else material,
-              "--temp-c": None if temp_c == 75.0 else temp_c, "--parallel": None if parallel == 1 else parallel}
+              "--temp-c": None if temp_c == 75.0 else temp_c, "--parallel": None if parallel == 1 else parallel,
+              "--resistance-basis": None if resistance_basis == "table" else resistance_basis}
     if system_file is None:
         missing = [k for k in ("--current", "--length-m", "--size") if single[k] is None]
         if missing:
@@ -205,7 +209,8 @@ def wire(
         for name, given in (("--irradiance", irradiance), ("--cell-temp", cell_temp), ("--at-mpp", at_mpp)):
             if given:
                 raise InputError(name, None, "applies to a system file; one run is given by its current")
-        rec = quick_record(current, length_m, size, material, temp_c, volts, budget, parallel)
+        rec = quick_record(current, length_m, size, material, temp_c, volts, budget, parallel,
+                           resistance_basis=resistance_basis)
         rec["cautions"] = [*cautions.WIRING, *cautions.GENERAL]
         _emit_json(rec) if as_json else typer.echo(render_quick_wire(rec))
         return

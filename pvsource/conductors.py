@@ -1,8 +1,14 @@
 """Conductor sizes, DC resistance, loop resistance and voltage drop.
 
-Derived from first principles: resistivity and temperature coefficient of the
-metal, the nominal cross-section of the size, and a stranding factor for the
-lay of the wires. Numeric functions are vectorised (numpy in, numpy out) and
+A size's resistance comes, by default, from the table of its standard: IEC
+60228 (the maximum DC resistance at 20 °C for the conductor's class and metal)
+for metric sizes, NEC Chapter 9 Table 8 (at 75 °C) for AWG and kcmil, each
+moved to the conductor temperature by its standard's linear law. Both tables
+are data files in ``data/conductors/`` with a source beside every value. The
+first-principles value (resistivity and temperature coefficient of the metal,
+the nominal cross-section and a stranding factor for the lay of the wires)
+stays available as the ``"computed"`` basis, and is what a size without a
+table row gets. Numeric functions are vectorised (numpy in, numpy out) and
 raise :class:`~pvsource.errors.InputError` naming the offending argument.
 
 References
@@ -14,6 +20,7 @@ References
    solid round wires used as electrical conductors.
 .. [5] ASTM B8, Concentric-lay-stranded copper conductors.
 .. [6] NFPA 70, National Electrical Code, Chapter 9 Table 8.
+.. [7] IEC 60228, Annex B: temperature correction factors for resistance.
 """
 
 from __future__ import annotations
@@ -95,6 +102,27 @@ MATERIALS = _load_materials()
 #: Resistance multiplier per IEC 60228 conductor class: 1 solid 1.00, 2 stranded
 #: 1.02, 5 flexible 1.09; sources in ``data/conductors/stranding.csv``.
 STRANDING_FACTORS = {int(r["conductor_class"]): float(r["factor"]) for r in _read_csv("stranding.csv")}
+
+
+#: How a size's resistance is found: its standard's table, or first principles.
+RESISTANCE_BASES = ("table", "computed")
+_M_PER_KFT = 304.8
+
+
+def _load_iec60228() -> dict[tuple[int, str, float], float]:
+    return {(int(r["conductor_class"]), r["material"], float(r["area_mm2"])): float(r["max_ohm_per_km_20c"])
+            for r in _read_csv("iec60228.csv")}
+
+
+def _load_table8() -> dict[tuple[str, str, str], float]:
+    return {(r["size"], r["construction"], r["material"]): float(r["ohm_per_kft_75c"])
+            for r in _read_csv("nec_chapter9_table8.csv")}
+
+
+#: IEC 60228 maximum DC resistance at 20 °C [ohm/km], by (class, material, area_mm2).
+IEC_60228_OHM_PER_KM = _load_iec60228()
+#: NEC Chapter 9 Table 8 DC resistance at 75 °C [ohm/kft], by (label, "solid"|"stranded", material).
+NEC_TABLE8_OHM_PER_KFT = _load_table8()
 
 
 def material_properties(material: str | Material, where: str = "material") -> Material:
@@ -299,6 +327,76 @@ def resistance_per_m_ohm(area_mm2, material, temp_c=DEFAULT_CONDUCTOR_TEMP_C,
     return _out(_r_per_m(area_mm2, material, temp_c, stranded, conductor_class, "resistance_per_m_ohm"))
 
 
+def tabulated_resistance(size: str | ConductorSize, material, conductor_class: int = 2):
+    """The standard's tabulated resistance of a size, if its table has a row for it.
+
+    Metric sizes: IEC 60228 Table 1, 2 or 3 (class 1, 2 or 5), maximum at
+    20 °C. AWG and kcmil: NEC Chapter 9 Table 8 at 75 °C, the solid row for
+    class 1 (18 to 8 AWG) and the stranded row for class 2. Table 8 has no
+    fine-wire (class 5) rows, and IEC 60228 no aluminium below 10 mm², no
+    class 5 aluminium and no class 1 copper above 400 mm².
+
+    Returns
+    -------
+    tuple (ohm_per_m, t_ref_c, source) or None
+        Resistance of one conductor [ohm/m] at ``t_ref_c`` [°C], and the table's name.
+    """
+    s = parse_size(size, allow_nonstandard=True, where="tabulated_resistance")
+    mat = material_properties(material, "tabulated_resistance").name
+    if s.series == "metric":
+        r = IEC_60228_OHM_PER_KM.get((int(conductor_class), mat, s.area_mm2))
+        table = {1: "Table 1", 2: "Table 2", 5: "Table 3"}.get(int(conductor_class))
+        return None if r is None else (r / 1000.0, 20.0, f"IEC 60228 {table} (class {conductor_class}) maximum")
+    construction = {1: "solid", 2: "stranded"}.get(int(conductor_class))
+    r = NEC_TABLE8_OHM_PER_KFT.get((s.label, construction, mat))
+    return None if r is None else (r / _M_PER_KFT, 75.0, f"NEC Chapter 9 Table 8 ({construction})")
+
+
+def size_resistance(size: str | ConductorSize, material, temp_c=DEFAULT_CONDUCTOR_TEMP_C,
+                    conductor_class: int = 2, basis: str = "table", where: str = "size_resistance"):
+    """Resistance of one conductor of a size per metre, and where the value came from.
+
+    With ``basis="table"`` the standard's tabulated value
+    (:func:`tabulated_resistance`) is moved to ``temp_c``: IEC 60228 values by
+    R(T) = R20 [1 + α20 (T − 20)] (IEC 60228 Annex B), NEC Table 8 values by
+    R(T) = R75 [1 + α75 (T − 75)] (Table 8 note 2). A size its table lacks, and
+    ``basis="computed"``, get :func:`resistance_per_m_ohm`.
+
+    Parameters
+    ----------
+    size : str or ConductorSize
+    material : str
+    temp_c : array_like
+        Conductor temperature [°C].
+    conductor_class : {1, 2, 5}
+        IEC 60228 class.
+    basis : {"table", "computed"}
+
+    Returns
+    -------
+    tuple (numpy.ndarray or float, str)
+        Resistance [ohm/m], and its basis in words.
+    """
+    if basis not in RESISTANCE_BASES:
+        raise InputError(where, "resistance_basis", f"expected one of {', '.join(RESISTANCE_BASES)}; got {basis!r}")
+    s = parse_size(size, allow_nonstandard=True, where=where)
+    row = tabulated_resistance(s, material, conductor_class) if basis == "table" else None
+    if row is None:
+        r = _r_per_m(s.area_mm2, material, temp_c, True, conductor_class, where)
+        why = "" if basis == "computed" else f"; no table row for class {conductor_class} {s.label}"
+        return _out(r), f"computed from resistivity and stranding factor{why}"
+    r_ref, t_ref, source = row
+    if t_ref == 75.0:
+        return nec_temperature_correction(r_ref, temp_c, material), source
+    return temperature_correction(r_ref, t_ref, temp_c, material), source
+
+
+def sizes_resistance_per_m_ohm(sizes, material, temp_c=DEFAULT_CONDUCTOR_TEMP_C, conductor_class: int = 2,
+                               basis: str = "table") -> np.ndarray:
+    """:func:`size_resistance` of several sizes at one temperature [ohm/m], shape (len(sizes),)."""
+    return np.array([float(size_resistance(s, material, temp_c, conductor_class, basis)[0]) for s in sizes])
+
+
 def temperature_correction(r_ref_ohm, t_ref_c, t_c, material):
     """Move a resistance between temperatures by the linear law of IEC 60028.
 
@@ -459,7 +557,7 @@ def voltage_drop(current_a, loop_resistance_ohm, circuit_v) -> VoltageDrop:
 def smallest_size_meeting(current_a: float, length_m: float, circuit_v: float,
                           budget_fraction: float, series: str = "awg", material: str = "copper",
                           temp_c: float = DEFAULT_CONDUCTOR_TEMP_C, conductors_in_parallel: int = 1,
-                          *, stranded: bool = True, conductor_class: int | None = None) -> ConductorSize:
+                          *, conductor_class: int = 2, basis: str = "table") -> ConductorSize:
     """Smallest standard size whose loop voltage drop is within a budget.
 
     Parameters
@@ -469,8 +567,10 @@ def smallest_size_meeting(current_a: float, length_m: float, circuit_v: float,
     budget_fraction : float
         Allowed drop over circuit voltage [-], in (0, 1).
     series : {"awg", "metric"}
-    material, temp_c, conductors_in_parallel, stranded, conductor_class
+    material, temp_c, conductors_in_parallel
         As in :func:`loop_resistance_ohm`.
+    conductor_class, basis
+        As in :func:`size_resistance`.
 
     Raises
     ------
@@ -486,8 +586,9 @@ def smallest_size_meeting(current_a: float, length_m: float, circuit_v: float,
     if not 0.0 < float(_check(budget_fraction, "budget_fraction", where)) < 1.0:
         raise InputError(where, "budget_fraction", f"expected a fraction in (0, 1); got {budget_fraction!r}")
     sizes = standard_sizes(series)
-    r = loop_resistance_ohm(length_m, [s.area_mm2 for s in sizes], material, temp_c,
-                            conductors_in_parallel, stranded=stranded, conductor_class=conductor_class)
+    r_per_m = sizes_resistance_per_m_ohm(sizes, material, temp_c, conductor_class, basis)
+    r = loop_resistance_ohm(length_m, None, None, conductors_in_parallel=conductors_in_parallel,
+                            ohm_per_km=1000.0 * r_per_m)
     frac = voltage_drop(current_a, r, circuit_v).drop_fraction
     ok = np.flatnonzero(frac <= budget_fraction)
     if ok.size == 0:

@@ -213,11 +213,13 @@ def parse_cable(table: Table, index: int, group_names) -> CableRun:
     if conductor_class not in conductors.STRANDING_FACTORS:
         raise InputError(where, table.field("conductor_class"),
                          f"expected one of {sorted(conductors.STRANDING_FACTORS)} (IEC 60228 class)")
+    basis = table.text("resistance_basis", "table", choices=conductors.RESISTANCE_BASES)
     if table.has("resistance_ohm_per_km"):
         r_km = table.number("resistance_ohm_per_km", positive=True, maximum=1.0e5)
+        source = "given as resistance_ohm_per_km"
     elif size is not None:
-        r_km = 1000.0 * float(conductors.resistance_per_m_ohm(size.area_mm2, material, temp_c,
-                                                               conductor_class=conductor_class))
+        r, source = conductors.size_resistance(size, material, temp_c, conductor_class, basis, where=where)
+        r_km = 1000.0 * float(r)
     else:
         raise InputError(where, table.field("size"),
                          "is missing: give the conductor size (e.g. \"10 AWG\" or \"6 mm2\") "
@@ -232,6 +234,7 @@ def parse_cable(table: Table, index: int, group_names) -> CableRun:
         conductors_in_parallel=table.number("conductors_in_parallel", 1, integer=True, positive=True, maximum=100),
         size=size, material=material, temp_c=temp_c, conductor_class=conductor_class,
         ampacity_a=None if math.isnan(ampacity) else ampacity,
+        resistance_basis=basis, resistance_source=source,
     )
     table.finish()
     return run

@@ -8,14 +8,14 @@ Runs of one role in one group are in series, in the order of the file.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
 from pvsource import conductors
 from pvsource.errors import InputError
 from pvsource.system import System
-from pvsource.wiring import CableRun
+from pvsource.wiring import CableRun, sized_ohm_per_km
 
 OPTIONS_SHOWN = 3
 
@@ -127,8 +127,7 @@ def size_options(flow: RunFlow, count: int = OPTIONS_SHOWN) -> list[SizeOption]:
         return []
     sizes = [run.size] + conductors.next_sizes_up(run.size, count)
     areas = [s.area_mm2 for s in sizes]
-    r = np.atleast_1d(conductors.loop_resistance_ohm(run.length_m, areas, run.material, run.temp_c,
-                                                     run.conductors_in_parallel, conductor_class=run.conductor_class))
+    r = np.array([replace(run, resistance_ohm_per_km=sized_ohm_per_km(run, s)[0]).loop_resistance_ohm for s in sizes])
     # A user-given resistance describes this cable; other sizes of the same
     # make are taken to differ from the tables by the same factor.
     r = r * (run.loop_resistance_ohm / r[0])
@@ -164,7 +163,7 @@ def recommend_size(flow: RunFlow, budget_fraction: float):
         return conductors.smallest_size_meeting(
             abs(flow.current_a), run.length_m, flow.circuit_v, budget_fraction, series=run.size.series,
             material=run.material, temp_c=run.temp_c, conductors_in_parallel=run.conductors_in_parallel,
-            conductor_class=run.conductor_class)
+            conductor_class=run.conductor_class, basis=run.resistance_basis)
     except InputError as exc:
         raise InputError(run.name, None, exc.expected) from None
 
@@ -187,9 +186,7 @@ def _recommendation(flow: RunFlow, budget_fraction):
     if flow.run.size is None:
         return None, None, "no size given (resistance per km only), so no size series to choose from"
     scaled = flow
-    factor = flow.run.loop_resistance_ohm / float(conductors.loop_resistance_ohm(
-        flow.run.length_m, flow.run.size.area_mm2, flow.run.material, flow.run.temp_c,
-        flow.run.conductors_in_parallel, conductor_class=flow.run.conductor_class))
+    factor = flow.run.resistance_ohm_per_km / sized_ohm_per_km(flow.run, flow.run.size)[0]
     if abs(factor - 1.0) > 1e-9:
         # Search the series with the budget tightened by the cable's own factor.
         budget_fraction = budget_fraction / factor
@@ -217,7 +214,7 @@ def wire_record(system: System, row, budget_fraction=None) -> dict:
             "name": f.run.name, "role": f.run.role, "group": f.run.group,
             "size": f.run.size.label if f.run.size else None, "material": f.run.material,
             "length_m": f.run.length_m, "conductors_in_parallel": f.run.conductors_in_parallel,
-            "temp_c": f.run.temp_c, "copies": f.copies,
+            "temp_c": f.run.temp_c, "copies": f.copies, "resistance_source": f.run.resistance_source,
             "current_a": f.current_a, "resistance_ohm": f.resistance_ohm, "circuit_v": f.circuit_v,
             "drop_v": f.drop_v, "drop_pct": 100.0 * f.drop_fraction,
             "loss_w": f.loss_w, "loss_pct": 100.0 * f.loss_fraction, "power_w": f.power_w,
@@ -242,7 +239,7 @@ def wire_record(system: System, row, budget_fraction=None) -> dict:
 def quick_record(current_a: float, length_m: float, size_text: str, material: str = "copper",
                  temp_c: float = conductors.DEFAULT_CONDUCTOR_TEMP_C, volts: float | None = None,
                  budget_fraction: float | None = None, conductors_in_parallel: int = 1,
-                 conductor_class: int = 2) -> dict:
+                 conductor_class: int = 2, resistance_basis: str = "table") -> dict:
     """One two-conductor DC run from its current, one-way length and size (JSON-ready).
 
     Raises
@@ -277,9 +274,13 @@ def quick_record(current_a: float, length_m: float, size_text: str, material: st
     if int(conductors_in_parallel) != conductors_in_parallel or conductors_in_parallel < 1:
         raise InputError("--parallel", None, f"expected a whole number of conductors, 1 or more, "
                                              f"got {conductors_in_parallel!r}")
-    r_km = 1000.0 * float(conductors.resistance_per_m_ohm(size.area_mm2, mat, temp_c, conductor_class=conductor_class))
-    run = CableRun("run", "feeder", length_m, r_km, conductors_in_parallel=int(conductors_in_parallel), size=size,
-                   material=mat, temp_c=temp_c, conductor_class=conductor_class)
+    if resistance_basis not in conductors.RESISTANCE_BASES:
+        raise InputError("--resistance-basis", None, f"expected one of {', '.join(conductors.RESISTANCE_BASES)}, "
+                                                     f"got {resistance_basis!r}")
+    run = CableRun("run", "feeder", length_m, 1.0, conductors_in_parallel=int(conductors_in_parallel), size=size,
+                   material=mat, temp_c=temp_c, conductor_class=conductor_class, resistance_basis=resistance_basis)
+    r_km, source = sized_ohm_per_km(run, size)
+    run = replace(run, resistance_ohm_per_km=r_km, resistance_source=source)
     r = run.loop_resistance_ohm
     drop = current_a * r
     flow = RunFlow(run, current_a, volts if volts else float("nan"), r, drop, current_a * drop,
@@ -287,7 +288,8 @@ def quick_record(current_a: float, length_m: float, size_text: str, material: st
     rec_size, by_drop, note = _recommendation(flow, budget_fraction)
     rec = {
         "current_a": current_a, "length_m": length_m, "size": size.label, "material": mat, "temp_c": temp_c,
-        "conductors_in_parallel": conductors_in_parallel, "resistance_ohm": r, "drop_v": drop,
+        "conductors_in_parallel": conductors_in_parallel, "resistance_ohm": r,
+        "resistance_basis": resistance_basis, "resistance_source": source, "drop_v": drop,
         "drop_pct": 100.0 * abs(drop) / volts if volts else None, "loss_w": current_a * drop,
         "loss_pct": 100.0 * abs(drop) / volts if volts else None,
         "mass_kg": float(conductors.conductor_mass_kg(length_m, size.area_mm2, mat, conductors_in_parallel,
@@ -304,13 +306,10 @@ def quick_record(current_a: float, length_m: float, size_text: str, material: st
 
 def resize_run(system: System, name: str, size: conductors.ConductorSize) -> System:
     """The system with run ``name`` in another conductor size (resistance recomputed for it)."""
-    from dataclasses import replace
-
     runs = []
     for run in system.cables:
         if run.name == name:
-            r_km = 1000.0 * float(conductors.resistance_per_m_ohm(size.area_mm2, run.material, run.temp_c,
-                                                                    conductor_class=run.conductor_class))
-            run = replace(run, size=size, resistance_ohm_per_km=r_km)
+            r_km, source = sized_ohm_per_km(run, size)
+            run = replace(run, size=size, resistance_ohm_per_km=r_km, resistance_source=source)
         runs.append(run)
     return replace(system, cables=tuple(runs))

@@ -20,6 +20,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from pvsource import conductors
 from pvsource.conductors import ConductorSize
 
 ROLES = ("string", "home-run", "feeder", "bank", "interconnect")
@@ -56,6 +57,11 @@ class CableRun:
         IEC 60228 class: 1 solid, 2 stranded, 5 flexible.
     ampacity_a : float or None
         The conductor's current rating, if the user gives one [A].
+    resistance_basis : str
+        ``"table"`` (the size's standard: IEC 60228 or NEC Chapter 9 Table 8)
+        or ``"computed"`` (first principles); see :func:`pvsource.conductors.size_resistance`.
+    resistance_source : str
+        Where ``resistance_ohm_per_km`` came from, in words.
     """
 
     name: str
@@ -69,6 +75,8 @@ class CableRun:
     temp_c: float = 75.0
     conductor_class: int = 2
     ampacity_a: float | None = None
+    resistance_basis: str = "table"
+    resistance_source: str = ""
 
     @property
     def loop_resistance_ohm(self) -> float:
@@ -101,6 +109,13 @@ class GroupWiring:
     def r_load_side_ohm(self) -> float:
         """All resistance in series between the bus and the load [ohm]."""
         return self.r_feeder_ohm + self.r_bank_ohm
+
+
+def sized_ohm_per_km(run: CableRun, size: ConductorSize) -> tuple[float, str]:
+    """Resistance of one conductor of ``size`` in this run's metal, class, temperature and basis [ohm/km]."""
+    r, source = conductors.size_resistance(size, run.material, run.temp_c, run.conductor_class,
+                                           run.resistance_basis, where=run.name)
+    return 1000.0 * float(r), source
 
 
 def group_wiring(cables, group_names) -> GroupWiring:

@@ -146,8 +146,19 @@ def test_cables_by_size_and_material(tmp_path):
     # NEC Chapter 9 Table 8: 4 AWG aluminium 0.508 ohm/kft at 75 degC (from memory),
     # corrected to 50 degC with the Table 8 note formula (alpha 0.00330).
     expected_per_km = 0.508 / 0.3048 * (1 + 0.00330 * (50 - 75))
-    assert run.resistance_ohm_per_km == pytest.approx(expected_per_km, rel=0.02)
+    assert run.resistance_ohm_per_km == pytest.approx(expected_per_km, rel=1e-9)
     assert run.size.label == "4 AWG" and run.material == "aluminium"
+
+
+def test_metric_run_uses_iec_60228_unless_asked_to_compute(tmp_path):
+    text = GOOD.replace("resistance_ohm_per_km = 3.4", 'size = "50 mm2"\ntemp_c = 20')
+    run = load_system(write(tmp_path, text)).cables[0]
+    # IEC 60228 Table 2: 50 mm2 class 2 plain copper, 0.387 ohm/km at 20 degC (from memory).
+    assert run.resistance_ohm_per_km == pytest.approx(0.387, rel=1e-9)
+    assert "IEC 60228" in run.resistance_source
+    computed = load_system(write(tmp_path, text + '\nresistance_basis = "computed"')).cables[0]
+    # First principles: 1/58 ohm mm2/m (IEC 60028) / 50 mm2 x 1.02 stranding = 0.3517 ohm/km.
+    assert computed.resistance_ohm_per_km == pytest.approx(0.017241 / 50 * 1.02 * 1000, rel=1e-4)
 
 
 def test_a_given_resistance_wins_over_the_size(tmp_path):
@@ -164,6 +175,8 @@ def test_a_given_resistance_wins_over_the_size(tmp_path):
     (("resistance_ohm_per_km = 3.4", 'size = "6 mm2"\nconductor_class = 3'), "[[cable]] #1.conductor_class",
      "IEC 60228"),
     (("resistance_ohm_per_km = 3.4", 'size = "6 mm2"\nampacity_a = -5'), "[[cable]] #1.ampacity_a", "greater"),
+    (("resistance_ohm_per_km = 3.4", 'size = "6 mm2"\nresistance_basis = "guess"'), "[[cable]] #1.resistance_basis",
+     "table"),
 ])
 def test_bad_cable_tables(tmp_path, edit, field, words):
     with pytest.raises(InputError) as exc:
