@@ -156,7 +156,8 @@ def test_metric_run_uses_iec_60228_unless_asked_to_compute(tmp_path):
     # IEC 60228 Table 2: 50 mm2 class 2 plain copper, 0.387 ohm/km at 20 degC (from memory).
     assert run.resistance_ohm_per_km == pytest.approx(0.387, rel=1e-9)
     assert "IEC 60228" in run.resistance_source
-    computed = load_system(write(tmp_path, text + '\nresistance_basis = "computed"')).cables[0]
+    computed_text = text.replace('size = "50 mm2"', 'size = "50 mm2"\nresistance_basis = "computed"')
+    computed = load_system(write(tmp_path, computed_text)).cables[0]
     # First principles: 1/58 ohm mm2/m (IEC 60028) / 50 mm2 x 1.02 stranding = 0.3517 ohm/km.
     assert computed.resistance_ohm_per_km == pytest.approx(0.017241 / 50 * 1.02 * 1000, rel=1e-4)
 
