@@ -30,6 +30,7 @@ from pvsource import __version__, cautions
 from pvsource.checks import DEFAULT_CELL_RISE_C, design_checks, design_currents
 from pvsource.config import load_module, load_system
 from pvsource.errors import ConvergenceError, InputError, PhysicsGuardError
+from pvsource.module import model_notes
 from pvsource.operating import CELL_TEMP_RANGE_C, IRRADIANCE_RANGE_W_M2, operating_points, point_record
 from pvsource.demo import demo_system, synthetic_weather
 from pvsource.plots import sweep_figure
@@ -154,6 +155,7 @@ def point(
     t = _conditions_for(system, parse_condition(cell_temp, "--cell-temp"), "--cell-temp")
     frame = operating_points(system, g, t)
     rec = point_record(system, frame.iloc[0])
+    rec["notes"] = model_notes(system.module)
     rec["cautions"] = list(cautions.GENERAL)
     if as_json:
         _emit_json(rec)
@@ -485,6 +487,7 @@ def check(
     rec = {"system": system.name, "min_air_c": min_temp, "max_air_c": max_temp, "cell_rise_c": cell_rise,
            "checks": [c.record() for c in checks], "design_currents": design_currents(system),
            "all_passed": all(verdicts) if verdicts else None,
+           "notes": model_notes(system.module),
            "cautions": [*cautions.WIRING, *cautions.GENERAL]}
     _emit_json(rec) if as_json else typer.echo(render_checks(system, rec))
 

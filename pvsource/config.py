@@ -23,7 +23,8 @@ from pvsource.wiring import GROUP_ROLES, ROLES, CableRun
 
 DATASHEET_KEYS = ("v_oc", "i_sc", "v_mp", "i_mp", "isc_temp_coeff_pct", "voc_temp_coeff_pct", "cells_in_series")
 PARAMETER_KEYS = ("i_l_ref_a", "i_o_ref_a", "r_s_ohm", "r_sh_ref_ohm", "a_ref_v", "alpha_sc_a_per_c", "cells_in_series")
-PARAMETER_OPTIONAL = ("eg_ref_ev", "degdt_per_c")
+DATASHEET_OPTIONAL = ("pmax_temp_coeff_pct", "noct_c")
+PARAMETER_OPTIONAL = ("eg_ref_ev", "degdt_per_c", "adjust_pct")
 # Magnitudes beyond these are typing mistakes, not systems (common practice:
 # module strings stay below 1500 V, and no feeder runs for kilometres).
 MAX_MODULES_PER_STRING = 200
@@ -133,7 +134,7 @@ def parse_module(table: Table, base_dir: Path, _seen: frozenset = frozenset()) -
             raise InputError(ref_where, extra[0], "unknown section (a module file holds only [module])")
         return parse_module(Table(ref_where, "[module]", data["module"]), path.parent, _seen | {path})
     name = table.text("name", "")
-    has_ds = any(table.has(k) for k in DATASHEET_KEYS if k != "cells_in_series")
+    has_ds = any(table.has(k) for k in (*DATASHEET_KEYS, *DATASHEET_OPTIONAL) if k != "cells_in_series")
     has_p = any(table.has(k) for k in PARAMETER_KEYS if k != "cells_in_series")
     if has_ds and has_p:
         raise InputError(where, table.label, "give either datasheet values or single-diode parameters, not both")
@@ -143,6 +144,7 @@ def parse_module(table: Table, base_dir: Path, _seen: frozenset = frozenset()) -
         table.finish()
         return module_from_parameters(DiodeParameters(**values), where, name)
     values = {k: table.number(k, integer=(k == "cells_in_series")) for k in DATASHEET_KEYS}
+    values.update({k: table.number(k) for k in DATASHEET_OPTIONAL if table.has(k)})
     table.finish()
     return fit_datasheet(Datasheet(name=name, **values), where)
 

@@ -25,6 +25,7 @@ from numba import njit
 
 from pvsource import bank as bank_model
 from pvsource.errors import InputError
+from pvsource.module import model_notes
 from pvsource.operating import CHUNK_SIZE, operating_points
 from pvsource.system import System
 
@@ -241,6 +242,7 @@ def run_season(system: System, weather: pd.DataFrame, *, transposition: str = "p
     SeasonResult
     """
     notes = list(weather.attrs.get("notes", []))
+    notes.extend(model_notes(system.module))
     step_h = float(weather.attrs.get("step_h") or _step_hours(weather.index))
     report = progress or (lambda done, total: None)
     total = len(soc_grid(system)) + 3

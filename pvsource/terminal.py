@@ -9,7 +9,7 @@ from __future__ import annotations
 import math
 
 from pvsource import cautions
-from pvsource.module import Module
+from pvsource.module import Module, model_notes, temperature_coefficients
 from pvsource.system import System
 
 
@@ -142,6 +142,7 @@ def render_point(system: System, rec: dict) -> str:
     if rec["operating_point"]["i"] is not None and rec["operating_point"]["i"] < 0:
         lines.append("\nNOTE: current flows back into the array: the load's voltage is above what the array "
                      "can reach at these conditions.")
+    lines.extend(f"\nNOTE: {n}" for n in rec.get("notes", ()))
     lines.append(render_cautions())
     return "\n".join(lines)
 
@@ -161,15 +162,28 @@ def fit_record(module: Module) -> dict:
             "i_l_ref_a": p.i_l_ref_a, "i_o_ref_a": p.i_o_ref_a, "r_s_ohm": p.r_s_ohm,
             "r_sh_ref_ohm": p.r_sh_ref_ohm, "a_ref_v": p.a_ref_v, "alpha_sc_a_per_c": p.alpha_sc_a_per_c,
             "cells_in_series": p.cells_in_series, "eg_ref_ev": p.eg_ref_ev, "degdt_per_c": p.degdt_per_c,
+            "adjust_pct": p.adjust_pct,
         },
         "stc": dict(module.fit.stc),
         "relative_error": dict(module.fit.relative_error),
+        "notes": model_notes(module),
     }
+    model = temperature_coefficients(p)
+    ds = module.datasheet
+    given = {"isc": ds.alpha_sc_a_per_c, "voc": ds.beta_voc_v_per_c, "pmax": ds.gamma_pmp_w_per_c} if ds else {}
+    rec["temperature_coefficients"] = {
+        label: {f"model_{unit}_per_c": model[f"d{short}_dt_{unit}_per_c"],
+                "model_pct_per_c": model[f"{label}_temp_coeff_pct"],
+                f"datasheet_{unit}_per_c": given.get(label),
+                "datasheet_pct_per_c": getattr(ds, f"{label}_temp_coeff_pct", None)}
+        for label, short, unit in (("isc", "isc", "a"), ("voc", "voc", "v"), ("pmax", "pmp", "w"))}
     if module.datasheet is not None:
         ds = module.datasheet
         rec["datasheet"] = {"v_oc": ds.v_oc, "i_sc": ds.i_sc, "v_mp": ds.v_mp, "i_mp": ds.i_mp,
                             "p_mp": ds.p_mp_w, "isc_temp_coeff_pct": ds.isc_temp_coeff_pct,
-                            "voc_temp_coeff_pct": ds.voc_temp_coeff_pct, "cells_in_series": ds.cells_in_series}
+                            "voc_temp_coeff_pct": ds.voc_temp_coeff_pct,
+                            "pmax_temp_coeff_pct": ds.pmax_temp_coeff_pct, "noct_c": ds.noct_c,
+                            "cells_in_series": ds.cells_in_series}
     return rec
 
 
@@ -178,11 +192,12 @@ def render_fit(rec: dict) -> str:
     p = rec["parameters"]
     lines = [f"pvsource module fit: {rec['module'] or '(unnamed module)'}",
              f"method      {rec['method']}: {rec['note']}"]
-    lines.append(_rule("De Soto single-diode parameters at STC"))
+    lines.append(_rule(("CEC six-parameter" if rec["method"] == "six_parameter" else "De Soto") +
+                       " single-diode parameters at STC"))
     rows = [("I_L  light current", p["i_l_ref_a"], "A"), ("I_0  saturation current", p["i_o_ref_a"], "A"),
             ("R_s  series resistance", p["r_s_ohm"], "ohm"), ("R_sh shunt resistance", p["r_sh_ref_ohm"], "ohm"),
             ("a    modified ideality n Ns kT/q", p["a_ref_v"], "V"),
-            ("alpha_sc", p["alpha_sc_a_per_c"], "A/degC")]
+            ("alpha_sc", p["alpha_sc_a_per_c"], "A/degC"), ("adjustment of alpha_sc (CEC)", p["adjust_pct"], "%")]
     for label, value, unit in rows:
         lines.append(f"  {label:<34} {value:.6g} {unit}")
     lines.append(f"  {'cells in series':<34} {p['cells_in_series']}")
@@ -196,6 +211,15 @@ def render_fit(rec: dict) -> str:
         if ds:
             row += f" {ds[k]:>10.4f} {unit} {100 * rec['relative_error'][k]:>+9.4f} %"
         lines.append(row)
+    lines.append(_rule("Temperature coefficients at STC [%/degC]: the model's (finite differences)"))
+    lines.append(f"  {'':<6} {'model':>12}" + (f" {'datasheet':>12}" if ds else ""))
+    for k, tc in rec["temperature_coefficients"].items():
+        given = tc["datasheet_pct_per_c"]
+        lines.append(f"  {k:<6} {tc['model_pct_per_c']:>+12.4f}"
+                     + (f" {'not given' if given is None else f'{given:+.4f}':>12}" if ds else ""))
+    if ds and ds.get("noct_c") is not None:
+        lines.append(f"  NOCT (datasheet) {ds['noct_c']:g} degC")
+    lines.extend(f"\nNOTE: {n}" for n in rec["notes"])
     return "\n".join(lines)
 
 
@@ -295,6 +319,7 @@ def render_checks(system: System, rec: dict) -> str:
             rating = "no rating given" if d["ampacity_a"] is None else f"rating {d['ampacity_a']:g} A"
             lines.append(f"  {d['run']:<24} circuit {d['circuit_current_a']:7.2f} A   conductor "
                          f"{d['conductor_current_a']:7.2f} A   {rating}")
+    lines.extend(f"\nNOTE: {n}" for n in rec.get("notes", ()))
     lines.append(render_cautions(cautions.WIRING))
     return "\n".join(lines)
 

@@ -57,11 +57,36 @@ def test_point_takes_per_group_conditions(capsys):
 def test_fit_reports_parameters_and_errors(capsys):
     code, out, _ = run(capsys, "fit", str(DATA / "modules" / "ashgrove-ag300.toml"), "--json")
     rec = json.loads(out)
-    assert code == 0 and rec["method"] == "desoto"
+    assert code == 0 and rec["method"] == "six_parameter"
     assert set(rec["relative_error"]) == {"v_oc", "i_sc", "v_mp", "i_mp", "p_mp"}
     assert max(abs(e) for e in rec["relative_error"].values()) < 1e-6
+    # Reference: the datasheet file's own coefficient (-0.37 %/degC), beside
+    # which the model's finite-difference slope is shown.
+    pmax = rec["temperature_coefficients"]["pmax"]
+    assert pmax["datasheet_pct_per_c"] == -0.37
+    assert pmax["model_pct_per_c"] == pytest.approx(-0.37, rel=0.01)
+    assert pmax["model_w_per_c"] == pytest.approx(-0.0037 * 33.0 * 9.2, rel=0.01)
+    assert rec["notes"] == []
     code, out, _ = run(capsys, "fit", str(DATA / "modules" / "ashgrove-ag300.toml"))
-    assert "De Soto" in out and "i_mp" in out
+    assert "six-parameter" in out and "i_mp" in out and "pmax" in out
+
+
+def test_without_the_power_coefficient_fit_point_and_check_say_hot_power_may_be_optimistic(capsys, tmp_path):
+    text = (DATA / "modules" / "ashgrove-ag300.toml").read_text()
+    sheet = tmp_path / "sheet.toml"
+    sheet.write_text("\n".join(line for line in text.splitlines() if not line.startswith("pmax_temp_coeff_pct")))
+    code, out, _ = run(capsys, "fit", str(sheet), "--json")
+    rec = json.loads(out)
+    assert code == 0 and rec["method"] == "desoto"
+    assert rec["temperature_coefficients"]["pmax"]["datasheet_pct_per_c"] is None
+    assert any("pmax_temp_coeff_pct" in n for n in rec["notes"])
+    system = tmp_path / "system.toml"
+    system.write_text(GOOD.replace("pmax_temp_coeff_pct", "# pmax_temp_coeff_pct"))
+    for args in (("point", str(system)), ("check", str(system), "--min-temp", "-20", "--max-temp", "40")):
+        code, out, _ = run(capsys, *args)
+        assert code == 0 and "hot-cell power may be optimistic" in out and "pmax_temp_coeff_pct" in out
+    code, out, _ = run(capsys, "point", str(DATA / "example-system.toml"))
+    assert code == 0 and "hot-cell power may be optimistic" not in out
 
 
 def _bad_file(tmp_path, text):
@@ -81,6 +106,10 @@ GOOD = (DATA / "example-system.toml").read_text().replace('file = "modules/ashgr
     (("length_m = 12", "length_m = -1"), "[[cable]] #1.length_m"),
     (("v_mp = 33.0", "v_mp = 45.0"), "[module].v_mp"),
     (("emf_v = 26.4", 'emf_v = "twenty"'), "[load].emf_v"),
+    (("pmax_temp_coeff_pct = -0.37", "pmax_temp_coeff_pct = 0.37"), "[module].pmax_temp_coeff_pct"),
+    (("pmax_temp_coeff_pct = -0.37", 'pmax_temp_coeff_pct = "-0.37 %"'), "[module].pmax_temp_coeff_pct"),
+    (("noct_c = 45", "noct_c = 318"), "[module].noct_c"),
+    (("noct_c = 45", "noct_c = 45\nr_s_ohm = 0.3"), "[module]"),
 ])
 def test_bad_system_files_exit_2_with_one_line(capsys, tmp_path, edit, field):
     assert edit[0] in GOOD
@@ -241,7 +270,7 @@ def test_nested_module_files_resolve_from_their_own_folder(capsys, tmp_path):
     (tmp_path / "lib" / "alias.toml").write_text('[module]\nfile = "real.toml"\n')
     (tmp_path / "lib" / "real.toml").write_text((DATA / "modules" / "ashgrove-ag300.toml").read_text())
     code, out, _ = run(capsys, "fit", str(tmp_path / "lib" / "alias.toml"), "--json")
-    assert code == 0 and json.loads(out)["method"] == "desoto"
+    assert code == 0 and json.loads(out)["method"] == "six_parameter"
 
 
 def test_an_unexpected_failure_is_still_one_line(capsys, monkeypatch):

@@ -50,7 +50,7 @@ def test_the_issue_form_is_accepted(tmp_path):
 def test_shipped_examples_load():
     one = load_system(DATA / "example-system.toml")
     two = load_system(DATA / "example-two-faces.toml")
-    assert one.module.fit.method == "desoto"
+    assert one.module.fit.method == "six_parameter"
     assert two.group_names == ("east", "west")
     assert two.wiring.r_home_ohm[1] == pytest.approx(2 * 15 * 5.09 / 1000)
 

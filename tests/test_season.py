@@ -177,3 +177,15 @@ def test_an_interrupt_leaves_no_half_written_file(capsys, tmp_path, monkeypatch)
     json.loads((out / "summary.json").read_text())
     assert len(pd.read_parquet(out / "steps.parquet")) == 8760
     assert not (out / "report.html").exists()
+
+
+def test_the_season_notes_say_when_hot_cell_power_may_be_optimistic(demo_run, demo_module):
+    # The shipped demo gives pmax_temp_coeff_pct (six-parameter fit): no note;
+    # the same system with a five-parameter module: the note and its remedy.
+    from dataclasses import replace
+
+    system, weather, result = demo_run
+    assert system.module.fit.method == "six_parameter"
+    assert not any("hot-cell power" in n for n in result.notes)
+    short = run_season(replace(system, module=demo_module), weather.iloc[: 24 * 3])
+    assert any("hot-cell power may be optimistic" in n and "pmax_temp_coeff_pct" in n for n in short.notes)
