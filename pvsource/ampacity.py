@@ -1,0 +1,304 @@
+"""Conductor ampacity from the standards' tables, with their corrections.
+
+AWG and kcmil sizes follow NFPA 70 (NEC):
+
+- Table 310.16 (not more than three current-carrying conductors in raceway,
+  cable or earth) or Table 310.17 (single conductors in free air), in the
+  column of the insulation's temperature rating, 60, 75 or 90 °C;
+- the ambient correction of Table 310.15(B)(1)(1), based on 30 °C;
+- the adjustment of Table 310.15(C)(1) for more than three current-carrying
+  conductors together;
+- the termination limit of 110.14(C): the equipment's terminals, 75 °C unless
+  it says otherwise, cap the table column the conductor may be used at.
+
+Metric sizes follow IEC 60364-5-52: copper, two loaded conductors (one DC
+circuit), PVC (70 °C) or XLPE/EPR (90 °C), reference installation methods
+A1, A2, B1, B2, C and E, with the ambient factors of Table B.52.14 and the
+grouping factors of Table B.52.17 (item 1). A DC circuit is two loaded
+conductors, so conductors together count as half as many circuits.
+
+Every table is a data file in ``data/ampacity/`` with a source beside each value.
+
+A conductor is adequate for a circuit whose maximum current is I_max when
+(NEC 690.8(B), 110.14(C)):
+
+- 1.25 I_max ≤ the table value in the termination's column, uncorrected; and
+- I_max ≤ the table value in the insulation's column × the corrections.
+
+Together: 1.25 I_max ≤ min(termination value, 1.25 × corrected value), the
+:attr:`Ampacity.limit_a` every check and size choice here compares with.
+IEC 60364-5-52 has no termination rule of this kind, and IEC 60364-7-712
+asks I_z ≥ I_max (with I_max = 1.25 Isc for PV): the same comparison with no
+termination cap.
+
+References
+----------
+.. [1] NFPA 70, National Electrical Code (2023), 110.14(C), 310.15(B)(1),
+   310.15(C)(1), Tables 310.16 and 310.17, 690.8(B).
+.. [2] IEC 60364-5-52:2009, Low-voltage electrical installations, Part 5-52:
+   Wiring systems, Annex B (Tables B.52.2, B.52.4, B.52.10, B.52.12, B.52.14, B.52.17).
+.. [3] IEC 60364-7-712, Solar photovoltaic (PV) power supply systems.
+"""
+
+from __future__ import annotations
+
+import csv
+import math
+from dataclasses import dataclass
+from pathlib import Path
+
+from pvsource.conductors import ConductorSize, material_properties, parse_size, standard_sizes
+from pvsource.errors import InputError
+
+_DATA = Path(__file__).parent / "data" / "ampacity"
+
+#: Installation names: NEC's two tables, and the IEC reference methods.
+NEC_INSTALLS = ("raceway", "free-air")
+IEC_METHODS = ("A1", "A2", "B1", "B2", "C", "E")
+#: What the two general names mean for a metric size (IEC reference method).
+IEC_FOR_GENERAL = {"raceway": "B1", "free-air": "E"}
+INSTALLS = NEC_INSTALLS + IEC_METHODS
+
+#: Defaults, documented in the README. 90 °C: PV wire, USE-2, THWN-2 and
+#: XLPE solar cable are rated for it (common practice). 30 °C: the base of both
+#: standards' tables (give the site's design high for outdoor runs). Two
+#: conductors: one DC circuit alone. 75 °C terminations: NEC 110.14(C)(1).
+DEFAULT_INSULATION_C = 90.0
+DEFAULT_AMBIENT_C = 30.0
+DEFAULT_CONDUCTORS_TOGETHER = 2
+DEFAULT_INSTALL = "raceway"
+DEFAULT_TERMINATION_C = 75.0
+#: NEC 690.8(B)(1) and 215.2(A)(1): conductors carry 125 % of a continuous current.
+CONTINUOUS_FACTOR = 1.25
+
+
+def _read(name: str) -> list[dict[str, str]]:
+    with open(_DATA / name, newline="", encoding="utf-8") as fh:
+        return list(csv.DictReader(fh))
+
+
+NEC_TABLES = {(r["install"], r["size"], r["material"], float(r["insulation_c"])): float(r["ampacity_a"])
+              for r in _read("nec_310_16_17.csv")}
+NEC_AMBIENT = sorted((float(r["insulation_c"]), float(r["ambient_max_c"]), float(r["factor"]))
+                     for r in _read("nec_310_15_b1.csv"))
+NEC_ADJUSTMENT = sorted((int(r["conductors_max"]), float(r["factor"])) for r in _read("nec_310_15_c1.csv"))
+IEC_TABLES = {(r["method"], float(r["insulation_c"]), float(r["area_mm2"])): float(r["ampacity_a"])
+              for r in _read("iec_60364_5_52_copper.csv")}
+IEC_AMBIENT = sorted((float(r["insulation_c"]), float(r["ambient_max_c"]), float(r["factor"]))
+                     for r in _read("iec_60364_5_52_b52_14.csv"))
+IEC_GROUPING = sorted((int(r["circuits_max"]), float(r["factor"])) for r in _read("iec_60364_5_52_b52_17.csv"))
+#: NEC 240.6(A) standard ampere ratings of fuses and inverse-time breakers [A].
+STANDARD_RATINGS_A = tuple(sorted(float(r["rating_a"]) for r in _read("nec_240_6_a.csv")))
+
+
+@dataclass(frozen=True)
+class Installation:
+    """How a run is installed, for its ampacity.
+
+    Attributes
+    ----------
+    insulation_c : float
+        Insulation temperature rating [°C]: 60, 75 or 90 (AWG); 70 (PVC) or 90 (XLPE) (metric).
+    ambient_c : float
+        Ambient air temperature around the run [°C].
+    conductors_together : int
+        Current-carrying conductors in the same raceway, cable or bundle (a DC circuit is two).
+    install : str
+        ``raceway`` or ``free-air``, or an IEC 60364-5-52 reference method for metric sizes.
+    termination_c : float
+        Temperature rating of the terminations [°C] (NEC 110.14(C)).
+    """
+
+    insulation_c: float = DEFAULT_INSULATION_C
+    ambient_c: float = DEFAULT_AMBIENT_C
+    conductors_together: int = DEFAULT_CONDUCTORS_TOGETHER
+    install: str = DEFAULT_INSTALL
+    termination_c: float = DEFAULT_TERMINATION_C
+
+
+def check_installation(inst: Installation, where: str, names: dict | None = None) -> Installation:
+    """Refuse impossible installation values; ``names`` maps field to the name the user typed."""
+    names = names or {}
+
+    def fail(field, expected):
+        raise InputError(where, names.get(field, field), expected)
+
+    if inst.install not in INSTALLS:
+        fail("install", f"expected one of {', '.join(INSTALLS)}, got {inst.install!r}")
+    if inst.insulation_c not in (60.0, 70.0, 75.0, 90.0):
+        fail("insulation_c", f"expected 60, 75 or 90 (NEC) or 70 or 90 (IEC), got {inst.insulation_c!r}")
+    if inst.termination_c not in (60.0, 75.0, 90.0):
+        fail("termination_c", f"expected 60, 75 or 90, got {inst.termination_c!r}")
+    if not (math.isfinite(inst.ambient_c) and -50.0 <= inst.ambient_c <= 85.0):
+        fail("ambient_c", f"expected -50 to 85 degC, got {inst.ambient_c!r}")
+    n = inst.conductors_together
+    if isinstance(n, bool) or int(n) != n or not 1 <= n <= 1000:
+        fail("conductors_together", f"expected a whole number from 1 to 1000, got {n!r}")
+    return inst
+
+
+@dataclass(frozen=True)
+class Ampacity:
+    """A size's ampacity in an installation.
+
+    Attributes
+    ----------
+    table_a : float
+        The table's value in the insulation's column [A].
+    ambient_factor, grouping_factor : float
+        The corrections [-].
+    corrected_a : float
+        ``table_a`` × the corrections: the conductor's ampacity [A].
+    termination_a : float
+        The table's value in the termination's column, uncorrected (NEC
+        110.14(C)); infinite for metric sizes [A].
+    basis : str
+        The tables used, in words.
+    """
+
+    table_a: float
+    ambient_factor: float
+    grouping_factor: float
+    corrected_a: float
+    termination_a: float
+    basis: str
+
+    @property
+    def limit_a(self) -> float:
+        """The most that 1.25 × I_max may be: min(termination value, 1.25 × corrected) [A]."""
+        return min(self.termination_a, CONTINUOUS_FACTOR * self.corrected_a)
+
+    @property
+    def max_circuit_current_a(self) -> float:
+        """The largest maximum circuit current I_max this conductor may carry [A]."""
+        return self.limit_a / CONTINUOUS_FACTOR
+
+
+def _band(rows, column: float, value: float) -> float | None:
+    """The factor of the first band of ``column`` whose upper end reaches ``value``; None past the last."""
+    for col, upper, factor in rows:
+        if col == column and value <= upper:
+            return factor
+    return None
+
+
+def _count(rows, n: int) -> float:
+    for upper, factor in rows:
+        if n <= upper:
+            return factor
+    return rows[-1][1]
+
+
+def nec_ambient_factor(insulation_c: float, ambient_c: float) -> float:
+    """NEC Table 310.15(B)(1)(1) factor for an ambient [°C] and insulation column; 0 past the table."""
+    f = _band(NEC_AMBIENT, float(insulation_c), float(ambient_c))
+    return 0.0 if f is None else f
+
+
+def nec_adjustment_factor(conductors_together: int) -> float:
+    """NEC Table 310.15(C)(1) factor; 1 for up to three current-carrying conductors."""
+    return _count(NEC_ADJUSTMENT, int(conductors_together))
+
+
+def iec_ambient_factor(insulation_c: float, ambient_c: float) -> float:
+    """IEC 60364-5-52 Table B.52.14 factor, at the tabulated ambient at or above ``ambient_c``; 0 past it."""
+    f = _band(IEC_AMBIENT, float(insulation_c), float(ambient_c))
+    return 0.0 if f is None else f
+
+
+def iec_grouping_factor(circuits: int) -> float:
+    """IEC 60364-5-52 Table B.52.17 item 1, at the listed count at or above ``circuits``."""
+    return _count(IEC_GROUPING, int(circuits))
+
+
+def ampacity(size: str | ConductorSize, material: str, inst: Installation = Installation(),
+             where: str = "ampacity") -> Ampacity:
+    """The ampacity of one conductor of ``size`` in ``inst``.
+
+    Raises
+    ------
+    InputError
+        When the tables have no value for the size, metal, insulation or
+        installation (the message says which, and that ``ampacity_a`` may be given).
+    """
+    s = parse_size(size, allow_nonstandard=True, where=where)
+    mat = material_properties(material, where).name
+    check_installation(inst, where)
+    give = "; give the run's ampacity_a instead"
+    if s.series == "awg":
+        if inst.install not in NEC_INSTALLS:
+            raise InputError(where, "install", f"{inst.install!r} is an IEC method; an AWG size takes raceway or "
+                                               "free-air (NEC 310.16 or 310.17)")
+        if inst.insulation_c not in (60.0, 75.0, 90.0):
+            raise InputError(where, "insulation_c", f"NEC 310.16 has 60, 75 and 90 degC columns, not {inst.insulation_c:g}")
+        table = "310.16" if inst.install == "raceway" else "310.17"
+        key = (inst.install, s.label, mat, inst.insulation_c)
+        if key not in NEC_TABLES:
+            raise InputError(where, "size", f"NEC Table {table} has no {inst.insulation_c:g} degC {mat} value for "
+                                            f"{s.label}{give}")
+        col_t = min(inst.termination_c, inst.insulation_c)
+        term = NEC_TABLES.get((inst.install, s.label, mat, col_t), 0.0)
+        k_t = nec_ambient_factor(inst.insulation_c, inst.ambient_c)
+        k_g = nec_adjustment_factor(inst.conductors_together)
+        basis = (f"NEC Table {table} ({inst.insulation_c:g} degC column), 310.15(B)(1) ambient "
+                 f"{inst.ambient_c:g} degC, 310.15(C)(1) for {inst.conductors_together} conductors, "
+                 f"110.14(C) {col_t:g} degC terminations")
+        return Ampacity(NEC_TABLES[key], k_t, k_g, NEC_TABLES[key] * k_t * k_g, term, basis)
+    method = IEC_FOR_GENERAL.get(inst.install, inst.install)
+    if mat != "copper":
+        raise InputError(where, "material", f"pvsource holds IEC 60364-5-52's copper tables only, not {mat}{give}")
+    if inst.insulation_c not in (70.0, 90.0):
+        raise InputError(where, "insulation_c", f"IEC 60364-5-52 tabulates 70 (PVC) and 90 (XLPE) degC, "
+                                                f"not {inst.insulation_c:g}")
+    key = (method, inst.insulation_c, s.area_mm2)
+    if key not in IEC_TABLES:
+        raise InputError(where, "size", f"IEC 60364-5-52 as held here runs from 1.5 to 300 mm2, not {s.label}{give}")
+    circuits = math.ceil(inst.conductors_together / 2)
+    k_t = iec_ambient_factor(inst.insulation_c, inst.ambient_c)
+    k_g = iec_grouping_factor(circuits)
+    basis = (f"IEC 60364-5-52 method {method} ({'XLPE' if inst.insulation_c == 90 else 'PVC'}, two loaded "
+             f"conductors), Table B.52.14 ambient {inst.ambient_c:g} degC, Table B.52.17 for {circuits} circuit(s)")
+    return Ampacity(IEC_TABLES[key], k_t, k_g, IEC_TABLES[key] * k_t * k_g, math.inf, basis)
+
+
+def smallest_size_for_current(max_circuit_current_a: float, series: str, material: str,
+                              inst: Installation = Installation(), conductors_in_parallel: int = 1,
+                              where: str = "ampacity"):
+    """Smallest standard size of a series whose ampacity carries ``max_circuit_current_a`` (I_max) [A].
+
+    Each of ``conductors_in_parallel`` conductors carries an equal share.
+    Sizes the tables lack are skipped.
+
+    Returns
+    -------
+    tuple (ConductorSize, Ampacity)
+
+    Raises
+    ------
+    InputError
+        When no tabulated size is large enough.
+    """
+    share = max_circuit_current_a / conductors_in_parallel
+    largest = None
+    for s in standard_sizes(series):
+        try:
+            amp = ampacity(s, material, inst, where)
+        except InputError as exc:
+            if exc.field == "size":
+                continue
+            raise
+        largest = (s, amp)
+        if CONTINUOUS_FACTOR * share <= amp.limit_a:
+            return s, amp
+    biggest = f"the largest tabulated, {largest[0].label}, carries {largest[1].max_circuit_current_a:.0f} A" \
+        if largest else "no size is tabulated for this installation"
+    raise InputError(where, "ampacity", f"no standard size carries {share:.1f} A per conductor: {biggest}; "
+                                        "use conductors in parallel or a cooler installation")
+
+
+def next_standard_rating(current_a: float) -> float:
+    """Smallest NEC 240.6(A) standard rating at or above ``current_a`` [A]."""
+    for r in STANDARD_RATINGS_A:
+        if r >= current_a - 1e-9:
+            return r
+    raise InputError("overcurrent protection", None, f"{current_a:.0f} A is above the largest standard rating")
