@@ -1,29 +1,54 @@
-"""Safety cautions the tool prints with its results.
+"""Safety cautions the tool prints with its results, chosen to fit what was computed.
 
-pvsource computes; it does not certify. These lines travel with every result
-a person might build from, and defer to local codes and licensed practice.
+pvsource computes; it does not certify. Each command shows the cautions that
+apply to its result (:func:`for_command`); the closing deferral to local
+codes and licensed practitioners ends every list.
 """
 
-GENERAL = (
-    "PV strings are live whenever light falls on them; covering or disconnecting does not make the array "
-    "side safe.",
-    "DC arcs do not self-extinguish: open DC circuits under load only with devices rated for DC at the "
-    "string's maximum voltage.",
-    "Battery banks can deliver very large short-circuit currents; protect every battery conductor with a "
-    "fuse or breaker rated for DC and for the bank's fault current, close to the bank.",
-    "Conductors carrying more than their rating overheat; size for current and temperature, not voltage "
-    "drop alone.",
-    "These results are estimates from a model; the design must follow local electrical codes and be "
-    "reviewed and installed by licensed practitioners.",
-)
+PV_LIVE = ("PV strings are live whenever light falls on them; covering or disconnecting does not make the array "
+           "side safe.")
+DC_ARC = ("DC arcs do not self-extinguish: open DC circuits under load only with devices rated for DC at the "
+          "string's maximum voltage.")
+BATTERY_FAULT = ("Battery banks can deliver very large short-circuit currents; protect every battery conductor with a "
+                 "fuse or breaker rated for DC and for the bank's fault current, close to the bank.")
+CONDUCTOR = ("Conductors carrying more than their rating overheat; size for current and temperature, not voltage "
+             "drop alone.")
+DROP_IS_EFFICIENCY = ("A voltage-drop budget is about efficiency. Conductor ampacity, insulation rated for DC, sunlight "
+                      "and wet locations, and overcurrent protection are separate requirements.")
+TERMINATION = ("Terminations carry the same current as the cable: use lugs and terminals rated for the conductor's "
+               "metal and temperature (NEC 110.14(C), usually 75 degC) and torque them as the maker specifies.")
+COLD_VOC = "Voc rises as cells cool: check the string against the site's record low, not a design day."
+BATTERY_CABLES = "Size battery cables and their fuses for the bank's fault current, not for the PV current."
+STRING_FUSES = ("With three or more strings in parallel, a faulted string takes the other strings' current backwards: "
+                "string fuses or a rating for that backfeed are needed (NEC 690.9, or the local equivalent).")
+CLOSING = ("These results are estimates from a model; the design must follow local electrical codes and be "
+           "reviewed and installed by licensed practitioners.")
 
-WIRING = (
-    "Voc rises as cells cool: check the string against the site's record low, not a design day.",
-    "A voltage-drop budget is about efficiency. Conductor ampacity, insulation rated for DC, sunlight and wet "
-    "locations, and overcurrent protection are separate requirements.",
-    "Size battery cables and their fuses for the bank's fault current, not for the PV current.",
-    "With three or more strings in parallel, a faulted string takes the other strings' current backwards: "
-    "string fuses or a rating for that backfeed are needed (NEC 690.9, or the local equivalent).",
-    "Terminations carry the same current as the cable: torque them as the maker specifies and use lugs rated "
-    "for the conductor's metal.",
-)
+# The full sets, for the season report that covers everything.
+GENERAL = (PV_LIVE, DC_ARC, BATTERY_FAULT, CONDUCTOR, CLOSING)
+WIRING = (COLD_VOC, DROP_IS_EFFICIENCY, BATTERY_CABLES, STRING_FUSES, TERMINATION)
+
+
+def for_command(command: str, system=None) -> list[str]:
+    """The cautions for one command's result, ending with :data:`CLOSING`.
+
+    Parameters
+    ----------
+    command : {"quick-wire", "wire", "check", "point"}
+    system : System, optional
+        Adds the battery cautions when it has a bank, and the string-fuse
+        caution from three strings in parallel.
+    """
+    items = []
+    if command in ("quick-wire", "wire", "check"):
+        items += [CONDUCTOR, DROP_IS_EFFICIENCY, TERMINATION]
+    if command in ("point", "check"):
+        items += [PV_LIVE, DC_ARC]
+    if command == "check":
+        items.append(COLD_VOC)
+    if system is not None and command != "quick-wire":
+        if system.bank is not None or system.load.kind == "battery":
+            items += [BATTERY_FAULT] + ([BATTERY_CABLES] if command in ("wire", "check") else [])
+        if command in ("wire", "check") and sum(g.strings for g in system.groups) >= 3:
+            items.append(STRING_FUSES)
+    return [*items, CLOSING]

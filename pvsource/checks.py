@@ -8,28 +8,40 @@ the equipment's limits:
   controller's maximum input voltage;
 - the lowest string Vmp at the record high, with cells a stated rise above
   the air in full sun, against the lowest voltage the controller or bank needs;
-- the maximum circuit current 1.25 x Isc and the conductor current
-  1.25 x 1.25 x Isc of each PV-side run against its rating, where given.
+- every run's maximum circuit current (NEC 690.8(A): 1.25 x Isc on the PV
+  side, the controller's rated output behind a tracker) against its ampacity
+  from the tables (:mod:`pvsource.ampacity`) or its typed rating;
+- string fuses (NEC 690.9): whether they are needed, the rating, and the
+  module's maximum series fuse;
+- the controller's input short-circuit current and output power;
+- the bank's prospective short-circuit current against the interrupting
+  rating of its fuse or breaker, and each run's fuse against its conductor.
 
-Every check names its basis: a published standard, or "common practice".
+Every check names its basis: a published standard, or "common practice",
+and the rule it applies in words (``rule``), for reasons and reports.
 
 References
 ----------
 .. [1] NFPA 70, National Electrical Code (2023), 690.7(A) (maximum PV system
    voltage, with Table 690.7(A) for crystalline silicon) and 690.8(A)(1),
-   690.8(B)(1) (circuit current and conductor sizing factors).
+   690.8(B)(1) (circuit current and conductor sizing factors), 690.9
+   (overcurrent protection), 240.4(B) and 240.6(A) (standard ratings), 110.9
+   (interrupting rating).
 """
 
 from __future__ import annotations
 
-from dataclasses import asdict, dataclass
+import math
+from dataclasses import asdict, dataclass, field
 
 import numpy as np
 from pvlib import pvsystem
 
+from pvsource import ampacity as amp
+from pvsource import conductors
 from pvsource.module import STC_CELL_TEMP_C, STC_IRRADIANCE_W_M2, parameters_at
 from pvsource.system import System
-from pvsource.wiring import PV_SIDE_ROLES
+from pvsource.wiring import PV_SIDE_ROLES, run_ampacity
 
 # Common practice: in full sun, cells of rack- or roof-mounted modules run
 # some 25-35 degC above the air; the high end makes the low-Vmp check cautious.
@@ -59,6 +71,13 @@ class Check:
         ``"max"`` (value must not exceed the limit) or ``"min"`` (must reach it).
     detail : str
         How the value was obtained, in one sentence.
+    rule : str
+        The rule in words, e.g. "ampacity" or "voltage window".
+    data : dict
+        Further fields for the JSON record.
+    advisory : bool
+        True for a check that warns of lost energy rather than a hazard or a
+        code rule: it never fails ``check`` nor excludes a design.
     """
 
     name: str
@@ -69,6 +88,14 @@ class Check:
     basis: str
     sense: str = "max"
     detail: str = ""
+    rule: str = ""
+    data: dict = field(default_factory=dict)
+    advisory: bool = False
+
+    @property
+    def failed(self) -> bool:
+        """A real failure: not passed, and not advisory."""
+        return self.passed is False and not self.advisory
 
     @property
     def margin(self) -> float | None:
@@ -81,8 +108,14 @@ class Check:
 
     def record(self) -> dict:
         rec = asdict(self)
+        rec.update(rec.pop("data"))
         rec["margin"] = self.margin
         return rec
+
+    def reason(self) -> str:
+        """Why a failed check excludes a design, in words."""
+        limit = "no limit" if self.limit is None else f"{self.limit:.1f} {self.unit}"
+        return f"{self.rule or self.name} ({self.name}): {self.value:.1f} {self.unit} against {limit}"
 
 
 def _modules(n: int) -> str:
@@ -130,7 +163,8 @@ def max_string_voc(system: System, min_air_c: float) -> Check:
         detail += "; no [controller].max_input_v given to compare with"
     return Check("max_string_voc", value, limit, "V", _compare(value, limit, "max"),
                  "NEC 690.7(A)(1) (manufacturer's Voc coefficient); cells at air temperature at first light: "
-                 "common practice", "max", detail)
+                 "common practice", "max", detail,
+                 "voltage window: the coldest string Voc must stay within the controller's maximum input")
 
 
 def _pv_side_drop_v(system: System, string_current_a: float) -> float:
@@ -181,49 +215,198 @@ def min_string_vmp(system: System, max_air_c: float, cell_rise_c: float = DEFAUL
               f"compared with {against}")
     return Check("min_string_vmp", value, limit, "V", _compare(value, limit, "min"),
                  f"common practice: Vmp in full sun with cells {cell_rise_c:g} degC above the hottest air, "
-                 "at the controller's input", "min", detail)
+                 "at the controller's input", "min", detail,
+                 "voltage window: the hottest Vmp must stay above what the controller or bank needs")
 
 
-def design_currents(system: System) -> list[dict]:
-    """Maximum circuit current and conductor design current of every PV-side run.
+def _battery_side_current(system: System) -> tuple[float, str] | None:
+    """Maximum current of the bank-side runs behind a tracker [A], and its basis; None when the PV current flows."""
+    c = system.controller
+    if system.bank is None or c is None or c.kind != "mppt":
+        return None
+    if c.max_output_a is not None:
+        return c.max_output_a, f"the controller's rated output {c.max_output_a:g} A (NEC 690.8(A)(1), converter output)"
+    from pvsource import bank as bank_model
 
-    1.25 x the Isc of the strings the run carries (NEC 690.8(A)(1)), and 1.25
-    times that for the conductor (NEC 690.8(B)(1)).
+    v_abs, _ = bank_model.charge_voltages_v(system.bank, system.bank.temp_c)
+    return c.rated_power_w / float(v_abs), (f"the controller's rated power {c.rated_power_w:g} W over the bank's "
+                                            f"{float(v_abs):.1f} V absorption voltage")
+
+
+def design_currents(system: System, defaults: amp.Installation = amp.Installation()) -> list[dict]:
+    """Maximum circuit current, conductor design current and ampacity of every run.
+
+    I_max is 1.25 x the Isc of the strings the run carries (NEC 690.8(A)(1))
+    on the PV side, and the controller's rated output on a tracker's bank
+    side; the conductor must carry 1.25 x I_max (NEC 690.8(B)). The ampacity
+    comes from the tables for the run's installation (``defaults`` fill what
+    the file leaves out), or from the run's typed ``ampacity_a`` for its own size.
     """
     isc = module_isc_stc(system)
     strings = {g.name: g.strings for g in system.groups}
     total = sum(strings.values())
+    battery = _battery_side_current(system)
     out = []
     for run in system.cables:
-        if run.role not in PV_SIDE_ROLES:
-            continue
-        carried = 1 if run.role == "string" else strings[run.group] if run.role == "home-run" else total
-        circuit = CIRCUIT_CURRENT_FACTOR * carried * isc
+        if run.role in ("bank", "interconnect") and battery is not None:
+            carried, (circuit, how) = None, battery
+        else:
+            carried = 1 if run.role == "string" else strings[run.group] if run.role == "home-run" else total
+            circuit = CIRCUIT_CURRENT_FACTOR * carried * isc
+            how = f"{carried} string(s) x Isc {isc:g} A x 1.25 (NEC 690.8(A)(1))"
+        a = run_ampacity(run, defaults)
+        n = run.conductors_in_parallel
         out.append({"run": run.name, "role": run.role, "strings_carried": carried,
-                    "circuit_current_a": circuit,
-                    "conductor_current_a": CONDUCTOR_CURRENT_FACTOR * circuit,
-                    "ampacity_a": run.ampacity_a})
+                    "circuit_current_a": circuit, "conductor_current_a": CONDUCTOR_CURRENT_FACTOR * circuit,
+                    "current_basis": how,
+                    "ampacity_a": None if a is None else n * a.corrected_a,
+                    "ampacity_limit_a": None if a is None else n * a.limit_a,
+                    "ampacity_basis": None if a is None else a.basis})
     return out
 
 
-def conductor_current_checks(system: System) -> list[Check]:
-    """Conductor design current against the rating, for the runs whose rating is given."""
+def conductor_current_checks(system: System, defaults: amp.Installation = amp.Installation()) -> list[Check]:
+    """1.25 x I_max of every sized run against its ampacity limit (NEC 690.8(B), 110.14(C))."""
     checks = []
-    for d in design_currents(system):
-        if d["ampacity_a"] is None:
+    for d in design_currents(system, defaults):
+        run = next(r for r in system.cables if r.name == d["run"])
+        if d["ampacity_limit_a"] is None and run.size is None:
             continue
+        limit = d["ampacity_limit_a"]
+        detail = (f"{d['current_basis']}, x 1.25 for the conductor; against "
+                  + (f"{d['ampacity_basis']}: min(termination value, 1.25 x corrected ampacity)"
+                     if limit is not None else "nothing: no table value for this run; give its ampacity_a"))
         checks.append(Check(
-            f"conductor_current[{d['run']}]", d["conductor_current_a"], d["ampacity_a"], "A",
-            _compare(d["conductor_current_a"], d["ampacity_a"], "max"),
-            "NEC 690.8(A)(1) and 690.8(B): 1.25 x Isc, and 1.25 x that for the conductor", "max",
-            f"{d['strings_carried']} string(s) x Isc {module_isc_stc(system):g} A x 1.25 x 1.25 against the "
-            "given rating; conservative when the rating already includes temperature and bundling corrections "
-            "(690.8(B)(2) then asks only 1.25 x Isc)"))
+            f"conductor_current[{d['run']}]", d["conductor_current_a"], limit, "A",
+            _compare(d["conductor_current_a"], limit, "max"),
+            "NEC 690.8(A) and 690.8(B), 110.14(C), 310.15, Table 310.16/310.17; IEC 60364-5-52 for metric sizes",
+            "max", detail, "ampacity: the conductor must carry 125 % of the circuit's maximum current",
+            {"circuit_current_a": d["circuit_current_a"], "ampacity_a": d["ampacity_a"]}))
     return checks
 
 
+def string_fuse_check(system: System) -> Check:
+    """NEC 690.9: are string fuses needed, their rating, and the module's maximum series fuse.
+
+    A faulted string takes the others' current backwards: (N − 1) x 1.25 x
+    Isc. Fuses are needed when that exceeds the module's maximum series fuse
+    (or, without one, from three strings in parallel: common practice). The
+    rating is 1.25 x 1.25 x Isc = 1.56 x Isc (690.9(B)), rounded up to a
+    standard rating of NEC 240.6(A), and must not exceed the module's maximum.
+    """
+    isc = module_isc_stc(system)
+    n = sum(g.strings for g in system.groups)
+    backfeed = (n - 1) * CIRCUIT_CURRENT_FACTOR * isc
+    ds = system.module.datasheet
+    limit = ds.max_series_fuse_a if ds is not None else None
+    needed = backfeed > limit if limit is not None else n >= 3
+    rating = amp.next_standard_rating(CIRCUIT_CURRENT_FACTOR * CONDUCTOR_CURRENT_FACTOR * isc)
+    passed = True if not needed else _compare(rating, limit, "max")
+    why = (f"{n} string(s) in parallel: a faulted string takes up to ({n} - 1) x 1.25 x {isc:g} A = "
+           f"{backfeed:.1f} A backwards, " + (f"{'above' if needed else 'within'} the module's {limit:g} A maximum "
+                                              "series fuse" if limit is not None else
+                                              "and the datasheet gives no max_series_fuse_a"))
+    detail = (f"{why}; fuses {'are' if needed else 'are not'} needed; rating 1.56 x {isc:g} A = "
+              f"{1.5625 * isc:.1f} A, rounded up to {rating:g} A (NEC 240.6(A))")
+    return Check("string_fuse", rating, limit, "A", passed, "NEC 690.9(A) and (B), 240.6(A)", "max", detail,
+                 "fuse: a string fuse must open before the module's maximum series fuse rating is exceeded",
+                 {"needed": bool(needed), "backfeed_a": backfeed})
+
+
+def controller_checks(system: System) -> list[Check]:
+    """The controller's input short-circuit current and output power against the array's."""
+    c = system.controller
+    if c is None:
+        return []
+    isc = module_isc_stc(system)
+    n = sum(g.strings for g in system.groups)
+    out = []
+    value = CIRCUIT_CURRENT_FACTOR * n * isc
+    out.append(Check("controller_input_isc", value, c.max_input_isc_a, "A", _compare(value, c.max_input_isc_a, "max"),
+                     "NEC 690.8(A)(1): 1.25 x the array's Isc", "max",
+                     f"{n} string(s) x Isc {isc:g} A x 1.25" + ("" if c.max_input_isc_a is not None else
+                                                                  "; no [controller].max_input_isc_a given"),
+                     "controller input: the array's short-circuit current must stay within the input's rating"))
+    if c.kind == "mppt" and system.bank is not None:
+        from pvsource import bank as bank_model
+
+        v_abs, _ = bank_model.charge_voltages_v(system.bank, system.bank.temp_c)
+        capability = c.rated_power_w if c.rated_power_w is not None else c.max_output_a * float(v_abs)
+        p_array = sum(g.modules_per_string * g.strings for g in system.groups) * _module_pmp_stc(system)
+        out.append(Check("controller_output_power", p_array, capability, "W", _compare(p_array, capability, "max"),
+                         "common practice: power beyond the controller's output is clipped", "max",
+                         "array STC power against " + (f"rated_power_w {capability:g} W" if c.rated_power_w else
+                                                        f"max_output_a {c.max_output_a:g} A x {float(v_abs):.1f} V"),
+                         "controller output: the array should not make more than the controller can deliver",
+                         advisory=True))
+    return out
+
+
+def _module_pmp_stc(system: System) -> float:
+    ds = system.module.datasheet
+    if ds is not None:
+        return ds.p_mp_w
+    state = parameters_at(system.module.parameters, STC_IRRADIANCE_W_M2, STC_CELL_TEMP_C)
+    return float(np.squeeze(pvsystem.singlediode(state.i_l_a, state.i_o_a, state.r_s_ohm, state.r_sh_ohm,
+                                                 state.a_v)["p_mp"]))
+
+
+def _loop_ohm_at_20c(run) -> float:
+    if run.size is None:
+        return run.loop_resistance_ohm
+    r, _ = conductors.size_resistance(run.size, run.material, 20.0, run.conductor_class, run.resistance_basis)
+    return 2.0 * run.length_m * float(r) / run.conductors_in_parallel
+
+
+def protection_checks(system: System, defaults: amp.Installation = amp.Installation()) -> list[Check]:
+    """The bank's prospective short-circuit current, and each fused run's fuse against its conductor."""
+    out = []
+    if system.bank is not None:
+        from pvsource import bank as bank_model
+
+        ocv = float(bank_model.open_circuit_v(system.bank, 1.0))
+        r_int = float(bank_model.internal_resistance_ohm(system.bank, 1.0, max(system.bank.temp_c, 25.0)))
+        bank_runs = [r for r in system.cables if r.role in ("bank", "interconnect")]
+        r_cable = sum(_loop_ohm_at_20c(r) for r in bank_runs)
+        value = ocv / (r_int + r_cable)
+        ratings = [r.fuse_interrupting_a for r in bank_runs if r.fuse_interrupting_a is not None]
+        limit = min(ratings) if ratings else None
+        out.append(Check(
+            "bank_short_circuit", value, limit, "A", _compare(value, limit, "max"),
+            "NEC 110.9 (interrupting rating at least the available fault current); OCV / (R_internal + R_cable)",
+            "max", f"full-charge OCV {ocv:.2f} V over {r_int * 1000:.2f} mOhm inside the bank and "
+                   f"{r_cable * 1000:.2f} mOhm of bank-side cable at 20 degC, against "
+                   + (f"the smallest fuse_interrupting_a, {limit:g} A" if limit is not None else
+                      "nothing: no fuse_interrupting_a on a bank or interconnect run"),
+            "fault current: the bank's fuse or breaker must interrupt the bank's short-circuit current"))
+    for run in system.cables:
+        if run.fuse_a is None:
+            continue
+        a = run_ampacity(run, defaults)
+        if a is None:
+            limit, how = None, "no ampacity for this run; give its ampacity_a"
+        else:
+            usable = run.conductors_in_parallel * min(a.corrected_a, a.termination_a)
+            std = any(abs(usable - r) < 1e-9 for r in amp.STANDARD_RATINGS_A)
+            limit = usable if std or usable > 800.0 else min(amp.next_standard_rating(usable), 800.0)
+            how = (f"the conductor's {usable:.1f} A ({a.basis})"
+                   + ("" if limit == usable else f", next standard rating up {limit:g} A (NEC 240.4(B))"))
+        out.append(Check(f"fuse_rating[{run.name}]", run.fuse_a, limit, "A", _compare(run.fuse_a, limit, "max"),
+                         "NEC 240.4 and 240.4(B), 240.6(A)", "max", f"fuse_a {run.fuse_a:g} A against {how}",
+                         "fuse: the fuse must protect the conductor it feeds"))
+    return out
+
+
+def all_passed(checks: list[Check]) -> bool | None:
+    """True when every check with a limit passes, False when any non-advisory one fails, None with nothing to compare."""
+    verdicts = [c.passed for c in checks if c.passed is not None and not c.advisory]
+    return all(verdicts) if verdicts else None
+
+
 def design_checks(system: System, min_air_c: float, max_air_c: float,
-                  cell_rise_c: float = DEFAULT_CELL_RISE_C) -> list[Check]:
+                  cell_rise_c: float = DEFAULT_CELL_RISE_C, defaults: amp.Installation = amp.Installation()
+                  ) -> list[Check]:
     """Every check, in a stable order."""
     return [max_string_voc(system, min_air_c), min_string_vmp(system, max_air_c, cell_rise_c),
-            *conductor_current_checks(system)]
+            *conductor_current_checks(system, defaults), string_fuse_check(system), *controller_checks(system),
+            *protection_checks(system, defaults)]

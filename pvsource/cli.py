@@ -27,7 +27,11 @@ _EXITS = tuple({typer.Exit, getattr(_cli_errors, "Exit", typer.Exit)})
 _ABORTS = tuple({typer.Abort, getattr(_cli_errors, "Abort", typer.Abort), KeyboardInterrupt})
 
 from pvsource import __version__, cautions
-from pvsource.checks import DEFAULT_CELL_RISE_C, design_checks, design_currents
+from pvsource.ampacity import (
+    DEFAULT_AMBIENT_C, DEFAULT_CONDUCTORS_TOGETHER, DEFAULT_INSTALL, DEFAULT_INSULATION_C, Installation,
+    check_installation,
+)
+from pvsource.checks import DEFAULT_CELL_RISE_C, all_passed, design_checks, design_currents
 from pvsource.config import load_module, load_system
 from pvsource.errors import ConvergenceError, InputError, PhysicsGuardError
 from pvsource.module import model_notes
@@ -36,7 +40,7 @@ from pvsource.demo import demo_system, synthetic_weather
 from pvsource.plots import sweep_figure
 from pvsource.report import json_ready, prepare_folder, write_report
 from pvsource.season import run_season
-from pvsource.runs import quick_record, wire_record
+from pvsource.runs import DEFAULT_DROP_BUDGET, FOOT_M, quick_record, wire_record
 from pvsource.sweep import run_sweep
 from pvsource.system import Load
 from pvsource.terminal import (
@@ -163,6 +167,32 @@ def point(
         typer.echo(render_point(system, rec))
 
 
+INSTALL_HELP = {
+    "insulation_c": "Insulation temperature rating [degC]: 60, 75 or 90 (AWG, NEC 310.16 columns); 70 (PVC) or 90 "
+                    "(XLPE) for metric sizes. Default 90 (PV wire, XLPE solar cable). A run's own insulation_c wins.",
+    "ambient_c": "Ambient temperature around the runs [degC], for NEC 310.15(B)(1) / IEC B.52.14. Default 30 "
+                 "(the tables' base).",
+    "conductors_together": "Current-carrying conductors in one raceway, cable or bundle (NEC 310.15(C)(1); IEC "
+                           "B.52.17 counts them as circuits of two). Default 2 (one DC circuit).",
+    "install": "raceway (NEC 310.16; IEC method B1) or free-air (NEC 310.17; IEC method E), or an IEC method A1, A2, "
+               "B1, B2, C, E for metric sizes. Default raceway.",
+}
+InsulationOpt = Annotated[float, typer.Option("--insulation-c", help=INSTALL_HELP["insulation_c"])]
+AmbientOpt = Annotated[float, typer.Option("--ambient-c", help=INSTALL_HELP["ambient_c"])]
+TogetherOpt = Annotated[int, typer.Option("--conductors-together", help=INSTALL_HELP["conductors_together"])]
+InstallOpt = Annotated[str, typer.Option("--install", help=INSTALL_HELP["install"])]
+
+
+def _installation(insulation_c, ambient_c, together, install) -> Installation:
+    """The command's installation defaults, checked; errors name the option."""
+    inst = Installation(insulation_c=insulation_c, ambient_c=ambient_c, conductors_together=together, install=install)
+    try:
+        return check_installation(inst, "", {"insulation_c": "--insulation-c", "ambient_c": "--ambient-c",
+                                             "conductors_together": "--conductors-together", "install": "--install"})
+    except InputError as exc:
+        raise InputError(exc.field, None, exc.expected) from None
+
+
 def _budget_fraction(budget_pct):
     if budget_pct is None:
         return None
@@ -176,16 +206,21 @@ def wire(
     system_file: Annotated[Optional[Path], typer.Argument(
         metavar="[SYSTEM.toml]", help="The system file; leave out for one run given by the options below.")] = None,
     budget_pct: Annotated[Optional[float], typer.Option(
-        "--budget-pct", help="Voltage-drop budget per run [% of the circuit voltage].")] = None,
+        "--budget-pct", help="Voltage-drop budget per circuit [% of the circuit voltage]; the PV side and the "
+                             "battery side of a controller each have their own. Default 3 (common practice).")] = None,
     irradiance: Annotated[Optional[list[str]], typer.Option(
         "--irradiance", metavar="W_M2|GROUP=W_M2", help="Design irradiance [W/m2]; default 1000 (STC).")] = None,
     cell_temp: Annotated[Optional[list[str]], typer.Option(
         "--cell-temp", metavar="C|GROUP=C", help="Design cell temperature [degC]; default 25 (STC).")] = None,
     at_mpp: Annotated[bool, typer.Option(
         "--at-mpp", help="Put the array at its maximum power point instead of the system's own load or bank.")] = False,
-    current: Annotated[Optional[float], typer.Option("--current", help="One run: current [A].")] = None,
+    current: Annotated[Optional[float], typer.Option(
+        "--current", help="One run: the circuit's maximum current [A] (for a PV circuit, 1.25 x Isc); the drop is "
+                          "taken at it and the conductor must carry 1.25 x it.")] = None,
     length_m: Annotated[Optional[float], typer.Option(
         "--length-m", help="One run: one-way route length of the two-conductor circuit [m].")] = None,
+    length_ft: Annotated[Optional[float], typer.Option(
+        "--length-ft", help="One run: the one-way length in feet, instead of --length-m.")] = None,
     size: Annotated[Optional[str], typer.Option(
         "--size", help='One run: conductor size, e.g. "10 AWG", "2/0 AWG", "250 kcmil", "6 mm2".')] = None,
     material: Annotated[str, typer.Option("--material", help="One run: copper or aluminium.")] = "copper",
@@ -196,11 +231,22 @@ def wire(
     resistance_basis: Annotated[str, typer.Option(
         "--resistance-basis", help="One run: table (IEC 60228 or NEC Chapter 9 Table 8, the default) or computed "
                                    "(resistivity, area and stranding).")] = "table",
+    insulation_c: InsulationOpt = DEFAULT_INSULATION_C,
+    ambient_c: AmbientOpt = DEFAULT_AMBIENT_C,
+    conductors_together: TogetherOpt = DEFAULT_CONDUCTORS_TOGETHER,
+    install: InstallOpt = DEFAULT_INSTALL,
     as_json: Annotated[bool, typer.Option("--json", help="Print one JSON object instead of tables.")] = False,
 ):
-    """Voltage drop and loss of every cable run, and the smallest size that meets a budget."""
+    """Voltage drop, loss and ampacity of every cable run; the sizes by ampacity and by drop, and the larger."""
     budget = _budget_fraction(budget_pct)
-    single = {"--current": current, "--length-m": length_m, "--size": size, "--volts": volts,
+    inst = _installation(insulation_c, ambient_c, conductors_together, install)
+    if length_ft is not None:
+        if length_m is not None:
+            raise InputError("--length-ft", None, "give --length-m or --length-ft, not both")
+        if not math.isfinite(length_ft) or length_ft <= 0:
+            raise InputError("--length-ft", None, f"expected a one-way length above 0, got {length_ft!r}")
+        length_m = length_ft * FOOT_M
+    single = {"--current": current, "--length-m": length_m, "--length-ft": length_ft, "--size": size, "--volts": volts,
               "--material": None if material == "copper" else material,
               "--temp-c": None if temp_c == 75.0 else temp_c, "--parallel": None if parallel == 1 else parallel,
               "--resistance-basis": None if resistance_basis == "table" else resistance_basis}
@@ -212,8 +258,8 @@ def wire(
             if given:
                 raise InputError(name, None, "applies to a system file; one run is given by its current")
         rec = quick_record(current, length_m, size, material, temp_c, volts, budget, parallel,
-                           resistance_basis=resistance_basis)
-        rec["cautions"] = [*cautions.WIRING, *cautions.GENERAL]
+                           resistance_basis=resistance_basis, installation=inst)
+        rec["cautions"] = cautions.for_command("quick-wire")
         _emit_json(rec) if as_json else typer.echo(render_quick_wire(rec))
         return
     given = [k for k, v in single.items() if v is not None]
@@ -231,7 +277,7 @@ def wire(
     g = _conditions_for(stc_system, g_opt, "--irradiance", default=1000.0)
     t = _conditions_for(stc_system, t_opt, "--cell-temp", default=25.0)
     row = operating_points(system, g, t).iloc[0]
-    rec = wire_record(system, row, budget)
+    rec = wire_record(system, row, DEFAULT_DROP_BUDGET if budget is None else budget, inst)
     if at_mpp or (system.bank is None and system.load.kind == "mpp"):
         point = "the array's maximum power point"
     else:
@@ -241,7 +287,7 @@ def wire(
     conditions = f"{point} at {shown}" + (" (STC)" if g_opt is None and t_opt is None else "")
     rec["design_point"] = {"conditions": conditions, "at_mpp": point.endswith("maximum power point"), "v": float(row["v"]),
                            "i": float(row["i"]), "generated_w": float(row["generated_w"])}
-    rec["cautions"] = [*cautions.WIRING, *cautions.GENERAL]
+    rec["cautions"] = cautions.for_command("wire", system)
     _emit_json(rec) if as_json else typer.echo(render_wire(system, rec, conditions))
 
 
@@ -468,9 +514,13 @@ def check(
         "--max-temp", help="The site's record high air temperature [degC].")] = None,
     cell_rise: Annotated[float, typer.Option(
         "--cell-rise", help="Cells above the air in full sun, for the hot case [degC].")] = DEFAULT_CELL_RISE_C,
+    insulation_c: InsulationOpt = DEFAULT_INSULATION_C,
+    ambient_c: AmbientOpt = DEFAULT_AMBIENT_C,
+    conductors_together: TogetherOpt = DEFAULT_CONDUCTORS_TOGETHER,
+    install: InstallOpt = DEFAULT_INSTALL,
     as_json: Annotated[bool, typer.Option("--json", help="Print one JSON object instead of tables.")] = False,
 ):
-    """String voltage and circuit current checks against the site's extremes and the equipment."""
+    """Voltage, current, ampacity and protection checks; exit code 1 when any check fails, 0 when all pass."""
     if min_temp is None:
         raise InputError("--min-temp", None, "is needed: the site's record low air temperature in degC")
     if max_temp is None:
@@ -481,15 +531,17 @@ def check(
             raise InputError(name, None, f"expected {lo:g} to {hi:g} degC, got {value!r}")
     if min_temp >= max_temp:
         raise InputError("--min-temp", None, f"must be below --max-temp ({max_temp:g} degC)")
+    inst = _installation(insulation_c, ambient_c, conductors_together, install)
     system = load_system(system_file)
-    checks = design_checks(system, min_temp, max_temp, cell_rise)
-    verdicts = [c.passed for c in checks if c.passed is not None]
+    checks = design_checks(system, min_temp, max_temp, cell_rise, inst)
     rec = {"system": system.name, "min_air_c": min_temp, "max_air_c": max_temp, "cell_rise_c": cell_rise,
-           "checks": [c.record() for c in checks], "design_currents": design_currents(system),
-           "all_passed": all(verdicts) if verdicts else None,
+           "checks": [c.record() for c in checks], "design_currents": design_currents(system, inst),
+           "all_passed": all_passed(checks),
            "notes": model_notes(system.module),
-           "cautions": [*cautions.WIRING, *cautions.GENERAL]}
+           "cautions": cautions.for_command("check", system)}
     _emit_json(rec) if as_json else typer.echo(render_checks(system, rec))
+    if rec["all_passed"] is False:
+        raise typer.Exit(1)
 
 
 @app.command()

@@ -11,6 +11,7 @@ import math
 import tomllib
 from pathlib import Path
 
+from pvsource import ampacity as ampacity_tables
 from pvsource import conductors
 from pvsource.array import StringGroup
 from pvsource.bank import CHEMISTRIES, Bank, make_bank
@@ -145,8 +146,9 @@ def parse_module(table: Table, base_dir: Path, _seen: frozenset = frozenset()) -
         return module_from_parameters(DiodeParameters(**values), where, name)
     values = {k: table.number(k, integer=(k == "cells_in_series")) for k in DATASHEET_KEYS}
     values.update({k: table.number(k) for k in DATASHEET_OPTIONAL if table.has(k)})
+    fuse = table.number("max_series_fuse_a", float("nan"), positive=True, maximum=1000.0)
     table.finish()
-    return fit_datasheet(Datasheet(name=name, **values), where)
+    return fit_datasheet(Datasheet(name=name, **values, max_series_fuse_a=None if math.isnan(fuse) else fuse), where)
 
 
 def _conditions(table: Table):
@@ -227,6 +229,18 @@ def parse_cable(table: Table, index: int, group_names) -> CableRun:
                          "is missing: give the conductor size (e.g. \"10 AWG\" or \"6 mm2\") "
                          "or resistance_ohm_per_km")
     ampacity = table.number("ampacity_a", float("nan"), positive=True, maximum=1.0e5)
+    installed = {}
+    for key in ("insulation_c", "ambient_c", "termination_c"):
+        if table.has(key):
+            installed[key] = table.number(key)
+    if table.has("conductors_together"):
+        installed["conductors_together"] = table.number("conductors_together", integer=True, positive=True)
+    if table.has("install"):
+        installed["install"] = table.text("install", choices=ampacity_tables.INSTALLS)
+    ampacity_tables.check_installation(ampacity_tables.Installation(**installed), where,
+                                       {k: table.field(k) for k in installed})
+    fuse = table.number("fuse_a", float("nan"), positive=True, maximum=1.0e5)
+    interrupting = table.number("fuse_interrupting_a", float("nan"), positive=True, maximum=1.0e7)
     run = CableRun(
         name=table.text("name", f"cable {index + 1}"),
         role=role,
@@ -236,7 +250,9 @@ def parse_cable(table: Table, index: int, group_names) -> CableRun:
         conductors_in_parallel=table.number("conductors_in_parallel", 1, integer=True, positive=True, maximum=100),
         size=size, material=material, temp_c=temp_c, conductor_class=conductor_class,
         ampacity_a=None if math.isnan(ampacity) else ampacity,
-        resistance_basis=basis, resistance_source=source,
+        resistance_basis=basis, resistance_source=source, installed=tuple(sorted(installed.items())),
+        fuse_a=None if math.isnan(fuse) else fuse,
+        fuse_interrupting_a=None if math.isnan(interrupting) else interrupting,
     )
     table.finish()
     return run
@@ -252,6 +268,7 @@ def parse_controller(table: Table) -> Controller:
     min_v = table.number("min_input_v", float("nan"), minimum=0.0, maximum=1.0e4)
     max_a = table.number("max_output_a", float("nan"), positive=True, maximum=1.0e5)
     rated = table.number("rated_power_w", float("nan"), positive=True, maximum=1.0e7)
+    max_isc = table.number("max_input_isc_a", float("nan"), positive=True, maximum=1.0e5)
     curve = DEFAULT_EFFICIENCY_CURVE
     if table.has("efficiency") and table.has("efficiency_curve"):
         raise InputError(where, table.field("efficiency"), "give efficiency or efficiency_curve, not both")
@@ -279,6 +296,7 @@ def parse_controller(table: Table) -> Controller:
         max_input_v=None if math.isnan(max_v) else max_v, min_input_v=None if math.isnan(min_v) else min_v,
         max_output_a=None if math.isnan(max_a) else max_a, efficiency_curve=curve,
         rated_power_w=None if math.isnan(rated) else rated,
+        max_input_isc_a=None if math.isnan(max_isc) else max_isc,
         min_headroom_v=table.number("min_headroom_v", 2.0, minimum=0.0, maximum=100.0),
         diode_drop_v=table.number("diode_drop_v", 0.0, minimum=0.0, maximum=5.0),
     )

@@ -52,6 +52,8 @@ class Controller:
         MPPT: the input must stay this far above the output voltage [V].
     diode_drop_v : float
         Direct and PWM: forward drop of a blocking diode, 0 if none [V].
+    max_input_isc_a : float or None
+        Largest PV short-circuit current the input accepts [A] (checked against 1.25 x the array's Isc).
     """
 
     name: str = ""
@@ -63,6 +65,7 @@ class Controller:
     rated_power_w: float | None = None
     min_headroom_v: float = 2.0
     diode_drop_v: float = 0.0
+    max_input_isc_a: float | None = None
 
 
 def efficiency_at(controller: Controller, output_fraction):

@@ -146,8 +146,9 @@ def evaluate(system: System, weather: pd.DataFrame, combo: dict, prices: dict) -
     row = {"id": combination_id(combo), **{k: getattr(v, "label", v) for k, v in combo.items()}}
     variant = apply(system, combo)
     t_min, t_max = float(weather["temp_air"].min()), float(weather["temp_air"].max())
-    failed = [f"{c.name}: {c.value:.1f} {c.unit} against {c.limit:.1f}" for c in design_checks(variant, t_min, t_max)
-              if c.passed is False]
+    # Each varied size is judged by its own ampacity from the run's
+    # installation (resize_run drops a rating typed for another size).
+    failed = [c.reason() for c in design_checks(variant, t_min, t_max) if c.failed]
     if failed:
         return {**row, "excluded": True, "reason": "; ".join(failed)}
     try:

@@ -79,6 +79,8 @@ class Datasheet:
     noct_c : float or None
         Nominal operating cell temperature [degC], as the datasheet gives it;
         carried for reports.
+    max_series_fuse_a : float or None
+        The maker's maximum series fuse rating [A] (NEC 690.9), if given.
     """
 
     v_oc: float
@@ -91,6 +93,7 @@ class Datasheet:
     name: str = ""
     pmax_temp_coeff_pct: float | None = None
     noct_c: float | None = None
+    max_series_fuse_a: float | None = None
 
     @property
     def alpha_sc_a_per_c(self) -> float:

@@ -8,16 +8,26 @@ Runs of one role in one group are in series, in the order of the file.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, replace
+from dataclasses import asdict, dataclass, replace
 
 import numpy as np
 
 from pvsource import conductors
 from pvsource.errors import InputError
 from pvsource.system import System
-from pvsource.wiring import CableRun, sized_ohm_per_km
+from pvsource.ampacity import CONTINUOUS_FACTOR, Installation, check_installation, smallest_size_for_current
+from pvsource.checks import design_currents
+from pvsource.wiring import CableRun, run_ampacity, run_installation, sized_ohm_per_km
 
 OPTIONS_SHOWN = 3
+#: Drop budget per circuit when none is given [-]. Common practice: 3 % for
+#: each circuit, after the NEC's informational notes (210.19(A) Note 4,
+#: 215.2(A)(1) Note 2: 3 % for a branch circuit or feeder, 5 % in all). It is
+#: not a requirement; on a low-voltage battery side each per cent of drop is
+#: a larger current's loss, so many designers aim lower there.
+DEFAULT_DROP_BUDGET = 0.03
+#: One foot [m].
+FOOT_M = 0.3048
 
 
 @dataclass(frozen=True)
@@ -174,73 +184,166 @@ def _option_record(opt: SizeOption) -> dict:
             "mass_kg": opt.mass_kg}
 
 
-def _recommendation(flow: RunFlow, budget_fraction):
-    """(recommended label or None, smallest-by-drop label or None, note) for a run and a budget.
-
-    The recommendation never goes below the chosen size: voltage drop alone
-    cannot show that a smaller conductor is safe, and pvsource does not size
-    for ampacity. The smallest size the drop alone allows is reported beside it.
-    """
+def _size_by_drop(flow: RunFlow, budget_fraction):
+    """(smallest size within the budget or None, note) for a run."""
     if budget_fraction is None:
-        return None, None, ""
+        return None, "no budget: give --volts for one run"
     if flow.run.size is None:
-        return None, None, "no size given (resistance per km only), so no size series to choose from"
-    scaled = flow
+        return None, "no size given (resistance per km only), so no size series to choose from"
     factor = flow.run.resistance_ohm_per_km / sized_ohm_per_km(flow.run, flow.run.size)[0]
     if abs(factor - 1.0) > 1e-9:
         # Search the series with the budget tightened by the cable's own factor.
         budget_fraction = budget_fraction / factor
     try:
-        size = recommend_size(scaled, budget_fraction)
+        size = recommend_size(flow, budget_fraction)
     except InputError as exc:
-        return None, None, exc.expected
-    if size is None:
-        return None, None, "no current flows at the design point"
-    if size.area_mm2 < flow.run.size.area_mm2:
-        return flow.run.size.label, size.label, (
-            f"the chosen {flow.run.size.label} meets the budget; voltage drop alone would allow {size.label}, "
-            "but only the conductor's ampacity and its protection can say whether a smaller size is safe")
-    return size.label, size.label, ""
+        return None, exc.expected
+    return size, "" if size is not None else "no current flows at the design point"
 
 
-def wire_record(system: System, row, budget_fraction=None) -> dict:
-    """Every run at one operating point, the total, and sizes that meet a budget (JSON-ready)."""
+def _sizing(flow: RunFlow, budget_fraction, max_circuit_current_a: float, defaults: Installation) -> dict:
+    """Ampacity of the run's size, and the sizes by ampacity, by drop, and the larger of the two (JSON-ready).
+
+    ``max_circuit_current_a`` is I_max; the conductor must carry 1.25 x it
+    (:mod:`pvsource.ampacity`). Without a table value for the run's metal or
+    installation the recommendation never goes below the chosen size, since
+    voltage drop alone cannot show that a smaller conductor is safe.
+    """
+    run = flow.run
+    by_drop, drop_note = _size_by_drop(flow, budget_fraction)
+    a = run_ampacity(run, defaults)
+    by_amp, amp_note = None, ""
+    if run.size is not None:
+        try:
+            by_amp, _ = smallest_size_for_current(max_circuit_current_a, run.size.series, run.material,
+                                                  run_installation(run, defaults), run.conductors_in_parallel,
+                                                  where=run.name)
+        except InputError as exc:
+            amp_note = exc.expected
+    candidates = [x for x in (by_drop, by_amp) if x is not None]
+    note = "; ".join(n for n in (drop_note, amp_note) if n)
+    if by_amp is None and run.size is not None:
+        candidates.append(run.size)
+        if by_drop is not None and by_drop.area_mm2 < run.size.area_mm2:
+            note = "; ".join(n for n in (note, f"voltage drop alone would allow {by_drop.label}, but without an "
+                                               "ampacity for this run only the chosen size is known to be safe") if n)
+    recommended = max(candidates, key=lambda x: x.area_mm2) if candidates else None
+    n = run.conductors_in_parallel
+    return {"max_circuit_current_a": max_circuit_current_a,
+            "design_current_a": CONTINUOUS_FACTOR * max_circuit_current_a,
+            "ampacity_a": None if a is None else n * a.corrected_a,
+            "ampacity_limit_a": None if a is None else n * a.limit_a,
+            "ampacity_basis": None if a is None else a.basis,
+            "size_by_ampacity": by_amp.label if by_amp else None,
+            "size_by_drop": by_drop.label if by_drop else None,
+            "recommended_size": recommended.label if recommended else None,
+            "recommendation_note": note}
+
+
+def circuit_of(system: System, run: CableRun) -> str:
+    """``"pv"`` or ``"battery"``: a controller separates the two circuits, each with its own drop budget."""
+    if run.role in ("bank", "interconnect") and system.bank is not None and system.controller is not None:
+        return "battery"
+    return "pv"
+
+
+def budget_shares(system: System) -> dict[str, float]:
+    """Each run's share of its circuit's drop budget [-], by run name.
+
+    Along each path of a circuit (a string lead, its home run and the feeder;
+    or the bank-side runs) the budget is shared in proportion to length, so
+    the runs of any path together stay within the circuit's budget.
+    """
+    circuit = {r.name: circuit_of(system, r) for r in system.cables}
+
+    def path_m(group):
+        return sum(r.length_m for r in system.cables if circuit[r.name] == "pv" and r.group in (None, group))
+
+    longest_pv = max([path_m(g.name) for g in system.groups] + [1e-12])
+    battery_m = sum(r.length_m for r in system.cables if circuit[r.name] == "battery") or 1e-12
+    shares = {}
+    for r in system.cables:
+        whole = battery_m if circuit[r.name] == "battery" else path_m(r.group) if r.group else longest_pv
+        shares[r.name] = r.length_m / whole
+    return shares
+
+
+def circuit_drops(system: System, flows: list[RunFlow]) -> list[dict]:
+    """Drop of each circuit's worst path, as V and as a share of its voltage (never added across a controller)."""
+    out = []
+    pv = [f for f in flows if circuit_of(system, f.run) == "pv"]
+    worst = None
+    for g in system.groups:
+        path = [f for f in pv if f.run.group in (None, g.name)]
+        start = next((f.circuit_v for f in path if f.run.group == g.name), None) or \
+            next((f.circuit_v for f in path), None)
+        if not path or not start:
+            continue
+        drop = sum(f.drop_v for f in path)
+        if worst is None or drop / start > worst[1] / worst[2]:
+            worst = (g.name, drop, start)
+    if worst is not None:
+        out.append({"circuit": "pv", "worst_group": worst[0], "drop_v": worst[1], "drop_pct": 100.0 * worst[1] / worst[2]})
+    battery = [f for f in flows if circuit_of(system, f.run) == "battery"]
+    if battery and battery[0].circuit_v > 0:
+        drop = sum(f.drop_v for f in battery)
+        out.append({"circuit": "battery", "worst_group": None, "drop_v": drop,
+                    "drop_pct": 100.0 * drop / battery[0].circuit_v})
+    return out
+
+
+def wire_record(system: System, row, budget_fraction: float = DEFAULT_DROP_BUDGET,
+                defaults: Installation = Installation()) -> dict:
+    """Every run at one operating point: drop, loss, ampacity, and sizes by ampacity and by drop (JSON-ready).
+
+    ``budget_fraction`` is each circuit's drop budget; see :func:`budget_shares`.
+    """
     flows = run_flows(system, row)
+    shares = budget_shares(system)
+    currents = {d["run"]: d["circuit_current_a"] for d in design_currents(system, defaults)}
     runs = []
     for f in flows:
-        rec_size, by_drop, note = _recommendation(f, budget_fraction)
-        breaks = None if budget_fraction is None else bool(f.drop_fraction > budget_fraction)
+        share = budget_fraction * shares[f.run.name]
         runs.append({
-            "name": f.run.name, "role": f.run.role, "group": f.run.group,
+            "name": f.run.name, "role": f.run.role, "group": f.run.group, "circuit": circuit_of(system, f.run),
             "size": f.run.size.label if f.run.size else None, "material": f.run.material,
-            "length_m": f.run.length_m, "conductors_in_parallel": f.run.conductors_in_parallel,
+            "length_m": f.run.length_m, "length_ft": f.run.length_m / FOOT_M,
+            "conductors_in_parallel": f.run.conductors_in_parallel,
             "temp_c": f.run.temp_c, "copies": f.copies, "resistance_source": f.run.resistance_source,
             "current_a": f.current_a, "resistance_ohm": f.resistance_ohm, "circuit_v": f.circuit_v,
             "drop_v": f.drop_v, "drop_pct": 100.0 * f.drop_fraction,
             "loss_w": f.loss_w, "loss_pct": 100.0 * f.loss_fraction, "power_w": f.power_w,
-            "breaks_budget": breaks, "recommended_size": rec_size, "smallest_by_drop": by_drop,
-            "recommendation_note": note,
+            "budget_pct": 100.0 * share, "breaks_budget": bool(f.drop_fraction > share),
+            **_sizing(f, share, currents[f.run.name], defaults),
             "options": [_option_record(o) for o in size_options(f)],
         })
-    drops = path_drops(system, flows)
     generated = float(row["generated_w"])
-    worst = max(drops, key=lambda k: drops[k] / max(float(row[f"group_{k}_v"]), 1e-12))
-    worst_pct = 100.0 * drops[worst] / float(row[f"group_{worst}_v"]) if float(row[f"group_{worst}_v"]) > 0 else None
+    circuits = circuit_drops(system, flows)
+    for c in circuits:
+        c["budget_pct"] = 100.0 * budget_fraction
+        c["over_budget"] = bool(c["drop_pct"] > 100.0 * budget_fraction * (1 + 1e-9))
     return {
         "runs": runs,
+        "circuits": circuits,
         "total": {"loss_w": float(row["cable_loss_w"]),
-                  "loss_pct": 100.0 * float(row["cable_loss_w"]) / generated if generated > 0 else None,
-                  "worst_path_group": worst, "worst_path_drop_v": drops[worst], "worst_path_drop_pct": worst_pct},
-        "budget_pct": None if budget_fraction is None else 100.0 * budget_fraction,
-        "over_budget": [] if budget_fraction is None else [r["name"] for r in runs if r["breaks_budget"]],
+                  "loss_pct": 100.0 * float(row["cable_loss_w"]) / generated if generated > 0 else None},
+        "budget_pct": 100.0 * budget_fraction,
+        "over_budget": [r["name"] for r in runs if r["breaks_budget"]],
+        "installation_defaults": asdict(defaults),
     }
 
 
 def quick_record(current_a: float, length_m: float, size_text: str, material: str = "copper",
                  temp_c: float = conductors.DEFAULT_CONDUCTOR_TEMP_C, volts: float | None = None,
                  budget_fraction: float | None = None, conductors_in_parallel: int = 1,
-                 conductor_class: int = 2, resistance_basis: str = "table") -> dict:
+                 conductor_class: int = 2, resistance_basis: str = "table",
+                 installation: Installation = Installation()) -> dict:
     """One two-conductor DC run from its current, one-way length and size (JSON-ready).
+
+    ``current_a`` is the circuit's maximum current I_max: the drop is
+    computed at it, and the conductor must carry 1.25 x it
+    (:mod:`pvsource.ampacity`). With ``volts`` and no budget, the default
+    budget :data:`DEFAULT_DROP_BUDGET` applies.
 
     Raises
     ------
@@ -261,6 +364,8 @@ def quick_record(current_a: float, length_m: float, size_text: str, material: st
         raise InputError("--volts", None, f"expected a circuit voltage from 0.1 to 100000 V, got {volts!r}")
     if not 1 <= conductors_in_parallel <= 100:
         raise InputError("--parallel", None, f"expected 1 to 100 conductors, got {conductors_in_parallel!r}")
+    check_installation(installation, "wire", {"insulation_c": "--insulation-c", "ambient_c": "--ambient-c",
+                                              "conductors_together": "--conductors-together", "install": "--install"})
     if budget_fraction is not None:
         if not (np.isfinite(budget_fraction) and 1e-4 <= budget_fraction < 1):
             raise InputError("--budget-pct", None, f"expected a percentage between 0 and 100, "
@@ -285,22 +390,23 @@ def quick_record(current_a: float, length_m: float, size_text: str, material: st
     drop = current_a * r
     flow = RunFlow(run, current_a, volts if volts else float("nan"), r, drop, current_a * drop,
                    current_a * volts if volts else float("nan"))
-    rec_size, by_drop, note = _recommendation(flow, budget_fraction)
+    if budget_fraction is None and volts:
+        budget_fraction = DEFAULT_DROP_BUDGET
     rec = {
-        "current_a": current_a, "length_m": length_m, "size": size.label, "material": mat, "temp_c": temp_c,
+        "current_a": current_a, "length_m": length_m, "length_ft": length_m / FOOT_M, "size": size.label,
+        "material": mat, "temp_c": temp_c,
         "conductors_in_parallel": conductors_in_parallel, "resistance_ohm": r,
         "resistance_basis": resistance_basis, "resistance_source": source, "drop_v": drop,
         "drop_pct": 100.0 * abs(drop) / volts if volts else None, "loss_w": current_a * drop,
         "loss_pct": 100.0 * abs(drop) / volts if volts else None,
         "mass_kg": float(conductors.conductor_mass_kg(length_m, size.area_mm2, mat, conductors_in_parallel,
                                                       stranded=conductor_class != 1)),
+        "installation": asdict(installation),
+        **_sizing(flow, budget_fraction, current_a, installation),
         "options": [_option_record(o) for o in size_options(flow)],
     }
-    if budget_fraction is not None:
-        rec.update({"budget_pct": 100.0 * budget_fraction, "recommended_size": rec_size,
-                    "smallest_by_drop": by_drop, "breaks_budget": bool(abs(drop) / volts > budget_fraction)})
-        if note:
-            rec["recommendation_note"] = note
+    rec["budget_pct"] = None if budget_fraction is None else 100.0 * budget_fraction
+    rec["breaks_budget"] = None if budget_fraction is None else bool(abs(drop) / volts > budget_fraction)
     return rec
 
 
@@ -310,6 +416,8 @@ def resize_run(system: System, name: str, size: conductors.ConductorSize) -> Sys
     for run in system.cables:
         if run.name == name:
             r_km, source = sized_ohm_per_km(run, size)
-            run = replace(run, size=size, resistance_ohm_per_km=r_km, resistance_source=source)
+            # A typed ampacity_a belongs to the size it was written with.
+            rating = run.ampacity_a if size == run.size else None
+            run = replace(run, size=size, resistance_ohm_per_km=r_km, resistance_source=source, ampacity_a=rating)
         runs.append(run)
     return replace(system, cables=tuple(runs))

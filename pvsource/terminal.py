@@ -147,6 +147,23 @@ def render_point(system: System, rec: dict) -> str:
     return "\n".join(lines)
 
 
+def render_caution_list(items) -> str:
+    """The given cautions, in order (a command's own list ends with the closing deferral)."""
+    return _rule("Cautions") + "\n" + "\n".join(f"  ! {c}" for c in items)
+
+
+def _sizes_line(r: dict) -> list[str]:
+    amp = "no ampacity (no table value; give ampacity_a)" if r["ampacity_a"] is None else \
+        f"ampacity {_num(r['ampacity_a'], 1, 'A')} after corrections"
+    lines = [f"  max current {_num(r['max_circuit_current_a'], 2, 'A')}, conductor design "
+             f"{_num(r['design_current_a'], 2, 'A')} (x 1.25); {amp}",
+             f"  size by ampacity {r['size_by_ampacity'] or '-'}   by drop {r['size_by_drop'] or '-'}   "
+             f"recommended {r['recommended_size'] or '-'}"]
+    if r["recommendation_note"]:
+        lines.append(f"    {r['recommendation_note']}")
+    return lines
+
+
 def render_cautions(extra=()) -> str:
     return _rule("Cautions") + "\n" + "\n".join(f"  ! {c}" for c in (*extra, *cautions.GENERAL))
 
@@ -237,8 +254,8 @@ def render_wire(system: System, rec: dict, conditions: str) -> str:
     lines = [f"pvsource wiring budget: {system.name or system.source}", f"file        {system.source}",
              f"design point {conditions}; load: {describe_load(system)}"]
     budget = rec["budget_pct"]
-    if budget is not None:
-        lines.append(f"budget      {budget:g} % voltage drop per run")
+    lines.append(f"budget      {budget:g} % voltage drop per circuit (PV side and battery side apart), "
+                 "shared along each path by length")
     if not rec["runs"]:
         lines.append("\nThe system file has no [[cable]] runs.")
     for r in rec["runs"]:
@@ -255,25 +272,20 @@ def render_wire(system: System, rec: dict, conditions: str) -> str:
         lines.append(f"  drop {_num(r['drop_v'], 3, 'V')} ({_num(r['drop_pct'], 2)} %)   loss "
                      f"{_num(r['loss_w'], 2, 'W')} ({_num(r['loss_pct'], 2)} % of {_num(r['power_w'], 1, 'W')})"
                      + (f" over {r['copies']} strings" if r["copies"] > 1 else "") + flag)
-        if budget is not None:
-            if r["recommended_size"]:
-                lines.append(f"  size within {budget:g} %: {r['recommended_size']}")
-                if r["recommendation_note"]:
-                    lines.append(f"    {r['recommendation_note']}")
-            elif r["recommendation_note"]:
-                lines.append(f"  no size recommended: {r['recommendation_note']}")
+        lines.extend(_sizes_line(r))
         if r["options"]:
             lines.append("  this size and the next ones up:")
             lines.extend(_options_table(r["options"]))
     t = rec["total"]
     lines.append(_rule("Total"))
     lines.append(f"  cable loss {_num(t['loss_w'], 2, 'W')} ({_num(t['loss_pct'], 2)} % of the generated power)")
-    lines.append(f"  worst path, group {t['worst_path_group']} to the load: {_num(t['worst_path_drop_v'], 3, 'V')} "
-                 f"({_num(t['worst_path_drop_pct'], 2)} %)")
-    if budget is not None:
-        over = rec["over_budget"]
-        lines.append(f"  runs over the {budget:g} % budget: {', '.join(over) if over else 'none'}")
-    lines.append(render_cautions(cautions.WIRING))
+    for c in rec["circuits"]:
+        path = f", worst path from group {c['worst_group']}" if c["worst_group"] else ""
+        lines.append(f"  {c['circuit']} circuit{path}: drop {_num(c['drop_v'], 3, 'V')} ({_num(c['drop_pct'], 2)} % "
+                     f"against {c['budget_pct']:g} %)" + ("   OVER BUDGET" if c["over_budget"] else ""))
+    over = rec["over_budget"]
+    lines.append(f"  runs over their share of the budget: {', '.join(over) if over else 'none'}")
+    lines.append(render_caution_list(rec["cautions"]))
     return "\n".join(lines)
 
 
@@ -285,17 +297,15 @@ def render_quick_wire(rec: dict) -> str:
     lines.append(f"  loop resistance {rec['resistance_ohm']:.5f} ohm   drop {rec['drop_v']:.3f} V"
                  + (f" ({rec['drop_pct']:.2f} % of the circuit)" if rec["drop_pct"] is not None else "")
                  + f"   loss {rec['loss_w']:.2f} W   metal {rec['mass_kg']:.2f} kg")
-    if "budget_pct" in rec:
-        if rec.get("recommended_size"):
-            lines.append(f"  size within {rec['budget_pct']:g} %: {rec['recommended_size']}")
-            if rec.get("recommendation_note"):
-                lines.append(f"    {rec['recommendation_note']}")
-        else:
-            lines.append(f"  no size recommended: {rec.get('recommendation_note', '')}")
+    inst = rec["installation"]
+    lines.append(f"  installed: {inst['install']}, {inst['insulation_c']:g} degC insulation, {inst['ambient_c']:g} degC "
+                 f"ambient, {inst['conductors_together']} conductors together, {inst['termination_c']:g} degC terminations"
+                 + (f"; drop budget {rec['budget_pct']:g} %" if rec["budget_pct"] is not None else ""))
+    lines.extend(_sizes_line(rec))
     if rec["options"]:
         lines.append("  this size and the next ones up:")
         lines.extend(_options_table(rec["options"], "    "))
-    lines.append(render_cautions(cautions.WIRING))
+    lines.append(render_caution_list(rec["cautions"]))
     return "\n".join(lines)
 
 
@@ -306,7 +316,8 @@ def render_checks(system: System, rec: dict) -> str:
              f"(cells {rec['cell_rise_c']:g} degC above the air in full sun)"]
     lines.append(_rule("Checks"))
     for c in rec["checks"]:
-        state = {True: "pass", False: "FAIL", None: "----"}[c["passed"]]
+        state = "note" if c.get("advisory") and c["passed"] is False else \
+            {True: "pass", False: "FAIL", None: "----"}[c["passed"]]
         limit = "no limit given" if c["limit"] is None else f"{'<=' if c['sense'] == 'max' else '>='} " \
                                                              f"{c['limit']:.2f} {c['unit']}"
         margin = "" if c["margin"] is None else f"  margin {100 * c['margin']:+.1f} %"
@@ -314,13 +325,15 @@ def render_checks(system: System, rec: dict) -> str:
         lines.append(f"         {c['detail']}")
         lines.append(f"         basis: {c['basis']}")
     if rec["design_currents"]:
-        lines.append(_rule("Design currents of the PV-side runs (NEC 690.8)"))
+        lines.append(_rule("Design currents of the runs (NEC 690.8)"))
         for d in rec["design_currents"]:
-            rating = "no rating given" if d["ampacity_a"] is None else f"rating {d['ampacity_a']:g} A"
+            rating = "no ampacity" if d["ampacity_a"] is None else f"ampacity {d['ampacity_a']:.1f} A"
             lines.append(f"  {d['run']:<24} circuit {d['circuit_current_a']:7.2f} A   conductor "
                          f"{d['conductor_current_a']:7.2f} A   {rating}")
     lines.extend(f"\nNOTE: {n}" for n in rec.get("notes", ()))
-    lines.append(render_cautions(cautions.WIRING))
+    verdict = {True: "all checks pass", False: "some checks FAIL (exit code 1)", None: "nothing to compare"}
+    lines.append(f"\n{verdict[rec['all_passed']]}")
+    lines.append(render_caution_list(rec["cautions"]))
     return "\n".join(lines)
 
 

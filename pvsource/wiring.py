@@ -16,12 +16,14 @@ same current in series between the bus and the load.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
 from pvsource import conductors
+from pvsource.ampacity import Ampacity, Installation, ampacity
 from pvsource.conductors import ConductorSize
+from pvsource.errors import InputError
 
 ROLES = ("string", "home-run", "feeder", "bank", "interconnect")
 PV_SIDE_ROLES = ("string", "home-run", "feeder")
@@ -62,6 +64,13 @@ class CableRun:
         or ``"computed"`` (first principles); see :func:`pvsource.conductors.size_resistance`.
     resistance_source : str
         Where ``resistance_ohm_per_km`` came from, in words.
+    installed : tuple of (str, object)
+        The installation fields the file gives for this run (insulation_c,
+        ambient_c, conductors_together, install, termination_c); the rest take
+        the defaults of :class:`pvsource.ampacity.Installation` or of the command.
+    fuse_a, fuse_interrupting_a : float or None
+        The overcurrent device protecting this run: its rating and its
+        interrupting rating [A], if given.
     """
 
     name: str
@@ -77,6 +86,9 @@ class CableRun:
     ampacity_a: float | None = None
     resistance_basis: str = "table"
     resistance_source: str = ""
+    installed: tuple = ()
+    fuse_a: float | None = None
+    fuse_interrupting_a: float | None = None
 
     @property
     def loop_resistance_ohm(self) -> float:
@@ -116,6 +128,30 @@ def sized_ohm_per_km(run: CableRun, size: ConductorSize) -> tuple[float, str]:
     r, source = conductors.size_resistance(size, run.material, run.temp_c, run.conductor_class,
                                            run.resistance_basis, where=run.name)
     return 1000.0 * float(r), source
+
+
+def run_installation(run: CableRun, defaults: Installation = Installation()) -> Installation:
+    """The run's installation: what its file gives, else ``defaults``."""
+    return replace(defaults, **dict(run.installed))
+
+
+def run_ampacity(run: CableRun, defaults: Installation = Installation(), size: ConductorSize | None = None):
+    """The ampacity of one conductor of the run (in ``size`` if given), or None without a size or table value.
+
+    A typed ``ampacity_a`` belongs to the size it was written with: it is used
+    only for that size, as a rating after corrections that must carry 1.25 x
+    I_max by itself (conservative).
+    """
+    size = size or run.size
+    if run.ampacity_a is not None and (size is None or size == run.size):
+        a = run.ampacity_a
+        return Ampacity(a, 1.0, 1.0, a, a, "the run's ampacity_a, taken as the rating after corrections")
+    if size is None:
+        return None
+    try:
+        return ampacity(size, run.material, run_installation(run, defaults), where=run.name)
+    except InputError:
+        return None
 
 
 def group_wiring(cables, group_names) -> GroupWiring:

@@ -89,10 +89,22 @@ def test_design_currents_follow_nec_690_8(demo_module):
     assert d["home-run g1"]["circuit_current_a"] == pytest.approx(1.25 * 3 * isc)
     assert d["home-run g2"]["conductor_current_a"] == pytest.approx(1.5625 * 2 * isc)
     assert d["feeder "]["conductor_current_a"] == pytest.approx(1.5625 * 5 * isc)
-    assert "bank " not in d  # bank-side currents are set by the controller and the bank, not by Isc
+    # Without a tracker the bank run carries the array's current (NEC 690.8(A)(1)).
+    assert d["bank "]["circuit_current_a"] == pytest.approx(1.25 * 5 * isc)
 
 
-def test_conductor_rating_check_appears_only_where_a_rating_is_given(demo_module):
+def test_bank_side_current_behind_a_tracker_is_its_rated_output(demo_module):
+    # NEC 690.8(A)(1): a DC-DC converter's output circuit current is its
+    # continuous output rating, 40 A here; the conductor carries 1.25 x 40 = 50 A.
+    from pvsource import bank as bank_model
+    system = replace(make_system(demo_module, groups=((3, 2),), cables=(cable("bank", 2, 0.5),)),
+                     bank=bank_model.make_bank("lfp", 8, 1, 280.0, 0.5, 25.0),
+                     controller=Controller(kind="mppt", max_output_a=40.0, max_input_v=150.0))
+    d = design_currents(system)[0]
+    assert d["circuit_current_a"] == 40.0 and d["conductor_current_a"] == 50.0
+
+
+def test_conductor_check_needs_a_size_or_a_rating(demo_module):
     rated = replace(cable("feeder", 20, 2.0), ampacity_a=40.0)
     system = make_system(demo_module, groups=((2, 3),), cables=(rated, cable("home-run", 5, 5.0, "g1")))
     checks = design_checks(system, -10.0, 35.0)
@@ -123,3 +135,116 @@ def test_hot_vmp_against_a_bank_uses_its_absorption_voltage(demo_module):
     c = min_string_vmp(system, 35.0)
     assert c.limit == pytest.approx(8 * 3.55)
     assert "absorption" in c.detail
+
+
+# ---------------------------------------------------------------- protection
+
+def _with_fuse_max(module, max_fuse):
+    from pvsource.module import Module  # noqa: F401 - the dataclass replaced below
+    return replace(module, datasheet=replace(module.datasheet, max_series_fuse_a=max_fuse))
+
+
+@pytest.mark.parametrize("strings, max_fuse, needed, passed", [
+    (2, 15.0, False, True),    # one other string backfeeds 1.25 x 9.8 = 12.25 A <= 15 A
+    (3, 15.0, True, False),    # two others: 24.5 A > 15 A; the 20 A fuse exceeds the 15 A maximum
+    (3, 20.0, True, True),     # the 20 A fuse is within a 20 A maximum
+    (2, 10.0, True, False),
+])
+def test_string_fuse_follows_nec_690_9(demo_module, strings, max_fuse, needed, passed):
+    # NEC 690.9(A): fuses are needed when the other strings' current (N - 1) x
+    # 1.25 x Isc exceeds the module's maximum series fuse; 690.9(B): rated at
+    # 1.25 x 1.25 x Isc = 1.56 x 9.8 A = 15.3 A, rounded up to NEC 240.6(A)'s 20 A.
+    from pvsource.checks import string_fuse_check
+    system = make_system(_with_fuse_max(demo_module, max_fuse), groups=((2, strings),))
+    c = string_fuse_check(system)
+    assert c.name == "string_fuse" and c.value == 20.0 and c.limit == max_fuse
+    assert c.record()["needed"] is needed and c.passed is passed
+
+
+def test_string_fuse_without_a_module_maximum(demo_module):
+    # Common practice: from three strings in parallel fuses are needed; with no
+    # maximum in the datasheet there is nothing to compare the rating with.
+    from pvsource.checks import string_fuse_check
+    c = string_fuse_check(make_system(demo_module, groups=((2, 4),)))
+    assert c.record()["needed"] is True and c.passed is None and c.limit is None
+
+
+def test_controller_input_isc(demo_module):
+    # NEC 690.8(A)(1): 1.25 x the array's Isc, 5 strings x 9.8 A x 1.25 = 61.25 A.
+    from pvsource.checks import controller_checks
+    system = replace(make_system(demo_module, groups=((2, 3), (2, 2))),
+                     controller=Controller(max_input_v=150.0, max_input_isc_a=60.0))
+    c = controller_checks(system)[0]
+    assert c.name == "controller_input_isc" and c.value == pytest.approx(61.25) and c.passed is False
+
+
+def test_bank_short_circuit_against_the_interrupting_rating(demo_module):
+    # Ohm's law worked here: the bank's full-charge OCV over its internal
+    # resistance plus the bank cable's loop at 20 degC. 1/0 AWG copper, 2 m one
+    # way: NEC Ch. 9 Table 8 0.122 ohm/kft at 75 degC, x (1 - 0.00323 x 55) at 20 degC.
+    from pvsource import bank as bank_model
+    from pvsource.checks import protection_checks
+    from pvsource.conductors import parse_size
+    from pvsource.wiring import CableRun
+    bank = bank_model.make_bank("lfp", 8, 1, 280.0, 0.5, 25.0)
+    run = CableRun("bank cable", "bank", 2.0, 0.4, size=parse_size("1/0 AWG"), fuse_a=150.0,
+                   fuse_interrupting_a=5000.0)
+    system = replace(make_system(demo_module, groups=((3, 2),), cables=(run,)), bank=bank,
+                     controller=Controller(kind="mppt", max_output_a=40.0, max_input_v=150.0))
+    checks = {c.name: c for c in protection_checks(system)}
+    r_cable = 2 * 2.0 * 0.122 / 304.8 * (1 - 0.00323 * 55)
+    e, r_int = bank_model.open_circuit_v(bank, 1.0), bank_model.internal_resistance_ohm(bank, 1.0, 25.0)
+    sc = checks["bank_short_circuit"]
+    assert sc.value == pytest.approx(float(e) / (float(r_int) + r_cable), rel=1e-3)
+    assert sc.limit == 5000.0 and sc.passed is (sc.value <= 5000.0)
+    # NEC 240.4 with Table 310.16: 1/0 AWG at 90 degC carries 170 A, but 75 degC
+    # terminations (110.14(C)) hold it to 150 A, so a 150 A fuse protects it.
+    fuse = checks["fuse_rating[bank cable]"]
+    assert fuse.limit == 150.0 and fuse.passed is True
+
+
+def test_fuse_may_be_the_next_standard_rating_up(demo_module):
+    # NEC 240.4(B): 8 AWG copper in a 75 degC column carries 50 A; at 40 degC
+    # 90 degC insulation gives 55 x 0.91 = 50.05 A, held to 50 A by 75 degC
+    # terminations; a 50 A fuse is a standard rating (240.6(A)), so the limit is 50 A.
+    # With six conductors together: 55 x 0.91 x 0.8 = 40.04 A, not a standard
+    # rating, so the next one up, 45 A, is allowed.
+    from pvsource.ampacity import Installation
+    from pvsource.checks import protection_checks
+    from pvsource.conductors import parse_size
+    from pvsource.wiring import CableRun
+    run = CableRun("feeder", "feeder", 10.0, 2.0, size=parse_size("8 AWG"), fuse_a=50.0)
+    system = make_system(demo_module, groups=((2, 2),), cables=(run,))
+    c = protection_checks(system, Installation(90, 40.0, 2, "raceway", 75))[0]
+    assert c.limit == 50.0 and c.passed is True
+    c = protection_checks(system, Installation(90, 40.0, 6, "raceway", 75))[0]
+    assert c.limit == 45.0 and c.passed is False
+
+
+def test_conductor_check_uses_the_tables_for_a_sized_run(demo_module):
+    # NEC 690.8(B) with Table 310.16: 3 strings x 9.8 A x 1.25 = 36.75 A, 45.94 A
+    # for the conductor. 10 AWG: 75 degC column 35 A < 45.94 A, fails; 8 AWG: 50 A passes.
+    from pvsource.conductors import parse_size
+    from pvsource.wiring import CableRun
+    for size, ok in (("10 AWG", False), ("8 AWG", True)):
+        run = CableRun("feeder", "feeder", 10.0, 2.0, size=parse_size(size))
+        checks = design_checks(make_system(demo_module, groups=((2, 3),), cables=(run,)), -10.0, 35.0)
+        c = next(c for c in checks if c.name == "conductor_current[feeder]")
+        assert c.value == pytest.approx(1.5625 * 3 * 9.8) and c.passed is ok
+        assert c.rule.startswith("ampacity")
+
+
+def test_a_typed_rating_stays_with_its_size(demo_module):
+    # The exploration's complaint: a rating typed for 6 AWG (65 A) must not
+    # judge 2 AWG. 2 AWG copper: NEC 310.16 115 A (75 degC column).
+    from pvsource import explore as ex
+    from pvsource.conductors import parse_size
+    from pvsource.wiring import CableRun
+    run = CableRun("feeder", "feeder", 10.0, 1.3, size=parse_size("6 AWG"), ampacity_a=65.0)
+    system = make_system(demo_module, groups=((2, 12),), cables=(run,))
+    before = next(c for c in design_checks(system, -10, 35) if c.name == "conductor_current[feeder]")
+    assert before.limit == 65.0 and before.passed is False   # 12 x 9.8 x 1.5625 = 183.75 A
+    bigger = ex.apply(system, {"size:feeder": parse_size("2 AWG")})
+    after = next(c for c in design_checks(bigger, -10, 35) if c.name == "conductor_current[feeder]")
+    assert after.limit == pytest.approx(min(115.0, 1.25 * 130.0))
+    assert "ampacity" in after.reason() and "conductor_current[feeder]" in after.reason()

@@ -83,8 +83,13 @@ def test_wire_record_flags_runs_over_budget(wired):
     rec = wire_record(system, row, 0.005)
     over = {r["name"] for r in rec["runs"] if r["breaks_budget"]}
     assert set(rec["over_budget"]) == over
-    assert all(r["drop_pct"] > 0.5 for r in rec["runs"] if r["name"] in over)
+    assert all(r["drop_pct"] > r["budget_pct"] for r in rec["runs"] if r["name"] in over)
     assert rec["total"]["loss_w"] == pytest.approx(row["cable_loss_w"])
+    # Budgets add along a path like drops in series (Kirchhoff): the shares of
+    # each group's string lead, home run and the feeder stay within the circuit's 0.5 %.
+    for g in system.groups:
+        path = [r["budget_pct"] for r in rec["runs"] if r["circuit"] == "pv" and r["group"] in (None, g.name)]
+        assert sum(path) <= 0.5 + 1e-9
 
 
 def test_one_run_matches_the_k_factor_rule():
