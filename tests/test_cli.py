@@ -84,7 +84,9 @@ def test_without_the_power_coefficient_fit_point_and_check_say_hot_power_may_be_
     system.write_text(GOOD.replace("pmax_temp_coeff_pct", "# pmax_temp_coeff_pct"))
     for args in (("point", str(system)), ("check", str(system), "--min-temp", "-20", "--max-temp", "40")):
         code, out, _ = run(capsys, *args)
-        assert code == 0 and "hot-cell power may be optimistic" in out and "pmax_temp_coeff_pct" in out
+        # check exits 1 when one of its checks fails (tested apart); the note shows either way.
+        assert code in ((0,) if args[0] == "point" else (0, 1))
+        assert "hot-cell power may be optimistic" in out and "pmax_temp_coeff_pct" in out
     code, out, _ = run(capsys, "point", str(DATA / "example-system.toml"))
     assert code == 0 and "hot-cell power may be optimistic" not in out
 
