@@ -174,8 +174,8 @@ def test_six_parameter_failure_keeps_the_five_parameter_fit_and_says_so(monkeypa
     monkeypatch.setattr(mod, "_six_parameter_solve", no_solution)
     m = fit_datasheet(replace(DEMO_DATASHEET, pmax_temp_coeff_pct=-0.37))
     assert m.fit.method == "desoto"
-    assert "forced for the test" in m.fit.note and "pmax_temp_coeff_pct" in m.fit.note
-    assert mod.model_notes(m)
+    assert "forced for the test" in m.fit.note and "pmax_temp_coeff_pct = -0.37" in m.fit.note
+    assert "check the coefficient" in mod.model_notes(m)[0]
 
 
 def test_explicit_estimate_is_kept_and_said_when_the_full_fit_fails(monkeypatch):
@@ -206,6 +206,9 @@ def test_explicit_estimate_is_kept_and_said_when_the_full_fit_fails(monkeypatch)
     (dict(pmax_temp_coeff_pct=0.4), "pmax_temp_coeff_pct"),     # the sign: power falls with heat
     (dict(pmax_temp_coeff_pct=-4.0), "pmax_temp_coeff_pct"),    # a fraction typed as per cent
     (dict(pmax_temp_coeff_pct=float("inf")), "pmax_temp_coeff_pct"),
+    # Law: Pmp = Voc Isc FF and the fill factor falls with heat (Green 1982),
+    # so the Pmp coefficient lies below -0.29 + 0.05 = -0.24 %/degC.
+    (dict(pmax_temp_coeff_pct=-0.2), "pmax_temp_coeff_pct"),
     (dict(noct_c=318.0), "noct_c"),                             # kelvin, not degC
     (dict(noct_c=-45.0), "noct_c"),
 ])
