@@ -294,3 +294,27 @@ def test_cec_library_parameters_entered_directly_reproduce_the_records_datasheet
                                                         r.R_sh_ref, r.R_s, r.Adjust))["p_mp"]
     ours = mod.key_points(parameters_at(p, 1000.0, 65.0))["p_mp"]
     assert float(ours) == pytest.approx(float(ref), rel=1e-9)
+
+
+def test_every_path_that_evaluates_the_model_carries_the_adjustment():
+    # Reference: pvlib calcparams_cec + singlediode on a CEC library record's
+    # own six parameters (Adjust included); the operating-point pipeline and
+    # the hot-Vmp check must give the same module power and Vmp at 65 degC.
+    from pvsource.checks import min_string_vmp
+    from pvsource.operating import operating_points
+
+    from conftest import make_system
+
+    r = pvsystem.retrieve_sam("CECMod")["A10Green_Technology_A10J_S72_175"]
+    p = DiodeParameters(float(r.I_L_ref), float(r.I_o_ref), float(r.R_s), float(r.R_sh_ref), float(r.a_ref),
+                        float(r.alpha_sc), int(r.N_s), adjust_pct=float(r.Adjust))
+    system = make_system(module_from_parameters(p), groups=((2, 1),))
+    ref = pvsystem.singlediode(*pvsystem.calcparams_cec(1000.0, 65.0, r.alpha_sc, r.a_ref, r.I_L_ref, r.I_o_ref,
+                                                        r.R_sh_ref, r.R_s, r.Adjust))
+    without = pvsystem.singlediode(*pvsystem.calcparams_cec(1000.0, 65.0, r.alpha_sc, r.a_ref, r.I_L_ref,
+                                                            r.I_o_ref, r.R_sh_ref, r.R_s, 0.0))
+    assert abs(float(without["p_mp"]) / float(ref["p_mp"]) - 1) > 1e-3   # leaving Adjust out would show
+    df = operating_points(system, 1000.0, 65.0)
+    assert float(df["groups_p_mp_w"].iloc[0]) == pytest.approx(2 * float(ref["p_mp"]), rel=1e-6)
+    check = min_string_vmp(system, 65.0, 0.0)
+    assert check.value == pytest.approx(2 * float(ref["v_mp"]), rel=1e-6)
