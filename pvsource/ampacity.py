@@ -137,6 +137,21 @@ def check_installation(inst: Installation, where: str, names: dict | None = None
     return inst
 
 
+def check_series(series: str, given: dict, where: str, names: dict | None = None) -> None:
+    """Refuse installation values the size's standard has no table for (``given``: field -> value)."""
+    names = names or {}
+    if series == "awg":
+        if given.get("install") in IEC_METHODS:
+            raise InputError(where, names.get("install", "install"),
+                             f"{given['install']!r} is an IEC method; an AWG size takes raceway or free-air")
+        if given.get("insulation_c", 90.0) not in (60.0, 75.0, 90.0):
+            raise InputError(where, names.get("insulation_c", "insulation_c"),
+                             "NEC 310.16 has 60, 75 and 90 degC columns for an AWG size")
+    elif given.get("insulation_c", 90.0) not in (70.0, 90.0):
+        raise InputError(where, names.get("insulation_c", "insulation_c"),
+                         "IEC 60364-5-52 tabulates 70 (PVC) and 90 (XLPE) degC for a metric size")
+
+
 @dataclass(frozen=True)
 class Ampacity:
     """A size's ampacity in an installation.

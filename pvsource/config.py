@@ -239,6 +239,8 @@ def parse_cable(table: Table, index: int, group_names) -> CableRun:
         installed["install"] = table.text("install", choices=ampacity_tables.INSTALLS)
     ampacity_tables.check_installation(ampacity_tables.Installation(**installed), where,
                                        {k: table.field(k) for k in installed})
+    if size is not None:
+        ampacity_tables.check_series(size.series, installed, where, {k: table.field(k) for k in installed})
     fuse = table.number("fuse_a", float("nan"), positive=True, maximum=1.0e5)
     interrupting = table.number("fuse_interrupting_a", float("nan"), positive=True, maximum=1.0e7)
     run = CableRun(

@@ -178,6 +178,12 @@ def test_a_given_resistance_wins_over_the_size(tmp_path):
     (("resistance_ohm_per_km = 3.4", 'size = "6 mm2"\nampacity_a = -5'), "[[cable]] #1.ampacity_a", "greater"),
     (("resistance_ohm_per_km = 3.4", 'size = "6 mm2"\nresistance_basis = "guess"'), "[[cable]] #1.resistance_basis",
      "table"),
+    (("resistance_ohm_per_km = 3.4", 'size = "6 mm2"\ninsulation_c = 75'), "[[cable]] #1.insulation_c", "IEC 60364-5-52"),
+    (("resistance_ohm_per_km = 3.4", 'size = "10 AWG"\ninstall = "C"'), "[[cable]] #1.install", "IEC method"),
+    (("resistance_ohm_per_km = 3.4", 'size = "10 AWG"\ninstall = "buried"'), "[[cable]] #1.install", "one of"),
+    (("resistance_ohm_per_km = 3.4", 'size = "10 AWG"\nconductors_together = 0'), "[[cable]] #1.conductors_together",
+     "greater"),
+    (("resistance_ohm_per_km = 3.4", 'size = "10 AWG"\nambient_c = 95'), "[[cable]] #1.ambient_c", "-50 to 85"),
 ])
 def test_bad_cable_tables(tmp_path, edit, field, words):
     with pytest.raises(InputError) as exc:
@@ -240,3 +246,13 @@ def test_bank_needs_a_controller_kind_and_excludes_a_load(tmp_path):
         load_system(write(tmp_path, BANK + '\n[load]\nkind = "mpp"\n'))
     with pytest.raises(InputError, match="unknown override|overrides"):
         load_system(write(tmp_path, BANK + "\n[bank.overrides]\nvoltage_boost = 3\n"))
+
+
+def test_a_run_carries_its_installation_and_protection(tmp_path):
+    from pvsource.wiring import run_ampacity
+    text = GOOD.replace("resistance_ohm_per_km = 3.4", 'size = "10 AWG"\nambient_c = 45\nconductors_together = 6\n'
+                                                       'fuse_a = 30\nfuse_interrupting_a = 10000')
+    run = load_system(write(tmp_path, text)).cables[0]
+    assert (run.fuse_a, run.fuse_interrupting_a) == (30.0, 10000.0)
+    # NEC 310.16 90 degC 40 A x 310.15(B)(1) 0.87 (41-45 degC) x 310.15(C)(1) 0.80 = 27.84 A.
+    assert run_ampacity(run).corrected_a == pytest.approx(27.84)
