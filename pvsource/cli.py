@@ -422,6 +422,9 @@ def explore(
     price_per_kg: Annotated[float, typer.Option("--price-per-kg", help="Conductor metal price per kg.")],
     energy_value: Annotated[float, typer.Option("--energy-value", help="Value of one lost kWh.")],
     years: Annotated[float, typer.Option("--years", help="Service life [years].")] = 20.0,
+    budget_pct: Annotated[Optional[float], typer.Option(
+        "--budget-pct", help="Exclude designs whose PV or battery circuit drops more than this at STC "
+                             "[% of the circuit voltage]; default: no drop rule.")] = None,
     tz: Annotated[Optional[str], typer.Option("--tz", help="Time zone of naive timestamps.")] = None,
     resume: Annotated[bool, typer.Option("--resume", help="Skip the combinations already in --out.")] = False,
     engine: Annotated[str, typer.Option("--engine", help="local (this machine's cores) or dask.")] = "local",
@@ -450,7 +453,8 @@ def explore(
     weather = read_weather(weather_file, tz=tz)
     folder = prepare_folder(out, force or resume, (system_file, weather_file))
     ranked = run_explore(system, weather, choices, folder,
-                         {"price_per_kg": price_per_kg, "energy_value": energy_value, "years": years},
+                         {"price_per_kg": price_per_kg, "energy_value": energy_value, "years": years,
+                          "budget_fraction": _budget_fraction(budget_pct)},
                          resume=resume, progress=_progress("explore"), engine=engine, workers=workers,
                          scheduler=scheduler)
     table = ranked.copy()

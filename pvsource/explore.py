@@ -1,8 +1,9 @@
 """Design-space search: every combination of a few design choices over a weather year.
 
 Each combination is checked (:func:`pvsource.checks.design_checks` against the
-weather's own temperature extremes); combinations that fail a check are kept
-out and say why. The rest run the season study and are ranked by delivered
+weather's own temperature extremes, each varied conductor size by its own
+ampacity, and with a drop budget each circuit's drop at STC); combinations
+that fail are kept out and say why, naming the rule in words. The rest run the season study and are ranked by delivered
 energy, wiring loss and lifetime cost:
 
     lifetime cost = conductor metal mass x price per kg
@@ -33,7 +34,7 @@ from pvsource import bank as bank_model
 from pvsource import conductors
 from pvsource.checks import design_checks
 from pvsource.errors import InputError
-from pvsource.runs import resize_run
+from pvsource.runs import drop_budget_reasons, resize_run
 from pvsource.season import run_season
 from pvsource.system import System
 
@@ -149,6 +150,8 @@ def evaluate(system: System, weather: pd.DataFrame, combo: dict, prices: dict) -
     # Each varied size is judged by its own ampacity from the run's
     # installation (resize_run drops a rating typed for another size).
     failed = [c.reason() for c in design_checks(variant, t_min, t_max) if c.failed]
+    if prices.get("budget_fraction") is not None:
+        failed += drop_budget_reasons(variant, prices["budget_fraction"])
     if failed:
         return {**row, "excluded": True, "reason": "; ".join(failed)}
     try:

@@ -333,6 +333,21 @@ def wire_record(system: System, row, budget_fraction: float = DEFAULT_DROP_BUDGE
     }
 
 
+def drop_budget_reasons(system: System, budget_fraction: float) -> list[str]:
+    """Why a system breaks a per-circuit drop budget at its STC design point, in words (empty when it does not).
+
+    The design point is ``wire``'s: STC, the system's own load or bank.
+    """
+    from pvsource.operating import operating_points  # the solver is needed only here
+
+    if not system.cables:
+        return []
+    row = operating_points(system, 1000.0, 25.0).iloc[0]
+    return [f"drop budget: the {c['circuit']} circuit drops {c['drop_pct']:.2f} % at STC against "
+            f"{100 * budget_fraction:g} %" for c in circuit_drops(system, run_flows(system, row))
+            if c["drop_pct"] > 100.0 * budget_fraction * (1 + 1e-9)]
+
+
 def quick_record(current_a: float, length_m: float, size_text: str, material: str = "copper",
                  temp_c: float = conductors.DEFAULT_CONDUCTOR_TEMP_C, volts: float | None = None,
                  budget_fraction: float | None = None, conductors_in_parallel: int = 1,

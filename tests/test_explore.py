@@ -171,3 +171,19 @@ def test_killing_a_dask_worker_midway_loses_nothing(short_year, tmp_path):
     assert len(ranked) == 8 and not ranked["id"].duplicated().any()
     pd.testing.assert_frame_equal(ranked, local)
     pd.testing.assert_frame_equal(resumed, local)
+
+
+def test_a_drop_budget_excludes_by_circuit_and_says_so(short_year):
+    # Kirchhoff: the PV circuit's drop is the string terminals' voltage less the
+    # controller's input voltage at the same STC point; it must match the reason's figure.
+    import re
+
+    from pvsource.operating import operating_points
+    system, weather = short_year
+    row = operating_points(system, 1000.0, 25.0).iloc[0]
+    g = system.groups[0].name
+    pv_pct = 100 * (row[f"group_{g}_v"] - row["controller_input_v"]) / row[f"group_{g}_v"]
+    out = ex.evaluate(system, weather, {}, {**PRICES, "budget_fraction": pv_pct / 100 / 2})
+    assert out["excluded"] and "drop budget: the pv circuit" in out["reason"]
+    shown = float(re.search(r"pv circuit drops ([0-9.]+) %", out["reason"]).group(1))
+    assert shown == pytest.approx(pv_pct, abs=0.006)
