@@ -160,7 +160,7 @@ def point(
     frame = operating_points(system, g, t)
     rec = point_record(system, frame.iloc[0])
     rec["notes"] = model_notes(system.module)
-    rec["cautions"] = list(cautions.GENERAL)
+    rec["cautions"] = cautions.for_command("point", system)
     if as_json:
         _emit_json(rec)
     else:

@@ -143,7 +143,7 @@ def render_point(system: System, rec: dict) -> str:
         lines.append("\nNOTE: current flows back into the array: the load's voltage is above what the array "
                      "can reach at these conditions.")
     lines.extend(f"\nNOTE: {n}" for n in rec.get("notes", ()))
-    lines.append(render_cautions())
+    lines.append(render_caution_list(rec.get("cautions", cautions.GENERAL)))
     return "\n".join(lines)
 
 
