@@ -87,6 +87,8 @@ IEC_TABLES = {(r["method"], float(r["insulation_c"]), float(r["area_mm2"])): flo
 IEC_AMBIENT = sorted((float(r["insulation_c"]), float(r["ambient_max_c"]), float(r["factor"]))
                      for r in _read("iec_60364_5_52_b52_14.csv"))
 IEC_GROUPING = sorted((int(r["circuits_max"]), float(r["factor"])) for r in _read("iec_60364_5_52_b52_17.csv"))
+#: NEC 240.4(D): the largest overcurrent protection of small conductors [A], by (label, material).
+SMALL_CONDUCTOR_MAX_A = {(r["size"], r["material"]): float(r["max_protection_a"]) for r in _read("nec_240_4_d.csv")}
 #: NEC 240.6(A) standard ampere ratings of fuses and inverse-time breakers [A].
 STANDARD_RATINGS_A = tuple(sorted(float(r["rating_a"]) for r in _read("nec_240_6_a.csv")))
 

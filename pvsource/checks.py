@@ -391,8 +391,12 @@ def protection_checks(system: System, defaults: amp.Installation = amp.Installat
             limit = usable if std or usable > 800.0 else min(amp.next_standard_rating(usable), 800.0)
             how = (f"the conductor's {usable:.1f} A ({a.basis})"
                    + ("" if limit == usable else f", next standard rating up {limit:g} A (NEC 240.4(B))"))
+            small = amp.SMALL_CONDUCTOR_MAX_A.get((run.size.label, run.material)) if run.size else None
+            if small is not None and run.ampacity_a is None and small * run.conductors_in_parallel < limit:
+                limit = small * run.conductors_in_parallel
+                how += f", but at most {small:g} A for {run.size.label} {run.material} (NEC 240.4(D))"
         out.append(Check(f"fuse_rating[{run.name}]", run.fuse_a, limit, "A", _compare(run.fuse_a, limit, "max"),
-                         "NEC 240.4 and 240.4(B), 240.6(A)", "max", f"fuse_a {run.fuse_a:g} A against {how}",
+                         "NEC 240.4, 240.4(B) and (D), 240.6(A)", "max", f"fuse_a {run.fuse_a:g} A against {how}",
                          "fuse: the fuse must protect the conductor it feeds"))
     return out
 

@@ -248,3 +248,20 @@ def test_a_typed_rating_stays_with_its_size(demo_module):
     after = next(c for c in design_checks(bigger, -10, 35) if c.name == "conductor_current[feeder]")
     assert after.limit == pytest.approx(min(115.0, 1.25 * 130.0))
     assert "ampacity" in after.reason() and "conductor_current[feeder]" in after.reason()
+
+
+@pytest.mark.parametrize("size, material, fuse, limit", [
+    ("10 AWG", "copper", 35.0, 30.0),     # NEC 240.4(D)(7): 30 A, though 310.16 gives 35 A at 75 degC
+    ("12 AWG", "copper", 20.0, 20.0),     # 240.4(D)(5)
+    ("10 AWG", "aluminium", 30.0, 25.0),  # 240.4(D)(8)
+    ("8 AWG", "copper", 50.0, 50.0),      # not a small conductor: 310.16 75 degC column, 50 A
+])
+def test_small_conductors_keep_their_240_4_d_limits(demo_module, size, material, fuse, limit):
+    # NEC 240.4(D) (from memory) caps the protection of 14-10 AWG copper and
+    # 12-10 AWG aluminium below their table ampacity.
+    from pvsource.checks import protection_checks
+    from pvsource.conductors import parse_size
+    from pvsource.wiring import CableRun
+    run = CableRun("feeder", "feeder", 10.0, 2.0, size=parse_size(size), material=material, fuse_a=fuse)
+    c = protection_checks(make_system(demo_module, groups=((2, 1),), cables=(run,)))[0]
+    assert c.limit == limit and c.passed is (fuse <= limit)
