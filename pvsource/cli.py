@@ -364,6 +364,46 @@ def _season_outputs(system, weather, out: Path, force: bool, transposition: str,
 
 
 TRANSPOSITIONS = ("perez", "haydavies", "isotropic")
+TIME_LABELS = ("start", "middle", "end", "instant")  # pvsource.weather.TIME_LABELS, without importing pvlib here
+
+# The weather options: one name for one thing in season, explore and fleet.
+ColumnOption = Annotated[Optional[list[str]], typer.Option(
+    "--column", metavar="NAME=CSVCOLUMN",
+    help="Map one of pvsource's column names to the CSV's; a unit may follow, e.g. 'temp_air=Tamb (degF)'.")]
+TzOption = Annotated[Optional[str], typer.Option(
+    "--tz", help="Time zone of naive timestamps, e.g. Etc/GMT-1 or Europe/Berlin (daylight saving becomes "
+                 "standard time).")]
+BadRowsOption = Annotated[str, typer.Option("--bad-rows", help="fail, fill or skip rows that fail the checks.")]
+TranspositionOption = Annotated[str, typer.Option("--transposition", help="perez, haydavies or isotropic.")]
+TimeLabelOption = Annotated[Optional[str], typer.Option(
+    "--time-label", help="What a CSV timestamp marks: the start, middle or end of the interval its values "
+                         "average over, or an instant (the default). TMY3 and EPW are hour-ending.")]
+TimeFormatOption = Annotated[Optional[str], typer.Option(
+    "--time-format", metavar="PATTERN",
+    help="strftime pattern of the CSV timestamps, e.g. '%d.%m.%Y %H:%M' (default: ISO 8601).")]
+
+
+def _weather_reader(column, tz, policy, transposition, time_label, time_format):
+    """Check the weather options once; return a function that reads one weather file with them."""
+    if transposition not in TRANSPOSITIONS:
+        raise InputError("--transposition", None, f"expected one of {', '.join(TRANSPOSITIONS)}, got {transposition!r}")
+    if policy not in ("fail", "fill", "skip"):
+        raise InputError("--bad-rows", None, f"expected fail, fill or skip, got {policy!r}")
+    if time_label is not None and time_label not in TIME_LABELS:
+        raise InputError("--time-label", None, f"expected one of {', '.join(TIME_LABELS)}, got {time_label!r}")
+    columns = {}
+    for text in column or []:
+        name, sep, csv_name = text.partition("=")
+        if not sep or not name.strip() or not csv_name.strip():
+            raise InputError("--column", None, f"expected NAME=CSVCOLUMN, got {text!r}")
+        columns[name.strip()] = csv_name.strip()
+
+    def read(path):
+        from pvsource.weather import read_weather
+
+        return read_weather(path, columns=columns or None, tz=tz, policy=policy, time_label=time_label,
+                            time_format=time_format)
+    return read
 
 
 @app.command()
@@ -371,29 +411,19 @@ def season(
     system_file: Annotated[Path, typer.Argument(metavar="SYSTEM.toml", help="The system file, with a [site].")],
     weather_file: Annotated[Path, typer.Argument(metavar="WEATHER", help="A weather CSV, TMY3 file or EPW file.")],
     out: Annotated[Path, typer.Option("--out", metavar="DIR", help="Folder for tables, figures and the report.")],
-    column: Annotated[Optional[list[str]], typer.Option(
-        "--column", metavar="NAME=CSVCOLUMN", help="Map one of pvsource's column names to the CSV's.")] = None,
-    tz: Annotated[Optional[str], typer.Option("--tz", help="Time zone of naive timestamps, e.g. Etc/GMT-1.")] = None,
-    policy: Annotated[str, typer.Option("--bad-rows", help="fail, fill or skip rows that fail the checks.")] = "fail",
-    transposition: Annotated[str, typer.Option("--transposition", help="perez, haydavies or isotropic.")] = "perez",
+    column: ColumnOption = None,
+    tz: TzOption = None,
+    policy: BadRowsOption = "fail",
+    transposition: TranspositionOption = "perez",
+    time_label: TimeLabelOption = None,
+    time_format: TimeFormatOption = None,
     force: Annotated[bool, typer.Option("--force", help="Write into a folder that already holds files.")] = False,
     as_json: Annotated[bool, typer.Option("--json", help="Print the summary as one JSON object.")] = False,
 ):
     """A season of weather through the whole system: energy, losses, stages, state of charge; tables, figures, report."""
-    if transposition not in TRANSPOSITIONS:
-        raise InputError("--transposition", None, f"expected one of {', '.join(TRANSPOSITIONS)}, got {transposition!r}")
-    if policy not in ("fail", "fill", "skip"):
-        raise InputError("--bad-rows", None, f"expected fail, fill or skip, got {policy!r}")
-    columns = {}
-    for text in column or []:
-        name, sep, csv_name = text.partition("=")
-        if not sep or not name.strip() or not csv_name.strip():
-            raise InputError("--column", None, f"expected NAME=CSVCOLUMN, got {text!r}")
-        columns[name.strip()] = csv_name.strip()
+    read = _weather_reader(column, tz, policy, transposition, time_label, time_format)
     system = load_system(system_file)
-    from pvsource.weather import read_weather
-
-    weather = read_weather(weather_file, columns=columns or None, tz=tz, policy=policy)
+    weather = read(weather_file)
     _season_outputs(system, weather, out, force, transposition, as_json, (system_file, weather_file))
 
 
@@ -425,7 +455,12 @@ def explore(
     budget_pct: Annotated[Optional[float], typer.Option(
         "--budget-pct", help="Exclude designs whose PV or battery circuit drops more than this at STC "
                              "[% of the circuit voltage]; default: no drop rule.")] = None,
-    tz: Annotated[Optional[str], typer.Option("--tz", help="Time zone of naive timestamps.")] = None,
+    column: ColumnOption = None,
+    tz: TzOption = None,
+    policy: BadRowsOption = "fail",
+    transposition: TranspositionOption = "perez",
+    time_label: TimeLabelOption = None,
+    time_format: TimeFormatOption = None,
     resume: Annotated[bool, typer.Option("--resume", help="Skip the combinations already in --out.")] = False,
     engine: Annotated[str, typer.Option("--engine", help="local (this machine's cores) or dask.")] = "local",
     workers: Annotated[Optional[int], typer.Option("--workers", help="Processes (local) or LocalCluster workers.")]
@@ -440,23 +475,23 @@ def explore(
                                 ("--years", years, 0.1, 100.0)):
         if not math.isfinite(value) or not lo <= value <= hi:
             raise InputError(name, None, f"expected {lo:g} to {hi:g}, got {value!r}")
+    read = _weather_reader(column, tz, policy, transposition, time_label, time_format)
     system = load_system(system_file)
     from pvsource.explore import explore as run_explore
     from pvsource.explore import parse_vary
-    from pvsource.weather import read_weather
 
     if workers is not None and not 1 <= workers <= 1024:
         raise InputError("--workers", None, f"expected 1 to 1024, got {workers}")
     if scheduler is not None and engine != "dask":
         raise InputError("--scheduler", None, "goes with --engine dask")
     choices = parse_vary(vary, system)
-    weather = read_weather(weather_file, tz=tz)
+    weather = read(weather_file)
     folder = prepare_folder(out, force or resume, (system_file, weather_file))
     ranked = run_explore(system, weather, choices, folder,
                          {"price_per_kg": price_per_kg, "energy_value": energy_value, "years": years,
                           "budget_fraction": _budget_fraction(budget_pct)},
                          resume=resume, progress=_progress("explore"), engine=engine, workers=workers,
-                         scheduler=scheduler)
+                         scheduler=scheduler, transposition=transposition)
     table = ranked.copy()
     _atomic_frame(folder / "results.parquet", table)
     if (~ranked["excluded"]).any():
@@ -474,21 +509,26 @@ def fleet(
     source: Annotated[Path, typer.Argument(
         metavar="FOLDER|MANIFEST.csv", help="A folder of NAME.toml + NAME.csv pairs, or a manifest CSV (name,system,weather).")],
     out: Annotated[Path, typer.Option("--out", metavar="DIR", help="Folder for the fleet table.")],
-    tz: Annotated[Optional[str], typer.Option("--tz", help="Time zone of naive timestamps.")] = None,
+    column: ColumnOption = None,
+    tz: TzOption = None,
+    policy: BadRowsOption = "fail",
+    transposition: TranspositionOption = "perez",
+    time_label: TimeLabelOption = None,
+    time_format: TimeFormatOption = None,
     force: Annotated[bool, typer.Option("--force", help="Write into a folder that already holds files.")] = False,
     as_json: Annotated[bool, typer.Option("--json", help="Print the table as JSON rows.")] = False,
 ):
     """The season study over many systems and weather files, with one summary table across them."""
     from pvsource.explore import fleet_table, read_fleet
-    from pvsource.weather import read_weather
 
+    read = _weather_reader(column, tz, policy, transposition, time_label, time_format)
     members = read_fleet(source)
     folder = prepare_folder(out, force, [p for _, s_, w in members for p in (s_, w)])
     report = _progress("fleet")
     results = []
     for k, (name, system_file, weather_file) in enumerate(members):
         system = load_system(system_file)
-        result = run_season(system, read_weather(weather_file, tz=tz))
+        result = run_season(system, read(weather_file), transposition=transposition)
         results.append((name, result.summary))
         if report:
             report(k + 1, len(members))

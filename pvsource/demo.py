@@ -92,6 +92,10 @@ def synthetic_weather(system: System | None = None, *, year: int = DEMO_YEAR, fr
         "load_w": household_load_w(times),
     }, index=times)
     weather.attrs["step_h"] = pd.Timedelta(freq).total_seconds() / 3600.0
-    weather.attrs["notes"] = [f"synthetic weather: clear sky (Ineichen, Linke turbidity {LINKE_TURBIDITY:g}) "
+    from pvsource.weather import time_note
+
+    weather.attrs["time_label"] = "instant"
+    weather.attrs["notes"] = [time_note("instant", weather.attrs["step_h"], "synthetic samples"),
+                              f"synthetic weather: clear sky (Ineichen, Linke turbidity {LINKE_TURBIDITY:g}) "
                               f"dimmed by a seeded cloud process (seed {seed}); invented load profile"]
     return weather

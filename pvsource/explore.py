@@ -19,6 +19,7 @@ interrupted search loses nothing finished, and ``resume`` skips what is done.
 
 from __future__ import annotations
 
+import functools
 import hashlib
 import itertools
 import json
@@ -142,7 +143,7 @@ def conductor_mass_kg(system: System) -> float:
     return total
 
 
-def evaluate(system: System, weather: pd.DataFrame, combo: dict, prices: dict) -> dict:
+def evaluate(system: System, weather: pd.DataFrame, combo: dict, prices: dict, transposition: str = "perez") -> dict:
     """One combination: excluded with reasons, or its energy, losses and lifetime cost."""
     row = {"id": combination_id(combo), **{k: getattr(v, "label", v) for k, v in combo.items()}}
     variant = apply(system, combo)
@@ -155,7 +156,7 @@ def evaluate(system: System, weather: pd.DataFrame, combo: dict, prices: dict) -
     if failed:
         return {**row, "excluded": True, "reason": "; ".join(failed)}
     try:
-        summary = run_season(variant, weather).summary
+        summary = run_season(variant, weather, transposition=transposition).summary
     except InputError as exc:
         return {**row, "excluded": True, "reason": exc.expected}
     years = span_years(summary)
@@ -202,24 +203,25 @@ def _write_part(folder: Path, row: dict) -> None:
 ENGINES = ("local", "dask")
 
 
-def _run_local(system, weather, todo, prices, parts: Path, workers: int | None, report) -> None:
+def _run_local(task, system, weather, todo, prices, parts: Path, workers: int | None, report) -> None:
     """In this process, or a pool of processes when there is more than one task and one core."""
     workers = workers or os.cpu_count() or 1
     if workers <= 1 or len(todo) <= 1:
         for combo in todo:
-            _write_part(parts, evaluate(system, weather, combo, prices))
+            _write_part(parts, task(system, weather, combo, prices))
             report()
         return
     from concurrent.futures import ProcessPoolExecutor, as_completed
 
     with ProcessPoolExecutor(max_workers=min(workers, len(todo))) as pool:
-        futures = [pool.submit(evaluate, system, weather, combo, prices) for combo in todo]
+        futures = [pool.submit(task, system, weather, combo, prices) for combo in todo]
         for future in as_completed(futures):
             _write_part(parts, future.result())
             report()
 
 
-def _run_dask(system, weather, todo, prices, parts: Path, workers: int | None, scheduler: str | None, report) -> None:
+def _run_dask(task, system, weather, todo, prices, parts: Path, workers: int | None, scheduler: str | None,
+              report) -> None:
     """On dask.distributed: an existing scheduler, or a LocalCluster started (and stopped) here."""
     try:
         from distributed import Client, LocalCluster, as_completed
@@ -236,7 +238,7 @@ def _run_dask(system, weather, todo, prices, parts: Path, workers: int | None, s
             raise InputError("--scheduler", None, f"cannot reach {scheduler!r} ({exc})") from None
     try:
         shared_system, shared_weather = client.scatter([system, weather], broadcast=True)
-        futures = [client.submit(evaluate, shared_system, shared_weather, combo, prices, pure=False) for combo in todo]
+        futures = [client.submit(task, shared_system, shared_weather, combo, prices, pure=False) for combo in todo]
         # Each result is written as it arrives: a lost worker loses only what it had not finished.
         for future in as_completed(futures):
             _write_part(parts, future.result())
@@ -249,11 +251,13 @@ def _run_dask(system, weather, todo, prices, parts: Path, workers: int | None, s
 
 def explore(system: System, weather: pd.DataFrame, vary: dict, out: Path, prices: dict,
             resume: bool = False, progress=None, engine: str = "local", workers: int | None = None,
-            scheduler: str | None = None) -> pd.DataFrame:
+            scheduler: str | None = None, transposition: str = "perez") -> pd.DataFrame:
     """Run every combination (skipping finished ones when resuming) and rank them.
 
     Parameters
     ----------
+    transposition : {"perez", "haydavies", "isotropic"}
+        The sky-diffuse model of every season study.
     engine : {"local", "dask"}
         ``local``: in this process, or a process pool over ``workers`` cores
         (default: all). ``dask``: dask.distributed, on the ``scheduler``
@@ -281,10 +285,12 @@ def explore(system: System, weather: pd.DataFrame, vary: dict, out: Path, prices
         if progress:
             progress(finished[0], len(combos))
 
+    # a partial of a module-level function pickles, so workers can run it
+    task = functools.partial(evaluate, transposition=transposition)
     if engine == "dask":
-        _run_dask(system, weather, todo, prices, parts, workers, scheduler, report)
+        _run_dask(task, system, weather, todo, prices, parts, workers, scheduler, report)
     else:
-        _run_local(system, weather, todo, prices, parts, workers, report)
+        _run_local(task, system, weather, todo, prices, parts, workers, report)
     wanted = {combination_id(c) for c in combos}
     frame = pd.concat([pd.read_parquet(p) for p in sorted(parts.glob("*.parquet")) if p.stem in wanted],
                       ignore_index=True)

@@ -244,6 +244,12 @@ def run_season(system: System, weather: pd.DataFrame, *, transposition: str = "p
     notes = list(weather.attrs.get("notes", []))
     notes.extend(model_notes(system.module))
     step_h = float(weather.attrs.get("step_h") or _step_hours(weather.index))
+    time_label = weather.attrs.get("time_label")
+    if time_label is None:
+        from pvsource.weather import time_note
+
+        time_label = "instant"
+        notes.insert(0, time_note(time_label, step_h, "no convention came with the weather"))
     report = progress or (lambda done, total: None)
     total = len(soc_grid(system)) + 3
     g, t, poa = group_conditions(system, weather, transposition)
@@ -285,6 +291,8 @@ def run_season(system: System, weather: pd.DataFrame, *, transposition: str = "p
     if soc_path is not None:
         steps["soc"] = soc_path
     summary = summarise(system, steps, step_h)
+    summary["time_label"] = time_label
+    summary["notes"] = notes
     if system.bank is not None and summary["poa_insolation_kwh_m2"] > 1.0 and summary["energy_stored_kwh"] <= 0.0:
         # A study of nothing must not look like a result.
         why = steps["limit"].value_counts().index[0] if len(steps) else "unknown"

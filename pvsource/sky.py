@@ -99,14 +99,29 @@ def sun_position(times: pd.DatetimeIndex, latitude: float, longitude: float, alt
                          "azimuth": np.mod(np.interp(ns, coarse_ns, azimuth), 360.0)}, index=times)
 
 
+def sun_times(weather: pd.DataFrame) -> pd.DatetimeIndex:
+    """Where the sun is placed for each row of the weather.
+
+    Interval values (``attrs["time_label"]`` start, middle or end; the
+    readers index them by the interval's start) see the sun at the middle of
+    the interval; samples (``"instant"``, or no label) at their own time.
+    """
+    times = weather.index
+    if weather.attrs.get("time_label", "instant") == "instant":
+        return times
+    step_h = weather.attrs.get("step_h") or pd.Series(times).diff().median() / pd.Timedelta(hours=1)
+    return times + pd.Timedelta(hours=float(step_h)) / 2
+
+
 def poa_conditions(weather: pd.DataFrame, latitude: float, longitude: float, altitude_m: float,
                    tilt_deg: float, azimuth_deg: float, *, model: str = "perez",
                    albedo: float = 0.2, mounting: str = "open_rack") -> pd.DataFrame:
     """Irradiance and cell temperature on one group's plane.
 
     The sun's apparent (refraction-corrected) position comes from
-    :func:`pvlib.solarposition.get_solarposition` [1]_ at the timestamps as
-    given; it is used throughout. With ``ghi``, the plane's irradiance comes
+    :func:`pvlib.solarposition.get_solarposition` [1]_ at `sun_times`: the
+    middle of each interval for interval data, the instant itself for
+    samples; it is used throughout. With ``ghi``, the plane's irradiance comes
     from :func:`pvlib.irradiance.get_total_irradiance` (Perez [3]_, with
     Kasten-Young air mass [5]_; Hay-Davies [4]_; or isotropic), after
     splitting ``ghi`` with Erbs [2]_ unless ``dni`` and ``dhi`` are both given.
@@ -120,7 +135,9 @@ def poa_conditions(weather: pd.DataFrame, latitude: float, longitude: float, alt
     Parameters
     ----------
     weather : pandas.DataFrame
-        From `read_weather`: time-zone-aware index, ``temp_air`` [degC],
+        From `read_weather`: time-zone-aware index (interval starts, or
+        instants), ``attrs["time_label"]`` and ``attrs["step_h"]`` [h] (a
+        frame without them is read as instants), ``temp_air`` [degC],
         ``ghi`` or ``poa_global`` [W/m2], optional ``dni``, ``dhi`` [W/m2] and
         ``wind_speed`` [m/s] (1 m/s when absent).
     latitude, longitude : float
@@ -163,10 +180,12 @@ def poa_conditions(weather: pd.DataFrame, latitude: float, longitude: float, alt
     light = "ghi" if "ghi" in weather else "poa_global"
     for name in (light, "temp_air", "dni", "dhi", "wind_speed"):
         if name in weather and weather[name].isna().any():
-            raise InputError(where, f"weather column {name}", "has missing values; read it with policy fill or skip")
+            raise InputError(where, f"weather column {name}", "has missing values; read it with --bad-rows fill or skip")
     notes = []
     temp_air = weather["temp_air"]
-    sun = sun_position(times, latitude, longitude, altitude_m, temp_air)
+    at = sun_times(weather)
+    sun = sun_position(at, latitude, longitude, altitude_m, temp_air)
+    sun.index = times
     zenith, sun_azimuth = sun["apparent_zenith"], sun["azimuth"]
     night = (zenith > 90).to_numpy()
     aoi = irradiance.aoi(tilt_deg, azimuth_deg, zenith, sun_azimuth)
@@ -180,12 +199,12 @@ def poa_conditions(weather: pd.DataFrame, latitude: float, longitude: float, alt
         if "dni" in weather and "dhi" in weather:
             dni, dhi = weather["dni"], weather["dhi"]
         else:
-            parts = irradiance.erbs(ghi, zenith, times)
+            parts = irradiance.erbs(ghi, zenith, at.dayofyear)
             dni, dhi = parts["dni"], parts["dhi"]
             notes.append("dni and dhi split from ghi with the Erbs model")
         poa = irradiance.get_total_irradiance(
             tilt_deg, azimuth_deg, zenith, sun_azimuth, dni, ghi, dhi,
-            dni_extra=irradiance.get_extra_radiation(times),
+            dni_extra=irradiance.get_extra_radiation(at.dayofyear),
             airmass=atmosphere.get_relative_airmass(zenith), albedo=albedo, model=model)
         direct, sky, ground = (daylight(poa[c]) for c in ("poa_direct", "poa_sky_diffuse", "poa_ground_diffuse"))
         diffuse_iam = iam.marion_diffuse("physical", tilt_deg)

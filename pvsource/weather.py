@@ -17,6 +17,7 @@ References
 from __future__ import annotations
 
 import csv
+import datetime
 import io
 import re
 from pathlib import Path
@@ -30,6 +31,15 @@ from pvsource.errors import InputError
 NAMES = ("timestamp", "ghi", "dni", "dhi", "poa_global", "temp_air", "wind_speed", "load_w")
 IRRADIANCE = ("ghi", "dni", "dhi", "poa_global")
 POLICIES = ("fail", "fill", "skip")
+# What a timestamp labels: the start, middle or end of the interval its values
+# average over, or the instant they were sampled at.
+TIME_LABELS = ("start", "middle", "end", "instant")
+# A plain timestamp says only when; read it as the instant it names. For
+# one-minute data every convention agrees to 30 s; for hourly data the note
+# asks the user to state it.
+DEFAULT_TIME_LABEL = "instant"
+# how far the label lies after the interval's start [steps]
+_LABEL_AFTER_START = {"start": 0.0, "middle": 0.5, "end": 1.0}
 # Longer runs of bad values are outages; interpolating them would hide that.
 FILL_LIMIT = 3
 # Non-leap, so a typical year's 8760 hours (from several source years) become
@@ -52,21 +62,26 @@ _OFFSET = r"\d:\d\d(?::\d\d(?:\.\d+)?)?\s*(?:Z|[+-]\d\d(?::?\d\d)?)$"
 
 
 def read_weather(path, *, columns: dict | None = None, tz: str | None = None,
-                 policy: str = "fail") -> pd.DataFrame:
+                 policy: str = "fail", time_label: str | None = None,
+                 time_format: str | None = None) -> pd.DataFrame:
     """Read an EPW, TMY3 or plain CSV weather file.
 
     ``.epw`` goes to :func:`pvlib.iotools.read_epw`; a file whose first line is
     the TMY3 site header [1]_ (7 comma-separated fields, station number first)
     to :func:`pvlib.iotools.read_tmy3`; anything else to `read_weather_csv`.
     A typical year mixes source years, so EPW and TMY3 times move into
-    `TYPICAL_YEAR`. The same checks and `policy` apply to all three.
+    `TYPICAL_YEAR`. EPW and TMY3 values are means over the hour ending at
+    the label [1]_, so their ``time_label`` is ``"end"`` by definition. The
+    same checks and `policy` apply to all three.
 
     Parameters
     ----------
     path : str or Path
-    columns, tz, policy
-        As for `read_weather_csv`; ``columns`` is for plain CSV only, and
-        ``tz`` converts an EPW/TMY3 index (which carries the file's offset).
+    columns, tz, policy, time_label, time_format
+        As for `read_weather_csv`; ``columns`` and ``time_format`` are for
+        plain CSV only, ``time_label`` may only confirm ``"end"`` for EPW and
+        TMY3, and ``tz`` converts an EPW/TMY3 index (which carries the file's
+        offset).
 
     Returns
     -------
@@ -78,9 +93,14 @@ def read_weather(path, *, columns: dict | None = None, tz: str | None = None,
     _check_policy(policy)
     kind = "EPW" if path.suffix.lower() == ".epw" else ("TMY3" if _is_tmy3(path) else None)
     if kind is None:
-        return read_weather_csv(path, columns=columns, tz=tz, policy=policy)
-    if columns:
-        raise InputError("--column", None, f"applies to plain CSV files only; {where} is {kind}")
+        return read_weather_csv(path, columns=columns, tz=tz, policy=policy, time_label=time_label,
+                                time_format=time_format)
+    for option, value in (("--column", columns), ("--time-format", time_format)):
+        if value:
+            raise InputError(option, None, f"applies to plain CSV files only; {where} is {kind}")
+    if time_label not in (None, "end"):
+        raise InputError("--time-label", time_label, f"{where} is {kind}, whose values are means over the "
+                         "hour ending at each label by definition; leave --time-label out")
     try:
         if kind == "EPW":
             data, meta = iotools.read_epw(str(path), coerce_year=TYPICAL_YEAR)
@@ -97,26 +117,97 @@ def read_weather(path, *, columns: dict | None = None, tz: str | None = None,
     df.attrs["notes"].insert(0, f"read as {kind} with pvlib; year set to {TYPICAL_YEAR}")
     df.attrs["site"] = {"latitude": float(meta["latitude"]), "longitude": float(meta["longitude"]),
                         "altitude_m": float(meta["altitude"])}
-    return df
+    if kind == "EPW":
+        # pvlib's EPW reader already moves each hour-ending row to its start
+        return place_in_time(df, "start", "EPW is hour-ending by definition; pvlib's reader labels each hour "
+                             "by its start")
+    return place_in_time(df, "end", "TMY3 is hour-ending by definition")
+
+
+def place_in_time(frame: pd.DataFrame, label: str, why: str) -> pd.DataFrame:
+    """Put each row at the start of its interval, on the site's standard time.
+
+    Interval values (``label`` start, middle or end) belong to the interval
+    they average over, so the row moves to the interval's start, by the
+    median step: a day or month then holds exactly the intervals that lie in
+    it (a TMY3 file's "24:00" on 31 December is the last hour of the year,
+    not a 13th month). Instants stay where they are. A zone with daylight
+    saving moves to its standard offset, so no hour is doubled or missing.
+
+    Parameters
+    ----------
+    frame : pandas.DataFrame
+        From the readers: a time-zone-aware index, ``attrs["step_h"]`` [h].
+    label : {"start", "middle", "end", "instant"}
+    why : str
+        Where the convention comes from, for the note.
+
+    Returns
+    -------
+    pandas.DataFrame
+        The same frame, re-indexed; ``attrs["time_label"]`` holds ``label``
+        and ``attrs["notes"]`` says what was done.
+    """
+    notes = frame.attrs.setdefault("notes", [])
+    step = pd.Timedelta(hours=frame.attrs["step_h"])
+    index = frame.index
+    if label in _LABEL_AFTER_START:
+        index = index - step * _LABEL_AFTER_START[label]
+    frame.index = _standard_time(index, notes).rename("timestamp")
+    frame.attrs["time_label"] = label
+    notes.insert(0, time_note(label, frame.attrs["step_h"], why))
+    return frame
+
+
+def time_note(label: str, step_h: float, why: str) -> str:
+    """One line saying which time convention a study used."""
+    if label == "instant":
+        return (f"time: each value is a sample at its timestamp ({why}); the sun is placed there and each "
+                f"value stands for one step of {step_h:g} h")
+    where = {"start": "starting", "middle": "centred", "end": "ending"}[label]
+    return (f"time: each value is the mean over the {step_h:g} h interval {where} at its label ({why}); "
+            "steps are listed at the interval's start, the sun is placed at its middle, and each interval "
+            "counts in the day and month where it lies")
+
+
+def _standard_time(index: pd.DatetimeIndex, notes: list) -> pd.DatetimeIndex:
+    zone = index.tz
+    years = range(index.min().year, index.max().year + 1)
+    probes = pd.DatetimeIndex([f"{y}-{m:02d}-15" for y in years for m in (1, 4, 7, 10)]).tz_localize(zone)
+    offsets = {t.utcoffset() for t in probes}
+    if len(offsets) == 1:
+        return index
+    # Clocks move forward for daylight saving in both hemispheres, so the
+    # smallest offset of the year is the zone's standard time.
+    standard = datetime.timezone(min(offsets))
+    local = index.tz_localize(None) - index.tz_convert("UTC").tz_localize(None)
+    if (local != min(offsets)).any():
+        notes.append(f"timestamps on daylight-saving time ({zone}) moved to the site's standard time "
+                     f"{standard}; days and months are counted on standard time")
+    return index.tz_convert(standard)
 
 
 def read_weather_csv(path, *, columns: dict | None = None, tz: str | None = None,
-                     policy: str = "fail") -> pd.DataFrame:
+                     policy: str = "fail", time_label: str | None = None,
+                     time_format: str | None = None) -> pd.DataFrame:
     """Read a weather CSV into SI units on a time-zone-aware index.
 
     Required columns: ``timestamp``, ``temp_air`` and ``ghi`` or ``poa_global``;
     optional: ``dni``, ``dhi``, ``wind_speed``, ``load_w`` (power drawn from
     the bank). A header cell may carry its unit (``ghi [kW/m2]``,
     ``temp_air (degF)``). A UTF-8 BOM, ``;`` or tab separators and, with ``;``,
-    decimal commas are recognised. Without a unit, irradiance whose median
-    daily maximum is below 2 is taken as kW/m2 and temperature with median
-    above 45 and maximum above 95 as degF; both are converted with a note.
+    decimal commas are recognised. A column without a unit is SI; one that
+    cannot be is refused with the likely unit (irradiance that never exceeds
+    2 is kW/m2; air temperature with a median above 45 and values above 70
+    is degF, or K above 200). ``--column 'temp_air=Tamb (degF)'`` states a
+    unit the header lacks.
 
     Parameters
     ----------
     path : str or Path
     columns : dict, optional
-        Our name -> the CSV's column name (``--column NAME=CSVCOLUMN``).
+        Our name -> the CSV's column name (``--column NAME=CSVCOLUMN``), which
+        may carry a unit the header lacks (``"Tamb (degF)"``).
     tz : str, optional
         Zone for timestamps without an offset (IANA name, ``UTC`` or e.g.
         ``+01:00``); the index is converted to it, else to UTC.
@@ -127,13 +218,22 @@ def read_weather_csv(path, *, columns: dict | None = None, tz: str | None = None
         in time across runs of up to `FILL_LIMIT` rows and drops the rest;
         ``"skip"`` drops them. Both sort by time and keep the first of
         repeated timestamps; gaps are only counted.
+    time_label : {"start", "middle", "end", "instant"}, optional
+        What a timestamp labels (``--time-label``): the start, middle or end
+        of the interval its values average over, or the instant they were
+        sampled at (the default, `DEFAULT_TIME_LABEL`). See `place_in_time`.
+    time_format : str, optional
+        A strftime pattern for the timestamps (``--time-format``), e.g.
+        ``"%d.%m.%Y %H:%M"`` for day-first dates; default ISO 8601.
 
     Returns
     -------
     pandas.DataFrame
         Irradiance [W/m2], ``temp_air`` [degC], ``wind_speed`` [m/s], ``load_w``
-        [W], without NaN. ``attrs["notes"]`` has one line per conversion, fill
-        or drop, with counts; ``attrs["step_h"]`` is the median step [h].
+        [W], without NaN, indexed by interval start (or instant) on the site's
+        standard time. ``attrs["notes"]`` has one line per conversion, fill
+        or drop, with counts; ``attrs["step_h"]`` is the median step [h];
+        ``attrs["time_label"]`` the time convention.
 
     Raises
     ------
@@ -142,21 +242,31 @@ def read_weather_csv(path, *, columns: dict | None = None, tz: str | None = None
     """
     path, where = Path(path), str(path)
     _check_policy(policy)
+    if time_label is not None and time_label not in TIME_LABELS:
+        raise InputError("--time-label", time_label, f"unknown; expected one of {', '.join(TIME_LABELS)}")
     table, rows, sep = _read_table(path)
     found = _match_columns(where, list(table.columns), columns or {})
     cells = {name: cell for name, (cell, _) in found.items()}
     raw = {name: table[cell] for name, cell in cells.items()}
-    times = _parse_times(where, raw.pop("timestamp"), tz, cells["timestamp"])
+    notes = []
+    times = _parse_times(where, raw.pop("timestamp"), tz, cells["timestamp"], time_format, notes)
     values = {name: pd.to_numeric(text.str.replace(",", ".") if sep == ";" else text,
                                   errors="coerce").to_numpy(float) for name, text in raw.items()}
     units = {name: _unit(where, name, *found[name]) for name in values}
     raw["timestamp"] = table[cells["timestamp"]]
-    return _finish(where, times, values, raw, cells, units, rows, policy)
+    frame = _finish(where, times, values, raw, cells, units, rows, policy, notes,
+                    f"does not match --time-format {time_format!r}" if time_format else ISO_EXPECTED)
+    if time_label is None and frame.attrs["step_h"] >= 0.25:
+        frame.attrs["notes"].append(f"no --time-label given: {frame.attrs['step_h']:g} h values read as samples "
+                                    "at their timestamps; if they are means over an interval, say which end "
+                                    "the label marks (--time-label start, middle or end)")
+    label = time_label or DEFAULT_TIME_LABEL
+    return place_in_time(frame, label, "--time-label" if time_label else "the default for CSV")
 
 
 def _check_policy(policy):
     if policy not in POLICIES:
-        raise InputError("--policy", policy, f"unknown; expected one of {', '.join(POLICIES)}")
+        raise InputError("--bad-rows", policy, f"unknown; expected one of {', '.join(POLICIES)}")
 
 
 def _read_table(path: Path):
@@ -205,13 +315,18 @@ def _match_columns(where: str, header: list, columns: dict) -> dict:
         raise InputError("--column", unknown[0], f"unknown name; expected one of {', '.join(NAMES)}")
     found = {}
     for name in NAMES:
-        target = str(columns.get(name, name)).strip().lower()
-        hits = [c for c in header if target in (c.lower(), _split_unit(c)[0].lower())]
+        target = str(columns.get(name, name)).strip()
+        hits = [c for c in header if target.lower() in (c.lower(), _split_unit(c)[0].lower())]
+        unit = None
+        if not hits and name in columns:
+            # --column temp_air='Tamb (degF)' where the header says only Tamb: the option states the unit
+            base, unit = _split_unit(target)
+            hits = [c for c in header if base.lower() in (c.lower(), _split_unit(c)[0].lower())]
         if len(hits) > 1:
             raise InputError(where, f"column {name}", f"matches {len(hits)} header cells "
                              f"({', '.join(hits)}); choose one with --column {name}=CSVCOLUMN")
         if hits:
-            found[name] = (hits[0], _split_unit(hits[0])[1])
+            found[name] = (hits[0], unit or _split_unit(hits[0])[1])
         elif name in columns:
             raise InputError(where, f"column {columns[name]!r}", f"not in the header (from --column "
                              f"{name}={columns[name]}); the header has: {', '.join(header)}")
@@ -248,14 +363,18 @@ _OFFSET_CAPTURE = r"(Z|z|[+-]\d{2}:?\d{2})\s*$"
 YEARS = (1900, 2200)  # outside these a timestamp is a typing mistake (and beyond pandas' nanosecond range)
 
 
-def _parse_times(where: str, cells: pd.Series, tz: str | None, cell: str) -> pd.Series:
-    times = _parse_times_raw(where, cells, tz, cell)
+def _parse_times(where: str, cells: pd.Series, tz: str | None, cell: str, time_format: str | None,
+                 notes: list) -> pd.Series:
+    times = _parse_times_raw(where, cells, tz, cell, time_format, notes)
     years = times.dt.year
     return times.where((years >= YEARS[0]) & (years <= YEARS[1]))
 
 
-def _parse_times_raw(where: str, cells: pd.Series, tz: str | None, cell: str) -> pd.Series:
+def _parse_times_raw(where: str, cells: pd.Series, tz: str | None, cell: str, time_format: str | None,
+                     notes: list) -> pd.Series:
     zone = _zone(tz) if tz else None
+    if time_format is not None:
+        return _parse_times_format(where, cells, zone, cell, time_format)
     has_offset = cells.str.contains(_OFFSET, regex=True).to_numpy()
     if has_offset.any():
         # Offsets may differ (daylight saving): in UTC they are one series, and
@@ -268,26 +387,57 @@ def _parse_times_raw(where: str, cells: pd.Series, tz: str | None, cell: str) ->
             offsets = cells[has_offset].str.extract(_OFFSET_CAPTURE, expand=False).dropna().unique()
             if len(offsets) == 1:
                 zone = _zone(offsets[0] if offsets[0] not in ("Z", "z") else "UTC")
+            elif len(offsets) > 1:
+                # Several offsets are daylight saving: clocks move forward,
+                # so the smallest is the site's standard time.
+                minutes = [0 if o in ("Z", "z") else (1 if o[0] == "+" else -1)
+                           * (int(o[1:3]) * 60 + int(o[-2:])) for o in offsets]
+                zone = datetime.timezone(pd.Timedelta(minutes=min(minutes)))
+                notes.append(f"timestamps carry offsets {', '.join(sorted(offsets))} (daylight saving): moved to "
+                             f"the site's standard time {zone}; days and months are counted on standard time")
         return times.dt.tz_convert(zone) if zone is not None else times
     if zone is None:
         raise InputError(where, f"column {cell!r}", "timestamps carry no time zone; give --tz "
                          "(e.g. --tz Europe/Berlin or --tz +01:00) or write them with an offset")
     times = pd.to_datetime(cells, format="ISO8601", errors="coerce")
+    return _localize(where, times, zone, cell)
+
+
+def _parse_times_format(where, cells, zone, cell, time_format):
+    if "%" not in time_format:
+        raise InputError("--time-format", time_format, "expected a strftime pattern such as '%d.%m.%Y %H:%M'")
+    with_offset = "%z" in time_format
+    if not with_offset and zone is None:
+        raise InputError("--time-format", time_format, "has no %z, so the timestamps carry no time zone; "
+                         "give --tz as well (e.g. --tz Europe/Berlin or --tz +01:00)")
+    try:
+        times = pd.to_datetime(cells, format=time_format, errors="coerce", utc=with_offset)
+    except ValueError as exc:
+        raise InputError("--time-format", time_format, f"is not a usable pattern ({exc})") from None
+    if with_offset:
+        return times.dt.tz_convert(zone) if zone is not None else times
+    return _localize(where, times, zone, cell)
+
+
+def _localize(where, times, zone, cell):
     try:
         return times.dt.tz_localize(zone, ambiguous="infer", nonexistent="raise")
     except Exception as exc:  # the zone libraries raise different types
-        raise InputError(where, f"column {cell!r}", f"local times do not fit time zone {tz} ({exc}); "
+        raise InputError(where, f"column {cell!r}", f"local times do not fit time zone {zone} ({exc}); "
                          "if the logger ignores daylight saving give an offset, e.g. --tz +01:00") from None
 
 
-def _finish(where, times, values, raw, cells, units, rows, policy):
+ISO_EXPECTED = ("is not an ISO 8601 timestamp with an offset (or without one and --tz); "
+                "for other forms give --time-format, e.g. --time-format '%d.%m.%Y %H:%M'")
+
+
+def _finish(where, times, values, raw, cells, units, rows, policy, notes=None, time_expected=ISO_EXPECTED):
     """Convert to SI, find bad rows, apply the policy and build the frame."""
-    notes, problems, bad, ts_cell = [], [], {}, cells["timestamp"]
+    notes, problems, bad, ts_cell = list(notes or []), [], {}, cells["timestamp"]
     bad_time = times.isna().to_numpy()
     if bad_time.any():
         i = int(np.argmax(bad_time))
-        problems.append((rows[i], ts_cell, f"{raw['timestamp'].iloc[i]!r} is not an ISO 8601 "
-                         "timestamp with an offset (or without one and --tz)"))
+        problems.append((rows[i], ts_cell, f"{raw['timestamp'].iloc[i]!r} {time_expected}"))
     for name, v in values.items():
         if np.isnan(v).all():
             raise InputError(where, f"column {cells[name]!r}", "has no numeric values")
@@ -327,7 +477,7 @@ def _finish(where, times, values, raw, cells, units, rows, policy):
     if gaps.size:
         problems.append((rows[gaps[0] + 1], ts_cell, f"{step_h[gaps[0]]:g} h after row {rows[gaps[0]]} "
                          f"where the median step is {np.median(step_h):g} h (missing data); "
-                         "use --policy fill or skip to accept gaps"))
+                         "use --bad-rows fill or skip to accept gaps"))
     if policy == "fail" and problems:
         row, cell, why = min(problems, key=lambda p: p[0])
         raise InputError(where, f"row {row}, column {cell!r}", why)
@@ -364,19 +514,31 @@ def _finish(where, times, values, raw, cells, units, rows, policy):
 
 
 def _guess_unit(where, name, cell, v, days, notes):
+    """A column without a unit is SI; refuse one that cannot be, naming the likely unit."""
+    def state(unit):
+        return (f"it looks like {unit}: state the unit in the header ('{name} [{unit}]') or with "
+                f"--column '{name}={_split_unit(cell)[0]} ({unit})'")
+
     if name in IRRADIANCE:
+        peak = np.nanmax(v)
+        # Sunlight reaches hundreds of W/m2 on any day; a whole file under 2 is kW/m2.
+        if 0 < peak <= 2:
+            raise InputError(where, f"column {cell!r}", f"never exceeds {peak:g}, impossible for sunlight in "
+                             f"W/m2; {state('kW/m2')}")
         daily = pd.Series(v).groupby(days).max()
         median = daily[daily > 0].median()
-        if median < 2:
-            notes.append(f"{name}: converted from kW/m2 to W/m2 (median daily maximum {median:g})")
-            return 1e3, 0.0
         if median > BOUNDS[name][1]:
             raise InputError(where, f"column {cell!r}", f"median daily maximum {median:g} is neither "
                              f"W/m2 nor kW/m2; give the unit in the header, e.g. '{name} [W/m2]'")
-    if name == "temp_air" and np.nanmedian(v) > 45 and np.nanmax(v) > 95:
-        notes.append(f"temp_air: converted from degF to degC (median {np.nanmedian(v):g}, "
-                     f"maximum {np.nanmax(v):g})")
-        return 5 / 9, -160 / 9
+        if 2 < peak < 100 and name != "dni":
+            notes.append(f"{name}: peaks at only {peak:g} W/m2 over the whole file; check the unit")
+    if name == "temp_air":
+        median, top = np.nanmedian(v), np.nanmax(v)
+        # No climate has a median air temperature above about 40 degC.
+        if median > 45 and top > BOUNDS["temp_air"][1]:
+            unit = "K" if np.nanmin(v) > 200 else "degF"
+            raise InputError(where, f"column {cell!r}", f"median {median:g}, maximum {top:g}: above any air "
+                             f"temperature in degC; {state(unit)}")
     return 1.0, 0.0
 
 

@@ -416,3 +416,30 @@ def test_wire_system_mode_budgets_each_circuit_apart(capsys):
     for r in rec["runs"]:
         assert r["recommended_size"] in (r["size_by_ampacity"], r["size_by_drop"])
     assert "DC arcs" not in "".join(rec["cautions"]) and "licensed practitioners" in rec["cautions"][-1]
+
+
+WEATHER_OPTIONS = {"--column", "--tz", "--bad-rows", "--transposition", "--time-label", "--time-format"}
+
+
+def _options(command: str) -> set:
+    import typer.main
+
+    from pvsource.cli import app
+    click_command = typer.main.get_command(app).commands[command]
+    return {opt for p in click_command.params for opt in getattr(p, "opts", [])}
+
+
+def test_season_explore_and_fleet_take_the_same_weather_options():
+    for command in ("season", "explore", "fleet"):
+        assert WEATHER_OPTIONS <= _options(command), command
+
+
+def test_every_hint_in_a_weather_message_names_an_option_that_exists():
+    # A hint that names a missing option sends the user nowhere. Every "--name"
+    # written in the weather modules must be an option of the commands that read weather.
+    named = set()
+    for module in ("weather.py", "sky.py", "season.py"):
+        named |= set(re.findall(r"--[a-z][a-z-]+", (ROOT / "pvsource" / module).read_text()))
+    assert named, "the scan found no hints at all"
+    for command in ("season", "explore", "fleet"):
+        assert named <= _options(command), (command, named - _options(command))

@@ -130,6 +130,34 @@ def test_fleet_runs_every_member_and_tabulates_them(capsys, tmp_path, short_year
     assert code == 2 and "row 3" in err and "missing.csv" in err
 
 
+def test_fleet_and_explore_read_weather_with_the_season_options(capsys, tmp_path, short_year):
+    # Day-first local times (no offset) with --time-format and --tz give the
+    # same study as the ISO file: the options reach the reader.
+    system, weather = short_year
+    members = tmp_path / "fleet"
+    members.mkdir()
+    demo_system_file(members).rename(members / "dayfirst.toml")
+    table = weather.copy()
+    table.index = table.index.strftime("%d.%m.%Y %H:%M")
+    table.index.name = "Zeit"
+    table.to_csv(members / "dayfirst.csv")
+    options = ["--column", "timestamp=Zeit", "--tz", "Etc/GMT-1", "--time-format", "%d.%m.%Y %H:%M",
+               "--time-label", "instant", "--bad-rows", "skip", "--transposition", "isotropic"]
+    code, text, err = run_cli(capsys, "fleet", str(members), "--out", str(tmp_path / "out2"), "--json", *options)
+    assert code == 0, err
+    iso = tmp_path / "iso.csv"
+    write_weather_csv(weather, iso)
+    code, text_iso, err = run_cli(capsys, "season", str(demo_system_file(tmp_path)), str(iso), "--out",
+                                  str(tmp_path / "season"), "--json", "--transposition", "isotropic")
+    assert code == 0, err
+    fleet_row, season = json.loads(text)["rows"][0], json.loads(text_iso)
+    assert fleet_row["energy_stored_kwh"] == pytest.approx(season["energy_stored_kwh"], rel=1e-9)
+    code, _, err = run_cli(capsys, "explore", str(members / "dayfirst.toml"), str(members / "dayfirst.csv"),
+                           "--vary", "tilt_deg=20,40", "--out", str(tmp_path / "ex"), "--price-per-kg", "12",
+                           "--energy-value", "0.3", *options)
+    assert code == 0, err
+
+
 def test_killing_a_dask_worker_midway_loses_nothing(short_year, tmp_path):
     # A worker dies while the search runs; the cluster reruns its tasks, the
     # finished results stay written, and a resume adds nothing twice.

@@ -18,7 +18,7 @@ from hypothesis import strategies as st
 from pvlib import atmosphere, clearsky, irradiance, solarposition, temperature
 
 from pvsource.errors import InputError
-from pvsource.sky import MOUNTING_PRESETS, TRANSPOSITION_MODELS, poa_conditions, sun_position
+from pvsource.sky import MOUNTING_PRESETS, TRANSPOSITION_MODELS, poa_conditions, sun_position, sun_times
 from pvsource.weather import read_weather
 
 TMY3 = Path(pvlib.__file__).parent / "data" / "723170TYA.CSV"
@@ -32,38 +32,52 @@ def tmy3():
 # --- plane of array against pvlib ----------------------------------------------------
 
 def reference_poa(w, site, tilt, azimuth, model, albedo=0.2, decompose=False):
-    """The same chain called directly in pvlib (reference library)."""
-    sun = solarposition.get_solarposition(w.index, site["latitude"], site["longitude"],
+    """The same chain called directly in pvlib (reference library), on pvlib's own TMY3 frame.
+
+    TMY3 values are means over the hour ending at the label (NREL TMY3 users
+    manual, NREL/TP-581-43156), so the sun goes 30 minutes before it.
+    """
+    at = w.index - pd.Timedelta("30min")
+    sun = solarposition.get_solarposition(at, site["latitude"], site["longitude"],
                                           altitude=site["altitude_m"],
                                           pressure=atmosphere.alt2pres(site["altitude_m"]),
-                                          temperature=w["temp_air"])
-    zen = sun["apparent_zenith"]
-    dni, dhi = w["dni"], w["dhi"]
+                                          temperature=w["temp_air"].to_numpy())
+    zen, azi = sun["apparent_zenith"].to_numpy(), sun["azimuth"].to_numpy()
+    dni, dhi, ghi = w["dni"].to_numpy(), w["dhi"].to_numpy(), w["ghi"].to_numpy()
     if decompose:
-        parts = irradiance.erbs(w["ghi"], zen, w.index)
-        dni, dhi = parts["dni"], parts["dhi"]
-    poa = irradiance.get_total_irradiance(tilt, azimuth, zen, sun["azimuth"], dni, w["ghi"], dhi,
-                                          dni_extra=irradiance.get_extra_radiation(w.index),
+        parts = irradiance.erbs(ghi, zen, at.dayofyear)
+        dni, dhi = np.asarray(parts["dni"]), np.asarray(parts["dhi"])
+    poa = irradiance.get_total_irradiance(tilt, azimuth, zen, azi, dni, ghi, dhi,
+                                          dni_extra=irradiance.get_extra_radiation(at.dayofyear),
                                           airmass=atmosphere.get_relative_airmass(zen),
                                           albedo=albedo, model=model)
-    return poa, zen
+    return pd.DataFrame(dict(poa), index=w.index), pd.Series(zen, index=w.index)
+
+
+@pytest.fixture(scope="module")
+def pvlib_tmy3():
+    data, meta = pvlib.iotools.read_tmy3(TMY3, coerce_year=1990, map_variables=True)
+    return data, {"latitude": meta["latitude"], "longitude": meta["longitude"], "altitude_m": meta["altitude"]}
 
 
 @pytest.mark.parametrize("model", TRANSPOSITION_MODELS)
 @pytest.mark.parametrize("decompose", [False, True])
-def test_poa_matches_pvlib_on_tmy3(tmy3, model, decompose):
-    site = tmy3.attrs["site"]
+def test_poa_matches_pvlib_on_tmy3(tmy3, pvlib_tmy3, model, decompose):
+    raw, site = pvlib_tmy3
     w = tmy3.drop(columns=["dni", "dhi"]) if decompose else tmy3
     ours = poa_conditions(w, site["latitude"], site["longitude"], site["altitude_m"], 30, 180, model=model)
-    ref, zen = reference_poa(tmy3, site, 30, 180, model, decompose=decompose)
+    ref, zen = reference_poa(raw, site, 30, 180, model, decompose=decompose)
     day = (zen <= 90).to_numpy()
     # Perez's sky clearness is 0/0 when dhi = 0; no diffuse light means no sky diffuse
-    no_diffuse = (tmy3["dhi"] == 0).to_numpy()
+    no_diffuse = (raw["dhi"] == 0).to_numpy()
     assert not ref["poa_global"][day & ~no_diffuse].isna().any()
     ref = ref.fillna(0.0)
-    # reference library: pvlib.irradiance.get_total_irradiance called directly
-    np.testing.assert_allclose(ours["poa_global_w_m2"][day], ref["poa_global"][day].clip(lower=0), atol=1e-9)
-    np.testing.assert_allclose(ours["poa_direct_w_m2"][day], ref["poa_direct"][day].clip(lower=0), atol=1e-9)
+    # reference library: pvlib.irradiance.get_total_irradiance called directly, row by row
+    # (ours is indexed by the interval's start, pvlib's by its end: compare by position)
+    np.testing.assert_allclose(ours["poa_global_w_m2"].to_numpy()[day], ref["poa_global"].clip(lower=0)[day],
+                               atol=1e-9)
+    np.testing.assert_allclose(ours["poa_direct_w_m2"].to_numpy()[day], ref["poa_direct"].clip(lower=0)[day],
+                               atol=1e-9)
     # night: the sun is below the horizon, so nothing arrives (never NaN, never negative)
     assert (ours.loc[~day, ["poa_global_w_m2", "effective_irradiance_w_m2"]] == 0).all().all()
     assert ours.notna().all().all() and (ours["poa_global_w_m2"] >= 0).all()
@@ -73,6 +87,50 @@ def test_poa_matches_pvlib_on_tmy3(tmy3, model, decompose):
     cell = temperature.sapm_cell(ours["poa_global_w_m2"], tmy3["temp_air"], tmy3["wind_speed"], **params)
     np.testing.assert_allclose(ours["cell_temp_c"], cell)
     assert ("Erbs" in " ".join(ours.attrs["notes"])) == decompose
+
+
+TMY3_FILES = ("703165TY.csv", "723170TYA.CSV")
+
+
+@pytest.mark.parametrize("name", TMY3_FILES)
+def test_monthly_poa_insolation_on_both_tmy3_files_within_0_4_percent_of_pvlib(name):
+    # Open dataset: the two TMY3 files pvlib ships. Reference library: pvlib's
+    # Location.get_solarposition and get_total_irradiance (Perez), set up here
+    # on pvlib's own reader, with the sun at the middle of each hour-ending
+    # interval (NREL TMY3 users manual: values are means over the hour ending at the label).
+    path = TMY3.parent / name
+    raw, meta = pvlib.iotools.read_tmy3(path, coerce_year=1990, map_variables=True)
+    loc = pvlib.location.Location(meta["latitude"], meta["longitude"], altitude=meta["altitude"])
+    ours = read_weather(path)
+    assert ours.index.tz_localize(None).to_period("M").nunique() == 12
+    cond = poa_conditions(ours, meta["latitude"], meta["longitude"], meta["altitude"], 35, 180)
+
+    def pvlib_monthly(shift):
+        sun = loc.get_solarposition(raw.index - shift)
+        poa = irradiance.get_total_irradiance(
+            35, 180, sun["apparent_zenith"].to_numpy(), sun["azimuth"].to_numpy(), raw["dni"].to_numpy(),
+            raw["ghi"].to_numpy(), raw["dhi"].to_numpy(), dni_extra=irradiance.get_extra_radiation(raw.index - shift),
+            airmass=atmosphere.get_relative_airmass(sun["apparent_zenith"].to_numpy()), albedo=0.2, model="perez")
+        lit = sun["apparent_zenith"].to_numpy() <= 90
+        kwh = np.where(lit, np.nan_to_num(np.asarray(poa["poa_global"], float)).clip(0), 0.0) / 1000
+        # each hour-ending interval counts in the month of its start
+        return pd.Series(kwh).groupby((raw.index - pd.Timedelta("1h")).month).sum().to_numpy()
+
+    ref = pvlib_monthly(pd.Timedelta("30min"))
+    mine = cond["poa_global_w_m2"].groupby(cond.index.month).sum().to_numpy() / 1000
+    assert len(mine) == 12
+    np.testing.assert_allclose(mine, ref, rtol=0.004)
+    # The same reference with the sun at the label (the old placement) misses by more:
+    # the check can tell the two apart.
+    assert np.max(np.abs(pvlib_monthly(pd.Timedelta(0)) / ref - 1)) > 0.004
+
+
+def test_sun_goes_to_the_middle_of_each_interval():
+    times = pd.date_range("2024-06-01", periods=4, freq="h", tz="UTC")
+    w = pd.DataFrame({"ghi": 0.0, "temp_air": 20.0}, index=times)
+    assert (sun_times(w) == times).all()  # no label: samples at their times
+    w.attrs.update(time_label="end", step_h=1.0)
+    assert (sun_times(w) == times + pd.Timedelta("30min")).all()
 
 
 @pytest.mark.parametrize("model, rel", [("isotropic", 1e-12), ("haydavies", 1e-4), ("perez", 2e-3)])

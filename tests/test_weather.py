@@ -75,6 +75,8 @@ def test_epw_dispatch(tmp_path):
     np.testing.assert_allclose(w["ghi"].to_numpy(), ref["ghi"].to_numpy())
     np.testing.assert_allclose(w["temp_air"].to_numpy(), ref["temp_air"].to_numpy())
     assert w.attrs["site"]["altitude_m"] == 100.0
+    # EnergyPlus weather format: hour 1 is the hour ending at 01:00, so the day's 24 rows start at 00:00
+    assert w.index[0].strftime("%m-%d %H:%M") == "06-01 00:00" and (w.index.day == 1).all()
 
 
 # --- CSV parsing ---------------------------------------------------------------------
@@ -82,23 +84,42 @@ def test_epw_dispatch(tmp_path):
 def test_plain_csv_round_trip(tmp_path):
     w = read_weather(simple_csv(tmp_path))
     assert list(w.columns) == ["ghi", "temp_air"] and len(w) == 24
-    assert str(w.index.tz) == "UTC" and w.attrs["step_h"] == 1.0 and w.attrs["notes"] == []
+    assert str(w.index.tz) == "UTC" and w.attrs["step_h"] == 1.0 and w.attrs["time_label"] == "instant"
+    notes = " ".join(w.attrs["notes"])
+    assert "sample at its timestamp (the default for CSV)" in notes and "--time-label start, middle or end" in notes
 
 
-def test_kilowatts_per_square_metre_are_converted(tmp_path):
+def test_kilowatts_per_square_metre_are_refused_naming_the_unit(tmp_path):
+    # Law: sunlight reaches hundreds of W/m2 on any day, so a file never above 2 is in kW/m2.
     stamps, ghi, temp_air = day_rows(n=48)
     path = write_csv(tmp_path, ["timestamp", "ghi", "temp_air"], zip(stamps, ghi / 1000, temp_air))
-    w = read_weather_csv(path)
+    with pytest.raises(InputError, match=r"column 'ghi': never exceeds 0\.9, impossible for sunlight in W/m2; "
+                                         r"it looks like kW/m2: state the unit in the header \('ghi \[kW/m2\]'\) "
+                                         r"or with --column 'ghi=ghi \(kW/m2\)'") as exc:
+        read_weather_csv(path)
+    assert "\n" not in str(exc.value)
+    w = read_weather_csv(path, columns={"ghi": "ghi (kW/m2)"})
     np.testing.assert_allclose(w["ghi"], ghi, atol=1e-9)
-    assert any("kW/m2" in n for n in w.attrs["notes"])
+    dim = write_csv(tmp_path, ["timestamp", "ghi", "temp_air"], zip(stamps, ghi / 20, temp_air), name="dim.csv")
+    assert any("peaks at only 45 W/m2" in n for n in read_weather_csv(dim).attrs["notes"])
 
 
-def test_fahrenheit_values_are_converted(tmp_path):
+def test_fahrenheit_and_kelvin_are_refused_naming_the_unit(tmp_path):
+    # Law: no climate has a median air temperature above about 40 degC (the
+    # hottest stations' annual means are near 35 degC, common knowledge, from memory).
     stamps, ghi, temp_air = day_rows(temp=(30.0, 8.0))
     temp_f = (temp_air * 9 / 5 + 32).round(2)
-    w = read_weather_csv(write_csv(tmp_path, ["timestamp", "ghi", "temp_air"], zip(stamps, ghi, temp_f)))
+    path = write_csv(tmp_path, ["timestamp", "ghi", "Tamb"], zip(stamps, ghi, temp_f))
+    with pytest.raises(InputError, match=r"column 'Tamb': median .* above any air temperature in degC; it looks "
+                                         r"like degF: state the unit in the header \('temp_air \[degF\]'\) or "
+                                         r"with --column 'temp_air=Tamb \(degF\)'"):
+        read_weather_csv(path, columns={"temp_air": "Tamb"})
+    w = read_weather_csv(path, columns={"temp_air": "Tamb (degF)"})
     np.testing.assert_allclose(w["temp_air"], (temp_f - 32) * 5 / 9)
-    assert any("degF" in n for n in w.attrs["notes"])
+    assert any("converted from degF" in n for n in w.attrs["notes"])
+    kelvin = write_csv(tmp_path, ["timestamp", "ghi", "temp_air"], zip(stamps, ghi, temp_air + 273.15), name="k.csv")
+    with pytest.raises(InputError, match=r"it looks like K: state the unit"):
+        read_weather_csv(kelvin)
 
 
 def test_units_in_headers(tmp_path):
@@ -110,6 +131,12 @@ def test_units_in_headers(tmp_path):
     np.testing.assert_allclose(w["ghi"], ghi, atol=1e-9)
     np.testing.assert_allclose(w["temp_air"], temp_air, atol=1e-9)
     assert (w["wind_speed"] == 10.0).all() and (w["load_w"] == 2000.0).all()
+    # units in parentheses read like units in brackets
+    path = write_csv(tmp_path, ["timestamp", "GHI (W/m2)", "temp_air (°C)", "wind_speed (m/s)"],
+                     zip(stamps, ghi, temp_air, [3.0] * 24), name="paren.csv")
+    w = read_weather_csv(path)
+    np.testing.assert_allclose(w["ghi"], ghi)
+    np.testing.assert_allclose(w["temp_air"], temp_air)
     path = write_csv(tmp_path, ["timestamp", "ghi [lux]", "temp_air"], zip(stamps, ghi, temp_air))
     with pytest.raises(InputError, match="'ghi \\[lux\\]'.*not understood"):
         read_weather_csv(path)
@@ -136,18 +163,88 @@ def test_column_overrides(tmp_path):
         read_weather_csv(path, columns={"timestamp": "Time", "ghi": "Global", "temp_air": "Tair"})
 
 
-def test_daylight_saving_offsets_and_time_zones(tmp_path):
-    # the autumn change in Central Europe: 02:00+02:00, 02:00+01:00 are an hour apart
+def test_daylight_saving_offsets_become_standard_time(tmp_path):
+    # the autumn change in Central Europe: 02:00+02:00, 02:00+01:00 are an hour apart;
+    # clocks go forward for daylight saving, so +01:00 is the standard time
     stamps = ["2024-10-27T01:00+02:00", "2024-10-27T02:00+02:00", "2024-10-27T02:00+01:00",
               "2024-10-27T03:00+01:00"]
     path = write_csv(tmp_path, ["timestamp", "ghi", "temp_air"], [(s, 0.0, 10.0) for s in stamps])
     w = read_weather_csv(path)
-    assert list(w.index.hour) == [23, 0, 1, 2] and str(w.index.tz) == "UTC"
-    assert str(read_weather_csv(path, tz="Europe/Berlin").index.tz) == "Europe/Berlin"
+    assert list(w.index.hour) == [0, 1, 2, 3] and w.index[0].utcoffset() == pd.Timedelta("1h")
+    assert any("+01:00, +02:00 (daylight saving)" in n for n in w.attrs["notes"])
+    assert read_weather_csv(path, tz="Europe/Berlin").index.equals(w.index)
     naive = write_csv(tmp_path, ["timestamp", "ghi", "temp_air"],
                       [(s[:16], 0.0, 10.0) for s in stamps[::2]], name="naive.csv")
     w = read_weather_csv(naive, tz="+02:00")
     assert w.index[0] == pd.Timestamp("2024-10-26T23:00Z")
+
+
+def test_a_year_on_local_daylight_saving_time_counts_every_day_on_standard_time(tmp_path):
+    # Law: a year of hourly rows on a Central European wall clock (IANA zone
+    # Europe/Berlin) holds 8760 hours; on standard time every day has 24 and
+    # there are exactly 12 months, none empty.
+    local = pd.date_range("2025-01-01", "2026-01-01", freq="h", tz="Europe/Berlin", inclusive="left")
+    ghi = np.clip(800 * np.sin(np.pi * (local.hour - 6) / 12), 0, None).round(1)
+    path = write_csv(tmp_path, ["timestamp", "ghi", "temp_air"],
+                     zip(local.strftime("%Y-%m-%d %H:%M"), ghi, [10.0] * len(local)))
+    w = read_weather_csv(path, tz="Europe/Berlin")
+    assert len(w) == 8760 and str(w.index.tz) == "UTC+01:00"
+    per_day = pd.Series(1, index=w.index).groupby(w.index.date).size()
+    assert per_day.nunique() == 1 and per_day.iloc[0] == 24 and len(per_day) == 365
+    monthly = w["ghi"].groupby(w.index.month).sum()
+    assert len(monthly) == 12 and (monthly > 0).all()
+    assert any("daylight-saving time (Europe/Berlin) moved to the site's standard time" in n
+               for n in w.attrs["notes"])
+
+
+@pytest.mark.parametrize("label, shift", [("start", "0min"), ("middle", "30min"), ("end", "60min"),
+                                          ("instant", "0min")])
+def test_time_label_puts_each_row_at_its_interval_start(tmp_path, label, shift):
+    path = simple_csv(tmp_path)
+    w = read_weather_csv(path, time_label=label)
+    assert (w.index == pd.date_range("2024-06-01", periods=24, freq="h", tz="UTC") - pd.Timedelta(shift)).all()
+    assert w.attrs["time_label"] == label and w.attrs["notes"][0].startswith("time: ")
+    assert "--time-label" in w.attrs["notes"][0]
+    assert not any("no --time-label given" in n for n in w.attrs["notes"])
+
+
+def test_an_hour_ending_csv_year_gives_twelve_months(tmp_path):
+    # Hour-ending labels run from 01:00 on 1 January to 24:00 (00:00 next year) on
+    # 31 December: the last hour belongs to December, not to a 13th month.
+    stamps = pd.date_range("2025-01-01T01:00", periods=8760, freq="h", tz="UTC")
+    rows = zip((s.isoformat() for s in stamps), [100.0] * 8760, [10.0] * 8760)
+    w = read_weather_csv(write_csv(tmp_path, ["timestamp", "ghi", "temp_air"], rows), time_label="end")
+    assert w.index.month.nunique() == 12 and (w.index.year == 2025).all()
+    with pytest.raises(InputError, match="^--time-label: noon: unknown; expected one of start, middle, end, instant"):
+        read_weather_csv(simple_csv(tmp_path), time_label="noon")
+
+
+def test_tmy3_and_epw_are_hour_ending():
+    # NREL TMY3 users manual (NREL/TP-581-43156): values are means over the hour ending at the label.
+    for name in ("703165TY.csv", "723170TYA.CSV"):
+        w = read_weather(TMY3.parent / name)
+        assert w.attrs["time_label"] == "end" and "hour-ending by definition" in w.attrs["notes"][0]
+        assert w.index[0].strftime("%m-%d %H:%M") == "01-01 00:00"
+        assert w.index[-1].strftime("%Y-%m-%d %H:%M") == "1990-12-31 23:00"
+        assert w.index.tz_localize(None).to_period("M").nunique() == 12
+    with pytest.raises(InputError, match="^--time-label: start: .*hour ending at each label"):
+        read_weather(TMY3, time_label="start")
+
+
+def test_day_first_dates_with_time_format(tmp_path):
+    stamps, ghi, temp_air = day_rows()
+    day_first = [pd.Timestamp(s).strftime("%d.%m.%Y %H:%M") for s in stamps]
+    path = write_csv(tmp_path, ["timestamp", "ghi", "temp_air"], zip(day_first, ghi, temp_air))
+    w = read_weather_csv(path, tz="UTC", time_format="%d.%m.%Y %H:%M")
+    assert w.index[0] == pd.Timestamp("2024-06-01T00:00Z") and len(w) == 24
+    with pytest.raises(InputError, match=r"row 2, column 'timestamp': '01.06.2024 00:00' is not an ISO 8601.*"
+                                         r"--time-format '%d.%m.%Y %H:%M'"):
+        read_weather_csv(path, tz="UTC")
+    with pytest.raises(InputError, match="^--time-format: %d.%m.%Y %H:%M: has no %z.*give --tz"):
+        read_weather_csv(path, time_format="%d.%m.%Y %H:%M")
+    with pytest.raises(InputError, match=r"row 2, column 'timestamp': '01.06.2024 00:00' does not match "
+                                         r"--time-format '%m/%d/%Y %H:%M'"):
+        read_weather_csv(path, tz="UTC", time_format="%m/%d/%Y %H:%M")
 
 
 # --- bad files: one line naming the file and the column or row ------------------------
