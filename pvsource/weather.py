@@ -247,13 +247,14 @@ def read_weather_csv(path, *, columns: dict | None = None, tz: str | None = None
     table, rows, sep = _read_table(path)
     found = _match_columns(where, list(table.columns), columns or {})
     cells = {name: cell for name, (cell, _) in found.items()}
-    raw = {name: table[cell] for name, cell in cells.items()}
     notes = []
-    times = _parse_times(where, raw.pop("timestamp"), tz, cells["timestamp"], time_format, notes)
-    values = {name: pd.to_numeric(text.str.replace(",", ".") if sep == ";" else text,
-                                  errors="coerce").to_numpy(float) for name, text in raw.items()}
+    stamps = table[cells["timestamp"]]
+    times = _parse_times(where, stamps, tz, cells["timestamp"], time_format, notes)
+    values, raw = {}, {"timestamp": stamps}
+    for name, cell in cells.items():
+        if name != "timestamp":
+            values[name], raw[name] = _as_numbers(table[cell], sep)
     units = {name: _unit(where, name, *found[name]) for name in values}
-    raw["timestamp"] = table[cells["timestamp"]]
     frame = _finish(where, times, values, raw, cells, units, rows, policy, notes,
                     f"does not match --time-format {time_format!r}" if time_format else ISO_EXPECTED)
     if time_label is None and frame.attrs["step_h"] >= 0.25:
@@ -275,7 +276,7 @@ def _read_table(path: Path):
         data = path.read_bytes()
     except OSError as exc:
         raise InputError(where, None, f"cannot be read ({exc.strerror or exc})") from None
-    text = None
+    text = encoding = None
     for encoding in ("utf-16",) if data[:2] in (b"\xff\xfe", b"\xfe\xff") else ("utf-8-sig", "cp1252"):
         try:
             text = data.decode(encoding)
@@ -284,24 +285,40 @@ def _read_table(path: Path):
             pass
     if text is None or re.search(r"[\x00-\x08\x0e-\x1f]", text[:65536]):
         raise InputError(where, None, "is not a text file; expected a CSV (UTF-8 or a spreadsheet export)")
-    if not text.strip():
+    if not re.search(r"\S", text):
         raise InputError(where, None, "is empty; expected a header line and rows of data")
-    sep = max((",", ";", "\t"), key=text.splitlines()[0].count)
+    sep = max((",", ";", "\t"), key=text.split("\n", 1)[0].count)
     try:
-        table = pd.read_csv(io.StringIO(text), sep=sep, dtype=str, keep_default_na=False,
-                            skip_blank_lines=False, skipinitialspace=True)
+        # pandas' own parser types the columns: numbers come out as floats at
+        # its speed, and only a column that is not all numbers is read as text.
+        # (no skipinitialspace: the number parser skips blanks itself, and text columns are stripped)
+        table = pd.read_csv(io.BytesIO(data), encoding=encoding, sep=sep, keep_default_na=False, na_values=[""],
+                            skip_blank_lines=False, decimal="," if sep == ";" else ".")
     except (pd.errors.ParserError, ValueError) as exc:
         line = re.search(r"line (\d+)", str(exc))
         raise InputError(where, f"row {line.group(1)}" if line else None,
                          "has more fields than the header") from None
-    table = table.fillna("").astype(str).apply(lambda c: c.str.strip())
     table.columns = [str(c).strip() for c in table.columns]
     # blank lines are kept as empty rows here, so position + 2 is the file's line
     rows = np.arange(len(table)) + 2
-    filled = (table != "").any(axis=1).to_numpy()
+    filled = table.notna().any(axis=1).to_numpy()
     if not filled.any():
         raise InputError(where, None, "has a header but no data rows")
-    return table[filled].reset_index(drop=True), rows[filled], sep
+    if not filled.all():
+        table, rows = table[filled].reset_index(drop=True), rows[filled]
+    return table, rows, sep
+
+
+def _as_text(column: pd.Series) -> pd.Series:
+    return column.astype(object).where(column.notna(), "").astype(str).str.strip()
+
+
+def _as_numbers(column: pd.Series, sep: str):
+    """Floats from one column, and its text when some cell is not a number (for messages)."""
+    if pd.api.types.is_numeric_dtype(column):
+        return column.to_numpy(float), None
+    text = _as_text(column)
+    return pd.to_numeric(text.str.replace(",", ".") if sep == ";" else text, errors="coerce").to_numpy(float), text
 
 
 def _split_unit(cell: str):
@@ -366,6 +383,8 @@ YEARS = (1900, 2200)  # outside these a timestamp is a typing mistake (and beyon
 def _parse_times(where: str, cells: pd.Series, tz: str | None, cell: str, time_format: str | None,
                  notes: list) -> pd.Series:
     times = _parse_times_raw(where, cells, tz, cell, time_format, notes)
+    if times.min().year >= YEARS[0] and times.max().year <= YEARS[1]:
+        return times
     years = times.dt.year
     return times.where((years >= YEARS[0]) & (years <= YEARS[1]))
 
@@ -374,7 +393,17 @@ def _parse_times_raw(where: str, cells: pd.Series, tz: str | None, cell: str, ti
                      notes: list) -> pd.Series:
     zone = _zone(tz) if tz else None
     if time_format is not None:
-        return _parse_times_format(where, cells, zone, cell, time_format)
+        return _parse_times_format(where, _as_text(cells), zone, cell, time_format)
+    fast = _iso_fast(cells, with_offset=True)
+    if fast is not None:
+        times, offsets = fast
+        return times.dt.tz_convert(zone if zone is not None else _file_zone(offsets, notes))
+    if zone is not None:
+        fast = _iso_fast(cells, with_offset=False)
+        if fast is not None:
+            return _localize(where, fast[0], zone, cell)
+    # Some cell is not plain ISO 8601: parse cell by cell, so the checks can name the row.
+    cells = _as_text(cells)
     has_offset = cells.str.contains(_OFFSET, regex=True).to_numpy()
     if has_offset.any():
         # Offsets may differ (daylight saving): in UTC they are one series, and
@@ -382,25 +411,73 @@ def _parse_times_raw(where: str, cells: pd.Series, tz: str | None, cell: str, ti
         times = pd.to_datetime(cells, format="ISO8601", utc=True, errors="coerce")
         times[~has_offset] = pd.NaT
         if zone is None:
-            # One offset throughout is the file's own local clock: keep it, so
-            # months and days are the site's, not UTC's.
-            offsets = cells[has_offset].str.extract(_OFFSET_CAPTURE, expand=False).dropna().unique()
-            if len(offsets) == 1:
-                zone = _zone(offsets[0] if offsets[0] not in ("Z", "z") else "UTC")
-            elif len(offsets) > 1:
-                # Several offsets are daylight saving: clocks move forward,
-                # so the smallest is the site's standard time.
-                minutes = [0 if o in ("Z", "z") else (1 if o[0] == "+" else -1)
-                           * (int(o[1:3]) * 60 + int(o[-2:])) for o in offsets]
-                zone = datetime.timezone(pd.Timedelta(minutes=min(minutes)))
-                notes.append(f"timestamps carry offsets {', '.join(sorted(offsets))} (daylight saving): moved to "
-                             f"the site's standard time {zone}; days and months are counted on standard time")
-        return times.dt.tz_convert(zone) if zone is not None else times
+            zone = _file_zone(cells[has_offset].str.extract(_OFFSET_CAPTURE, expand=False).dropna().unique(), notes)
+        return times.dt.tz_convert(zone)
     if zone is None:
         raise InputError(where, f"column {cell!r}", "timestamps carry no time zone; give --tz "
                          "(e.g. --tz Europe/Berlin or --tz +01:00) or write them with an offset")
     times = pd.to_datetime(cells, format="ISO8601", errors="coerce")
     return _localize(where, times, zone, cell)
+
+
+def _iso_fast(cells: pd.Series, with_offset: bool):
+    """Every cell ISO 8601 (each with an offset, or none with one), parsed by Arrow; else None.
+
+    Returns (times, distinct offsets): UTC times with offsets, naive without.
+    """
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    try:
+        arr = pa.array(cells)
+        if not pa.types.is_string(arr.type) and not pa.types.is_large_string(arr.type):
+            return None
+        if arr.null_count == len(arr):
+            return None
+        parsed = pc.cast(arr, pa.timestamp("ns", tz="UTC" if with_offset else None))
+    except (pa.ArrowInvalid, pa.ArrowNotImplementedError, pa.ArrowTypeError):
+        return None
+    times = pd.Series(parsed.to_pandas(), index=cells.index)
+    if not with_offset:
+        return times, ()
+    return times, sorted({m.group(1) for m in map(re.compile(_OFFSET_CAPTURE).search, _tails(arr)) if m})
+
+
+def _tails(arr) -> list:
+    """The distinct last six characters of an Arrow string array: where an offset sits ("+01:00", "Z")."""
+    import pyarrow as pa
+
+    arr = arr.drop_null()
+    if isinstance(arr, pa.ChunkedArray):
+        arr = arr.combine_chunks()
+    width = np.int64 if pa.types.is_large_string(arr.type) else np.int32
+    ends = np.frombuffer(arr.buffers()[1], dtype=width)[arr.offset + 1:arr.offset + len(arr) + 1].astype(np.int64)
+    data = np.frombuffer(arr.buffers()[2], dtype=np.uint8)
+    # eight bytes per row (two before the tail) make one int64 key: a hash over
+    # numbers, not half a million strings
+    picks = ends[:, None] - np.arange(8, 0, -1)
+    if len(ends) and ends[0] < 8:
+        picks = np.clip(picks, 0, None)
+    keys = pd.unique(np.ascontiguousarray(data[picks]).view(np.int64).ravel())
+    return [k.tobytes()[2:].decode("utf-8", "replace") for k in keys]
+
+
+def _file_zone(offsets, notes: list):
+    """The zone of a file whose timestamps carry ``offsets``: its own clock, on standard time."""
+    if len(offsets) == 0:
+        return "UTC"
+    if len(offsets) == 1:
+        # One offset throughout is the file's own local clock: keep it, so
+        # months and days are the site's, not UTC's.
+        return _zone(offsets[0] if offsets[0] not in ("Z", "z") else "UTC")
+    # Several offsets are daylight saving: clocks move forward, so the
+    # smallest is the site's standard time.
+    minutes = [0 if o in ("Z", "z") else (1 if o[0] == "+" else -1) * (int(o[1:3]) * 60 + int(o[-2:]))
+               for o in offsets]
+    zone = datetime.timezone(pd.Timedelta(minutes=min(minutes)))
+    notes.append(f"timestamps carry offsets {', '.join(sorted(offsets))} (daylight saving): moved to "
+                 f"the site's standard time {zone}; days and months are counted on standard time")
+    return zone
 
 
 def _parse_times_format(where, cells, zone, cell, time_format):
@@ -434,15 +511,18 @@ ISO_EXPECTED = ("is not an ISO 8601 timestamp with an offset (or without one and
 def _finish(where, times, values, raw, cells, units, rows, policy, notes=None, time_expected=ISO_EXPECTED):
     """Convert to SI, find bad rows, apply the policy and build the frame."""
     notes, problems, bad, ts_cell = list(notes or []), [], {}, cells["timestamp"]
-    bad_time = times.isna().to_numpy()
+    bad_time, days = times.isna().to_numpy(), None
     if bad_time.any():
         i = int(np.argmax(bad_time))
-        problems.append((rows[i], ts_cell, f"{raw['timestamp'].iloc[i]!r} {time_expected}"))
+        text = raw["timestamp"].iloc[i]
+        problems.append((rows[i], ts_cell, f"{'' if pd.isna(text) else str(text).strip()!r} {time_expected}"))
     for name, v in values.items():
         if np.isnan(v).all():
             raise InputError(where, f"column {cells[name]!r}", "has no numeric values")
         if units[name] is None:
-            scale, offset = _guess_unit(where, name, cells[name], v, times.dt.date.to_numpy(), notes)
+            if days is None:
+                days = times.dt.tz_localize(None).to_numpy().astype("datetime64[D]")
+            scale, offset = _guess_unit(where, name, cells[name], v, days, notes)
         else:
             scale, offset, text = units[name]
             if (scale, offset) != (1.0, 0.0):
@@ -456,8 +536,10 @@ def _finish(where, times, values, raw, cells, units, rows, policy, notes=None, t
             problems.append((rows[i], cells[name], f"{text!r} is not a number" if np.isnan(v[i]) and text
                              else "is empty" if np.isnan(v[i])
                              else f"{v[i]:g} {SI_LABEL[name]} is outside {lo:g}..{hi:g}"))
-    frame = pd.DataFrame(values, index=pd.DatetimeIndex(times))[~bad_time]
-    flags, rows = pd.DataFrame(bad)[~bad_time].set_axis(frame.index), rows[~bad_time]
+    frame, flags = pd.DataFrame(values, index=pd.DatetimeIndex(times)), pd.DataFrame(bad)
+    if bad_time.any():
+        frame, flags, rows = frame[~bad_time], flags[~bad_time], rows[~bad_time]
+    flags = flags.set_axis(frame.index)
     t = _ns(frame.index)
     run_max = np.maximum.accumulate(t)
     back = np.flatnonzero(t[1:] <= run_max[:-1]) + 1
@@ -467,16 +549,19 @@ def _finish(where, times, values, raw, cells, units, rows, policy, notes=None, t
         problems.append((rows[j], ts_cell, f"timestamp {frame.index[j]} repeats row {rows[k]}"
                          if t[j] == t[k] else f"timestamp {frame.index[j]} is earlier than row "
                          f"{rows[k]}; expected increasing time"))
-    order = np.argsort(t, kind="stable")
-    frame, flags, rows = frame.iloc[order], flags.iloc[order], rows[order]
-    dup = frame.index.duplicated(keep="first")
-    frame, flags, rows = frame[~dup], flags[~dup], rows[~dup]
+    dup = np.zeros(len(frame), bool)
+    if back.size:  # in time order already, a file has no repeats either
+        order = np.argsort(t, kind="stable")
+        frame, flags, rows = frame.iloc[order], flags.iloc[order], rows[order]
+        dup = frame.index.duplicated(keep="first")
+        frame, flags, rows = frame[~dup], flags[~dup], rows[~dup]
     step_h = np.diff(_ns(frame.index)) / 3.6e12
     # 1.5 steps, not 1: loggers jitter by seconds, and a missing row doubles the step
-    gaps = np.flatnonzero(step_h > 1.5 * np.median(step_h)) if step_h.size else step_h
+    median_h = float(np.median(step_h)) if step_h.size else 0.0
+    gaps = np.flatnonzero(step_h > 1.5 * median_h) if step_h.size else step_h
     if gaps.size:
         problems.append((rows[gaps[0] + 1], ts_cell, f"{step_h[gaps[0]]:g} h after row {rows[gaps[0]]} "
-                         f"where the median step is {np.median(step_h):g} h (missing data); "
+                         f"where the median step is {median_h:g} h (missing data); "
                          "use --bad-rows fill or skip to accept gaps"))
     if policy == "fail" and problems:
         row, cell, why = min(problems, key=lambda p: p[0])
@@ -498,7 +583,8 @@ def _finish(where, times, values, raw, cells, units, rows, policy, notes=None, t
         counts.append((row_bad.sum(), f"rows dropped that could not be filled (runs over {FILL_LIMIT} rows, or at an end)"))
     else:
         counts.append((row_bad.sum(), "rows with missing or impossible values skipped"))
-    frame = frame[~row_bad]
+    if row_bad.any():
+        frame = frame[~row_bad]
     if len(frame) < 2:
         raise InputError(where, None, "has fewer than 2 usable rows")
     for name in IRRADIANCE:
@@ -509,7 +595,7 @@ def _finish(where, times, values, raw, cells, units, rows, policy, notes=None, t
             counts.append((small.sum(), f"small negative {name} values set to 0"))
     frame.index.name = "timestamp"
     frame.attrs["notes"] = notes + [f"{int(n)} {text}" for n, text in counts if n]
-    frame.attrs["step_h"] = float(np.median(np.diff(_ns(frame.index)))) / 3.6e12
+    frame.attrs["step_h"] = float(np.median(np.diff(_ns(frame.index)))) / 3.6e12 if row_bad.any() else median_h
     return frame
 
 
