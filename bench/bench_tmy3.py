@@ -7,7 +7,7 @@ facing south at 35 degrees, open rack, at its maximum power point:
   transposition with the sun at the middle of each hour-ending interval (and,
   for scale, with the sun at the label, as pvsource placed it before);
 - annual energy at the MPP against pvlib's ModelChain set up the same way
-  (same De Soto parameters, Perez, Sandia open-rack temperature, physical
+  (the same single-diode parameters in pvlib's CEC form, Perez, Sandia open-rack temperature, physical
   incidence-angle model with Marion's diffuse integrals, no spectral loss);
 - how much the model choices move that energy: the incidence-angle loss on
   diffuse light, and the transposition model.
@@ -56,9 +56,10 @@ def modelchain_kwh(raw, loc, module, transposition="perez", diffuse_iam=True):
     pv = pvlib.pvsystem.PVSystem(
         surface_tilt=TILT, surface_azimuth=AZIMUTH, albedo=0.2, inverter_parameters={"pdc0": 1e6},
         module_parameters=dict(alpha_sc=p.alpha_sc_a_per_c, a_ref=p.a_ref_v, I_L_ref=p.i_l_ref_a, I_o_ref=p.i_o_ref_a,
-                               R_sh_ref=p.r_sh_ref_ohm, R_s=p.r_s_ohm, EgRef=p.eg_ref_ev, dEgdT=p.degdt_per_c),
+                               R_sh_ref=p.r_sh_ref_ohm, R_s=p.r_s_ohm, EgRef=p.eg_ref_ev, dEgdT=p.degdt_per_c,
+                               Adjust=p.adjust_pct),
         temperature_model_parameters=temperature.TEMPERATURE_MODEL_PARAMETERS["sapm"]["open_rack_glass_glass"])
-    mc = ModelChain(pv, loc, dc_model="desoto", ac_model="pvwatts", aoi_model="physical", spectral_model="no_loss",
+    mc = ModelChain(pv, loc, dc_model="cec", ac_model="pvwatts", aoi_model="physical", spectral_model="no_loss",
                     temperature_model="sapm", transposition_model=transposition, losses_model="no_loss")
     w = raw[["ghi", "dni", "dhi", "temp_air", "wind_speed"]].copy()
     w.index = w.index - pd.Timedelta("30min")

@@ -210,7 +210,8 @@ def one_module_system(demo_module, site, tilt=35.0):
 @pytest.mark.parametrize("name", ["703165TY.csv", "723170TYA.CSV"])
 def test_tmy3_year_matches_pvlib_modelchain_at_the_mpp(demo_module, name):
     # Open dataset: the two TMY3 files pvlib ships. Reference library: pvlib's
-    # ModelChain set up the same way: the same De Soto parameters, Perez
+    # ModelChain set up the same way: the same single-diode parameters (pvlib's CEC
+    # form of De Soto, with its Adjust), Perez
     # transposition, Sandia open-rack cell temperature, physical incidence-angle
     # model on the beam and Marion's diffuse integrals of it on sky and ground
     # light (pvlib.iam.marion_diffuse), no spectral loss, the sun at the middle
@@ -233,10 +234,10 @@ def test_tmy3_year_matches_pvlib_modelchain_at_the_mpp(demo_module, name):
         surface_tilt=35, surface_azimuth=180, albedo=0.2, inverter_parameters={"pdc0": 1e6},
         module_parameters=dict(alpha_sc=p.alpha_sc_a_per_c, a_ref=p.a_ref_v, I_L_ref=p.i_l_ref_a,
                                I_o_ref=p.i_o_ref_a, R_sh_ref=p.r_sh_ref_ohm, R_s=p.r_s_ohm, EgRef=p.eg_ref_ev,
-                               dEgdT=p.degdt_per_c),
+                               dEgdT=p.degdt_per_c, Adjust=p.adjust_pct),
         temperature_model_parameters=temperature.TEMPERATURE_MODEL_PARAMETERS["sapm"]["open_rack_glass_glass"])
     loc = pvlib.location.Location(meta["latitude"], meta["longitude"], altitude=meta["altitude"])
-    mc = ModelChain(pv, loc, dc_model="desoto", ac_model="pvwatts", aoi_model="physical",
+    mc = ModelChain(pv, loc, dc_model="cec", ac_model="pvwatts", aoi_model="physical",
                     spectral_model="no_loss", temperature_model="sapm", transposition_model="perez",
                     losses_model="no_loss")
     w = raw[["ghi", "dni", "dhi", "temp_air", "wind_speed"]].copy()
