@@ -413,10 +413,14 @@ def _parse_times_raw(where: str, cells: pd.Series, tz: str | None, cell: str, ti
         if zone is None:
             zone = _file_zone(cells[has_offset].str.extract(_OFFSET_CAPTURE, expand=False).dropna().unique(), notes)
         return times.dt.tz_convert(zone)
+    times = pd.to_datetime(cells, format="ISO8601", errors="coerce")
     if zone is None:
+        first = cells[cells != ""].iloc[0] if (cells != "").any() else ""
+        if pd.isna(pd.to_datetime(first, format="ISO8601", errors="coerce")):
+            raise InputError(where, f"column {cell!r}", f"{first!r} is not an ISO 8601 timestamp; for other "
+                             "forms give --time-format, e.g. --time-format '%d.%m.%Y %H:%M', and --tz")
         raise InputError(where, f"column {cell!r}", "timestamps carry no time zone; give --tz "
                          "(e.g. --tz Europe/Berlin or --tz +01:00) or write them with an offset")
-    times = pd.to_datetime(cells, format="ISO8601", errors="coerce")
     return _localize(where, times, zone, cell)
 
 

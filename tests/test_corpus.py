@@ -58,6 +58,15 @@ CASES = {
     "NaN in a column": ("season {c}/good-system.toml {c}/w-nan.csv --out {out}", ["w-nan.csv", "row 10"]),
     "spreadsheet export missing a column": (
         "season {c}/good-system.toml {c}/w-spreadsheet-missing-column.csv --out {out}", ["temp_air"]),
+    "irradiance in kW/m2": ("season {c}/good-system.toml {c}/w-kilowatts.csv --out {out}",
+                            ["w-kilowatts.csv", "column 'ghi'", "kW/m2", "--column"]),
+    "temperature in degF": ("season {c}/good-system.toml {c}/w-fahrenheit.csv --out {out}",
+                            ["w-fahrenheit.csv", "column 'temp_air'", "degF", "temp_air [degF]"]),
+    "day-first dates without --time-format": ("season {c}/good-system.toml {c}/w-day-first.csv --out {out}",
+                                              ["w-day-first.csv", "'01.06.2025 00:00'", "--time-format"]),
+    "day-first dates with the wrong --time-format": (
+        "season {c}/good-system.toml {c}/w-day-first.csv --out {out} --tz UTC --time-format %m/%d/%Y",
+        ["w-day-first.csv", "row 2", "does not match --time-format"]),
     "strings that never reach the bank": (
         "season {c}/never-reaches-bank.toml {c}/w-good.csv --out {out}", ["never charged the bank"]),
     # command-line values
@@ -69,6 +78,14 @@ CASES = {
     "unknown time zone": ("season {c}/good-system.toml {c}/w-good.csv --out {out} --tz Mars/Olympus", ["--tz"]),
     "unknown bad-row policy": ("season {c}/good-system.toml {c}/w-good.csv --out {out} --bad-rows maybe",
                                ["--bad-rows"]),
+    "unknown time label": ("season {c}/good-system.toml {c}/w-good.csv --out {out} --time-label noon",
+                           ["--time-label", "start, middle, end, instant"]),
+    "time format without a directive": (
+        "season {c}/good-system.toml {c}/w-good.csv --out {out} --time-format daymonthyear", ["--time-format"]),
+    "explore with an unknown bad-row policy": (
+        "explore {c}/good-system.toml {c}/w-good.csv --vary tilt_deg=20,30 --out {out} --price-per-kg 1 "
+        "--energy-value 1 --bad-rows maybe", ["--bad-rows"]),
+    "fleet with an unknown transposition": ("fleet {c} --out {out} --transposition klucher", ["--transposition"]),
     "check without temperatures": ("check {c}/good-system.toml", ["--min-temp"]),
 }
 
