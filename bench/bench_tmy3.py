@@ -91,7 +91,8 @@ def main() -> None:
         summary = run_season(system, weather).summary
         ref = modelchain_kwh(raw, loc, module)
         no_diffuse_iam = modelchain_kwh(raw, loc, module, diffuse_iam=False)
-        print(f"{name} ({meta['Name'].strip().strip('"')}, {meta['latitude']:g}, {meta['longitude']:g}): "
+        station = meta["Name"].strip().strip('"')
+        print(f"{name} ({station}, {meta['latitude']:g}, {meta['longitude']:g}): "
               f"{len(summary['monthly'])} months")
         print(f"  monthly POA insolation vs pvlib, sun at mid-interval: max {100 * np.max(np.abs(ours_m / mid - 1)):.3f} %"
               f" (the sun at the label would be off by up to {100 * np.max(np.abs(label / mid - 1)):.2f} %)")
