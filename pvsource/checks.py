@@ -46,6 +46,10 @@ from pvsource.wiring import PV_SIDE_ROLES, run_ampacity
 # Common practice: in full sun, cells of rack- or roof-mounted modules run
 # some 25-35 degC above the air; the high end makes the low-Vmp check cautious.
 DEFAULT_CELL_RISE_C = 35.0
+# NOCT is measured at 800 W/m2, 20 degC air and 1 m/s wind on an open rack
+# (IEC 61215); the rise scales with irradiance (Ross's linear model).
+NOCT_IRRADIANCE_W_M2 = 800.0
+NOCT_AIR_C = 20.0
 CIRCUIT_CURRENT_FACTOR = 1.25      # NEC 690.8(A)(1): irradiance above 1000 W/m2
 CONDUCTOR_CURRENT_FACTOR = 1.25    # NEC 690.8(B)(1): continuous current
 
@@ -180,17 +184,61 @@ def _pv_side_drop_v(system: System, string_current_a: float) -> float:
     return worst
 
 
-def min_string_vmp(system: System, max_air_c: float, cell_rise_c: float = DEFAULT_CELL_RISE_C) -> Check:
+def noct_cell_rise_c(noct_c, irradiance_w_m2=STC_IRRADIANCE_W_M2):
+    """Cell temperature above the air from the module's NOCT [degC].
+
+    ``(NOCT - 20) x G / 800``: Ross's model with its coefficient taken at
+    NOCT conditions [2]_, as :func:`pvlib.temperature.ross` does with
+    ``noct``. At 1000 W/m2 the rise is 1.25 (NOCT - 20).
+
+    Parameters
+    ----------
+    noct_c : float or array
+        Nominal operating cell temperature [degC].
+    irradiance_w_m2 : float or array
+        Plane-of-array irradiance [W/m2].
+
+    References
+    ----------
+    .. [2] R. G. Ross, "Interface design considerations for terrestrial solar
+       cell modules", Proc. 12th IEEE PVSC (1976) 801-806; NOCT conditions:
+       IEC 61215-2 (800 W/m2, 20 degC air, 1 m/s wind, open rack).
+    """
+    return (np.asarray(noct_c, dtype=float) - NOCT_AIR_C) * np.asarray(irradiance_w_m2, dtype=float) \
+        / NOCT_IRRADIANCE_W_M2
+
+
+def cell_rise(system: System, given_c: float | None = None) -> tuple[float, str]:
+    """Cells above the air in full sun (1000 W/m2) for the hot case [degC], and its basis.
+
+    The given value; else, when the datasheet gives ``noct_c``, the NOCT rise
+    (:func:`noct_cell_rise_c`); else :data:`DEFAULT_CELL_RISE_C`.
+    """
+    if given_c is not None:
+        return float(given_c), f"cells {given_c:g} degC above the hottest air in full sun, as given"
+    ds = system.module.datasheet
+    if ds is not None and ds.noct_c is not None:
+        rise = float(noct_cell_rise_c(ds.noct_c))
+        return rise, (f"cells (NOCT {ds.noct_c:g} - 20) x 1000/800 = {rise:g} degC above the hottest air in full "
+                      "sun (NOCT: IEC 61215, open rack at 1 m/s wind; roof-mounted modules run hotter, give "
+                      "--cell-rise)")
+    return DEFAULT_CELL_RISE_C, (f"cells {DEFAULT_CELL_RISE_C:g} degC above the hottest air in full sun (common "
+                                 "practice; the datasheet gives no noct_c)")
+
+
+def min_string_vmp(system: System, max_air_c: float, cell_rise_c: float | None = None) -> Check:
     """Lowest Vmp reaching the controller in full sun at the record high, against what the equipment needs.
 
     The string's Vmp (single-diode model, 1000 W/m2, cells ``cell_rise_c``
-    above the air) less the drop of the PV-side cables at that current, then
-    compared with the controller's minimum input; without one, with the
-    bank's absorption voltage (plus the tracker's headroom), or the
-    battery or voltage load's EMF.
+    above the air; when None, from the module's NOCT or the common-practice
+    default, see :func:`cell_rise`) less the drop of the PV-side cables at
+    that current, then compared with the controller's minimum input; without
+    one, with the bank's absorption voltage (plus the tracker's headroom), or
+    the battery or voltage load's EMF.
     """
     from pvsource import bank as bank_model  # a bank is optional; import where used
 
+    cell_rise_c, rise_basis = cell_rise(system, cell_rise_c)
     t_cell = max_air_c + cell_rise_c
     state = parameters_at(system.module.parameters, STC_IRRADIANCE_W_M2, t_cell)
     sd = pvsystem.singlediode(state.i_l_a, state.i_o_a, state.r_s_ohm, state.r_sh_ohm, state.a_v)
@@ -214,8 +262,7 @@ def min_string_vmp(system: System, max_air_c: float, cell_rise_c: float = DEFAUL
               f"{t_cell:g} degC, less {drop:.2f} V in the PV-side cables at {imp:.2f} A per string; "
               f"compared with {against}")
     return Check("min_string_vmp", value, limit, "V", _compare(value, limit, "min"),
-                 f"common practice: Vmp in full sun with cells {cell_rise_c:g} degC above the hottest air, "
-                 "at the controller's input", "min", detail,
+                 f"Vmp at the controller's input in full sun (common practice); {rise_basis}", "min", detail,
                  "voltage window: the hottest Vmp must stay above what the controller or bank needs")
 
 
@@ -408,7 +455,7 @@ def all_passed(checks: list[Check]) -> bool | None:
 
 
 def design_checks(system: System, min_air_c: float, max_air_c: float,
-                  cell_rise_c: float = DEFAULT_CELL_RISE_C, defaults: amp.Installation = amp.Installation()
+                  cell_rise_c: float | None = None, defaults: amp.Installation = amp.Installation()
                   ) -> list[Check]:
     """Every check, in a stable order."""
     return [max_string_voc(system, min_air_c), min_string_vmp(system, max_air_c, cell_rise_c),

@@ -31,7 +31,7 @@ from pvsource.ampacity import (
     DEFAULT_AMBIENT_C, DEFAULT_CONDUCTORS_TOGETHER, DEFAULT_INSTALL, DEFAULT_INSULATION_C, Installation,
     check_installation,
 )
-from pvsource.checks import DEFAULT_CELL_RISE_C, all_passed, design_checks, design_currents
+from pvsource.checks import all_passed, cell_rise, design_checks, design_currents
 from pvsource.config import load_module, load_system
 from pvsource.errors import ConvergenceError, InputError, PhysicsGuardError
 from pvsource.module import model_notes
@@ -556,8 +556,9 @@ def check(
         "--min-temp", help="The site's record low air temperature [degC].")] = None,
     max_temp: Annotated[Optional[float], typer.Option(
         "--max-temp", help="The site's record high air temperature [degC].")] = None,
-    cell_rise: Annotated[float, typer.Option(
-        "--cell-rise", help="Cells above the air in full sun, for the hot case [degC].")] = DEFAULT_CELL_RISE_C,
+    cell_rise_c: Annotated[Optional[float], typer.Option(
+        "--cell-rise", help="Cells above the air in full sun, for the hot case [degC]. Default: 1.25 x (NOCT - 20) "
+                            "from the datasheet's noct_c, else 35 (common practice).")] = None,
     insulation_c: InsulationOpt = DEFAULT_INSULATION_C,
     ambient_c: AmbientOpt = DEFAULT_AMBIENT_C,
     conductors_together: TogetherOpt = DEFAULT_CONDUCTORS_TOGETHER,
@@ -570,15 +571,19 @@ def check(
     if max_temp is None:
         raise InputError("--max-temp", None, "is needed: the site's record high air temperature in degC")
     for name, value, lo, hi in (("--min-temp", min_temp, -70.0, 40.0), ("--max-temp", max_temp, -20.0, 65.0),
-                                ("--cell-rise", cell_rise, 0.0, 60.0)):
+                                ("--cell-rise", cell_rise_c, 0.0, 60.0)):
+        if value is None:
+            continue
         if not math.isfinite(value) or not lo <= value <= hi:
             raise InputError(name, None, f"expected {lo:g} to {hi:g} degC, got {value!r}")
     if min_temp >= max_temp:
         raise InputError("--min-temp", None, f"must be below --max-temp ({max_temp:g} degC)")
     inst = _installation(insulation_c, ambient_c, conductors_together, install)
     system = load_system(system_file)
-    checks = design_checks(system, min_temp, max_temp, cell_rise, inst)
-    rec = {"system": system.name, "min_air_c": min_temp, "max_air_c": max_temp, "cell_rise_c": cell_rise,
+    rise_c, rise_basis = cell_rise(system, cell_rise_c)
+    checks = design_checks(system, min_temp, max_temp, cell_rise_c, inst)
+    rec = {"system": system.name, "min_air_c": min_temp, "max_air_c": max_temp, "cell_rise_c": rise_c,
+           "cell_rise_basis": rise_basis,
            "checks": [c.record() for c in checks], "design_currents": design_currents(system, inst),
            "all_passed": all_passed(checks),
            "notes": model_notes(system.module),

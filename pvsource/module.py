@@ -78,7 +78,7 @@ class Datasheet:
         has six parameters and reproduces how power falls with heat.
     noct_c : float or None
         Nominal operating cell temperature [degC], as the datasheet gives it;
-        carried for reports.
+        the hot-Vmp check takes its default cell rise from it (checks.cell_rise).
     max_series_fuse_a : float or None
         The maker's maximum series fuse rating [A] (NEC 690.9), if given.
     """

@@ -313,7 +313,8 @@ def render_checks(system: System, rec: dict) -> str:
     """The readable table of ``pvsource check``."""
     lines = [f"pvsource design checks: {system.name or system.source}", f"file        {system.source}",
              f"site        record low {rec['min_air_c']:g} degC, record high {rec['max_air_c']:g} degC "
-             f"(cells {rec['cell_rise_c']:g} degC above the air in full sun)"]
+             f"(cells {rec['cell_rise_c']:g} degC above the air in full sun"
+             + (", from the module's NOCT)" if "NOCT" in rec.get("cell_rise_basis", "") else ")")]
     lines.append(_rule("Checks"))
     for c in rec["checks"]:
         state = "note" if c.get("advisory") and c["passed"] is False else \

@@ -4,9 +4,10 @@ from dataclasses import replace
 
 import numpy as np
 import pytest
-from pvlib import pvsystem
+from pvlib import pvsystem, temperature
 
-from pvsource.checks import design_checks, design_currents, max_string_voc, min_string_vmp
+from pvsource.checks import (DEFAULT_CELL_RISE_C, design_checks, design_currents, max_string_voc,
+                             min_string_vmp, noct_cell_rise_c)
 from pvsource.controller import Controller
 from pvsource.module import fit_datasheet, parameters_at
 from pvsource.system import Load
@@ -66,6 +67,39 @@ def test_hot_vmp_uses_the_single_diode_model(demo_module):
     assert c.value == pytest.approx(2 * ref, rel=1e-9)
     assert c.sense == "min" and c.passed is (2 * ref >= 50.0)
     assert "common practice" in c.basis
+
+
+def test_the_noct_rise_is_rosss_model_at_noct_conditions():
+    # Reference, worked out by hand: NOCT is defined at 800 W/m2 and 20 degC
+    # air (IEC 61215-2), so NOCT 45 degC means 25 K at 800 W/m2, and the
+    # linear (Ross) model gives 25 x 1000/800 = 31.25 K in full sun.
+    assert float(noct_cell_rise_c(45.0)) == pytest.approx(31.25, abs=1e-12)
+    assert float(noct_cell_rise_c(45.0, 800.0)) == pytest.approx(25.0, abs=1e-12)
+    # Reference: pvlib.temperature.ross with its noct parameter.
+    g = np.array([200.0, 600.0, 1000.0, 1100.0])
+    for noct in (42.0, 45.0, 48.5):
+        np.testing.assert_allclose(noct_cell_rise_c(noct, g), temperature.ross(g, 30.0, noct=noct) - 30.0, rtol=1e-12)
+
+
+def test_hot_vmp_takes_the_cell_rise_from_the_modules_noct_when_none_is_given():
+    # Reference: pvlib.temperature.ross (noct=50) for the cell temperature and
+    # pvlib.pvsystem.singlediode on the fitted parameters there: with NOCT
+    # 50 degC, cells at 40 + 1.25 x 30 = 77.5 degC.
+    module = fit_datasheet(replace(DEMO_DATASHEET, noct_c=50.0))
+    system = replace(make_system(module, groups=((2, 2),)), controller=Controller(min_input_v=50.0))
+    t_cell = float(temperature.ross(1000.0, 40.0, noct=50.0))
+    assert t_cell == pytest.approx(77.5)
+    st = parameters_at(module.parameters, 1000.0, t_cell)
+    ref = float(np.squeeze(pvsystem.singlediode(st.i_l_a, st.i_o_a, st.r_s_ohm, st.r_sh_ohm, st.a_v)["v_mp"]))
+    c = min_string_vmp(system, 40.0)
+    assert c.value == pytest.approx(2 * ref, rel=1e-9)
+    assert "(NOCT 50 - 20) x 1000/800 = 37.5 degC" in c.basis
+    # A given rise wins over NOCT and says so; without NOCT the common-practice 35 degC.
+    given = min_string_vmp(system, 40.0, 20.0)
+    assert "as given" in given.basis and given.value > c.value
+    plain = min_string_vmp(replace(system, module=fit_datasheet(DEMO_DATASHEET)), 40.0)
+    assert "common practice" in plain.basis and f"{DEFAULT_CELL_RISE_C:g} degC" in plain.basis
+    assert plain.value > c.value  # cells 2.5 K cooler than with NOCT 50: higher Vmp
 
 
 def test_hot_vmp_falls_back_to_the_bank_voltage_and_says_when_there_is_no_limit(demo_module):
