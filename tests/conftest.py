@@ -1,5 +1,6 @@
 """Shared fixtures: an invented module and small systems built in code."""
 
+from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
@@ -18,9 +19,36 @@ DEMO_DATASHEET = Datasheet(v_oc=40.1, i_sc=9.8, v_mp=33.0, i_mp=9.2, isc_temp_co
                            voc_temp_coeff_pct=-0.29, cells_in_series=60, name="demo")
 
 
+# The same module with the power coefficient the shipped examples give
+# (invented): fitted by the six-parameter method, as the examples are.
+SIX_PARAMETER_DATASHEET = replace(DEMO_DATASHEET, pmax_temp_coeff_pct=-0.37, name="demo, six-parameter")
+
+
 @pytest.fixture(scope="session")
 def demo_module():
     return fit_datasheet(DEMO_DATASHEET)
+
+
+@pytest.fixture(scope="session")
+def six_module():
+    module = fit_datasheet(SIX_PARAMETER_DATASHEET)
+    assert module.fit.method == "six_parameter" and module.parameters.adjust_pct != 0.0
+    return module
+
+
+@pytest.fixture(params=["five_parameter", "six_parameter"])
+def any_module(request, demo_module, six_module):
+    """The demo module fitted both ways: core solver tests run once with each model."""
+    return demo_module if request.param == "five_parameter" else six_module
+
+
+def pvlib_cec_state(p, irradiance_w_m2, cell_temp_c):
+    """(I_L, I_0, R_s, R_sh, a) straight from pvlib.pvsystem.calcparams_cec: a reference beside parameters_at."""
+    from pvlib import pvsystem
+
+    return pvsystem.calcparams_cec(irradiance_w_m2, cell_temp_c, p.alpha_sc_a_per_c, p.a_ref_v, p.i_l_ref_a,
+                                   p.i_o_ref_a, p.r_sh_ref_ohm, p.r_s_ohm, p.adjust_pct, EgRef=p.eg_ref_ev,
+                                   dEgdT=p.degdt_per_c)
 
 
 def make_system(module, groups=((2, 2),), cables=(), load=Load("mpp")):

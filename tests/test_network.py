@@ -9,6 +9,8 @@ from pvsource import network as nw
 from pvsource.module import parameters_at
 from pvsource.network import Network, evaluate_groups, solve_at_bus_voltage, solve_max_power, solve_thevenin
 
+from conftest import pvlib_cec_state
+
 
 def _network(module, g, t, n_s, n_p, r_string=None, r_home=None):
     g = np.atleast_2d(g)
@@ -35,13 +37,13 @@ def _reference_current(net: Network, row: int, v_bus: float) -> float:
     return total
 
 
-def test_single_group_key_points_match_pvlib_singlediode(demo_module, rng):
+def test_single_group_key_points_match_pvlib_singlediode(any_module, rng):
     # Reference: pvlib.pvsystem.singlediode (lambertw) scaled by series/parallel counts.
     n = 300
     g = rng.uniform(0, 1300, (n, 1))
     g[:10] = 0.0
     t = rng.uniform(-40, 90, (n, 1))
-    net = _network(demo_module, g, t, [4], [3])
+    net = _network(any_module, g, t, [4], [3])
     st = net.state
     ref = pvsystem.singlediode(st.i_l_a[:, 0], st.i_o_a[:, 0], st.r_s_ohm[:, 0], st.r_sh_ohm[:, 0], st.a_v[:, 0])
     oc = solve_thevenin(net, 0.0, np.inf)
@@ -55,15 +57,21 @@ def test_single_group_key_points_match_pvlib_singlediode(demo_module, rng):
     np.testing.assert_allclose(mp.bus_v * i_mp, 12 * ref["p_mp"], rtol=1e-9, atol=1e-9)
     lit = g[:, 0] > 1.0
     np.testing.assert_allclose(mp.bus_v[lit], 4 * ref["v_mp"][lit], rtol=1e-5)
+    # Reference: pvlib.pvsystem.calcparams_cec, so the six-parameter
+    # module's adjustment reaches the solver's state.
+    il, io, _, _, a = pvlib_cec_state(any_module.parameters, g[lit], t[lit])
+    np.testing.assert_allclose(st.i_l_a[lit], il, rtol=1e-12)
+    np.testing.assert_allclose(st.i_o_a[lit], io, rtol=1e-12)
+    np.testing.assert_allclose(st.a_v[lit], a, rtol=1e-12)
 
 
-def test_battery_with_cables_matches_a_bracketed_root_of_kcl(demo_module, rng):
+def test_battery_with_cables_matches_a_bracketed_root_of_kcl(any_module, rng):
     # Reference: scipy.optimize.brentq on KCL, with group currents from pvlib's
     # i_from_v. Two mismatched groups, string leads, home runs and a feeder.
     n = 40
     g = rng.uniform(50, 1200, (n, 2))
     t = rng.uniform(-10, 70, (n, 2))
-    net = _network(demo_module, g, t, [3, 3], [2, 1], r_string=[0.05, 0.08], r_home=[0.02, 0.04])
+    net = _network(any_module, g, t, [3, 3], [2, 1], r_string=[0.05, 0.08], r_home=[0.02, 0.04])
     emf, r_branch = 88.0, 0.12
     sol = solve_thevenin(net, emf, r_branch)
     assert sol.converged.all()

@@ -19,13 +19,30 @@ def demo_run():
     return system, weather, run_season(system, weather)
 
 
-def test_annual_energy_balance_closes(demo_run):
-    # Law: conservation of energy over the year, within 0.01 %.
-    _, _, result = demo_run
-    s = result.summary
+def _assert_energy_balance_closes(s):
+    # Law: conservation of energy, within 0.01 %.
     parts = s["wiring_loss_kwh"] + s["controller_loss_kwh"] + s["bank_internal_loss_kwh"] + s["energy_stored_kwh"]
     assert parts == pytest.approx(s["energy_generated_kwh"], rel=1e-4)
     assert s["energy_generated_kwh"] + s["curtailed_kwh"] <= s["energy_mpp_kwh"] * (1 + 1e-9)
+
+
+def test_annual_energy_balance_closes(demo_run):
+    # Law: conservation of energy over the year; the demo's module is the
+    # six-parameter fit (it gives pmax_temp_coeff_pct).
+    system, _, result = demo_run
+    assert system.module.fit.method == "six_parameter"
+    _assert_energy_balance_closes(result.summary)
+
+
+def test_energy_balance_closes_with_the_five_parameter_model_too(demo_run, demo_module):
+    # Law: conservation of energy, on the demo's first fortnight with the
+    # five-parameter fit of the same datasheet.
+    from dataclasses import replace
+
+    system, weather, _ = demo_run
+    s = run_season(replace(system, module=demo_module), weather.iloc[: 24 * 14]).summary
+    assert s["energy_generated_kwh"] > 0.0
+    _assert_energy_balance_closes(s)
 
 
 def test_monthly_sums_equal_the_annual(demo_run):
