@@ -350,10 +350,11 @@ def _progress(label: str):
     return report
 
 
-def _season_outputs(system, weather, out: Path, force: bool, transposition: str, as_json: bool, inputs=()) -> None:
+def _season_outputs(system, weather, out: Path, force: bool, transposition: str, as_json: bool, inputs=(),
+                    steps_csv: bool = False) -> None:
     folder = prepare_folder(out, force, inputs)
     result = run_season(system, weather, transposition=transposition, progress=_progress("season"))
-    write_report(folder, system, result, weather)
+    write_report(folder, system, result, weather, steps_csv=steps_csv)
     if as_json:
         summary = {k: v for k, v in result.summary.items()}
         summary["out"] = str(folder)
@@ -417,6 +418,8 @@ def season(
     transposition: TranspositionOption = "perez",
     time_label: TimeLabelOption = None,
     time_format: TimeFormatOption = None,
+    steps_csv: Annotated[bool, typer.Option("--steps-csv", help="Also write every step as steps.csv (large at "
+                                                                "one-minute steps; steps.parquet always has them).")] = False,
     force: Annotated[bool, typer.Option("--force", help="Write into a folder that already holds files.")] = False,
     as_json: Annotated[bool, typer.Option("--json", help="Print the summary as one JSON object.")] = False,
 ):
@@ -424,20 +427,22 @@ def season(
     read = _weather_reader(column, tz, policy, transposition, time_label, time_format)
     system = load_system(system_file)
     weather = read(weather_file)
-    _season_outputs(system, weather, out, force, transposition, as_json, (system_file, weather_file))
+    _season_outputs(system, weather, out, force, transposition, as_json, (system_file, weather_file), steps_csv)
 
 
 @app.command()
 def demo(
     out: Annotated[Path, typer.Option("--out", metavar="DIR", help="Folder for tables, figures and the report.")]
     = Path("pvsource-demo"),
+    steps_csv: Annotated[bool, typer.Option("--steps-csv", help="Also write every step as steps.csv (large at "
+                                                                "one-minute steps; steps.parquet always has them).")] = False,
     force: Annotated[bool, typer.Option("--force", help="Write into a folder that already holds files.")] = False,
     as_json: Annotated[bool, typer.Option("--json", help="Print the summary as one JSON object.")] = False,
 ):
     """The whole season study on the built-in invented cabin and a synthetic, reproducible weather year."""
     system = demo_system()
     weather = synthetic_weather(system)
-    _season_outputs(system, weather, out, force, "perez", as_json)
+    _season_outputs(system, weather, out, force, "perez", as_json, steps_csv=steps_csv)
 
 
 @app.command()
@@ -534,7 +539,7 @@ def fleet(
             report(k + 1, len(members))
     table = fleet_table(results)
     _atomic_frame(folder / "fleet.parquet", table)
-    from pvsource.report import write_text
+    from pvsource.files import write_text
     write_text(folder / "fleet.csv", table.to_csv(index=False))
     if as_json:
         _emit_json({"rows": json_ready(table.to_dict(orient="records")), "out": str(folder)})
@@ -544,9 +549,9 @@ def fleet(
 
 
 def _atomic_frame(path: Path, frame) -> None:
-    from pvsource.report import _atomic
+    from pvsource.files import atomic_write
 
-    _atomic(path, lambda tmp: frame.to_parquet(tmp))
+    atomic_write(path, lambda tmp: frame.to_parquet(tmp))
 
 
 @app.command()

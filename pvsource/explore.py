@@ -24,7 +24,6 @@ import hashlib
 import itertools
 import json
 import os
-import tempfile
 from dataclasses import replace
 from pathlib import Path
 
@@ -35,6 +34,7 @@ from pvsource import bank as bank_model
 from pvsource import conductors
 from pvsource.checks import design_checks
 from pvsource.errors import InputError
+from pvsource.files import atomic_write
 from pvsource.runs import drop_budget_reasons, resize_run
 from pvsource.season import run_season
 from pvsource.system import System
@@ -190,14 +190,7 @@ def pareto_front(frame: pd.DataFrame) -> np.ndarray:
 def _write_part(folder: Path, row: dict) -> None:
     """One finished combination as its own Parquet file, written under a temporary name then renamed."""
     part = folder / f"{row['id']}.parquet"
-    fd, tmp = tempfile.mkstemp(prefix=f".{part.name}.", dir=folder)
-    os.close(fd)
-    try:
-        pd.DataFrame([row]).to_parquet(tmp)
-        os.replace(tmp, part)
-    finally:
-        if os.path.exists(tmp):
-            os.remove(tmp)
+    atomic_write(part, lambda tmp: pd.DataFrame([row]).to_parquet(tmp))
 
 
 ENGINES = ("local", "dask")

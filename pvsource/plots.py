@@ -4,8 +4,6 @@ then rename), so a failed draw never leaves half a picture."""
 
 from __future__ import annotations
 
-import os
-import tempfile
 from pathlib import Path
 
 import matplotlib
@@ -13,6 +11,8 @@ import matplotlib
 matplotlib.use("Agg")
 import matplotlib.pyplot as plt  # noqa: E402
 import numpy as np  # noqa: E402
+
+from pvsource.files import atomic_write  # noqa: E402
 
 # A palette of our own: slate for exact results, amber for the linear model.
 EXACT = "#2f4858"
@@ -23,16 +23,10 @@ MARK = "#7a9e7e"
 def save_atomically(fig, path) -> Path:
     """Write a figure to ``path`` through a temporary file in the same folder."""
     path = Path(path)
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.stem}.", suffix=path.suffix or ".png", dir=path.parent or ".")
-    os.close(fd)
     try:
-        fig.savefig(tmp, dpi=130)
-        os.replace(tmp, path)
+        return atomic_write(path, lambda tmp: fig.savefig(tmp, dpi=130), suffix=path.suffix or ".png")
     finally:
         plt.close(fig)
-        if os.path.exists(tmp):
-            os.remove(tmp)
-    return path
 
 
 def sweep_figure(rows, design: dict, path, title: str = "") -> Path:

@@ -11,8 +11,6 @@ import base64
 import html
 import json
 import math
-import os
-import tempfile
 from pathlib import Path
 
 import numpy as np
@@ -21,7 +19,8 @@ from pvsource import cautions, plots
 from pvsource.checks import design_checks
 from pvsource.curves import array_curves, thevenin_at
 from pvsource.errors import InputError
-from pvsource.season import SeasonResult
+from pvsource.files import atomic_write, write_text
+from pvsource.season import SeasonResult, hourly_table
 from pvsource.system import System
 
 FIGURES = ("monthly_energy.png", "wiring_loss_heatmap.png", "charge_duration.png", "state_of_charge.png",
@@ -43,7 +42,7 @@ def json_ready(obj):
     return obj
 
 
-OUTPUT_NAMES = ("steps.parquet", "steps.csv", "summary.json", "monthly.csv", "report.html", *FIGURES)
+OUTPUT_NAMES = ("steps.parquet", "steps.csv", "hourly.csv", "summary.json", "monthly.csv", "report.html", *FIGURES)
 
 
 def prepare_folder(out: Path, force: bool, inputs=()) -> Path:
@@ -59,22 +58,6 @@ def prepare_folder(out: Path, force: bool, inputs=()) -> Path:
         raise InputError("--out", None, f"{str(out)!r} is not empty; give --force to write into it")
     out.mkdir(parents=True, exist_ok=True)
     return out
-
-
-def _atomic(path: Path, write) -> Path:
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", dir=path.parent)
-    os.close(fd)
-    try:
-        write(tmp)
-        os.replace(tmp, path)
-    finally:
-        if os.path.exists(tmp):
-            os.remove(tmp)
-    return path
-
-
-def write_text(path: Path, text: str) -> Path:
-    return _atomic(Path(path), lambda tmp: Path(tmp).write_text(text, encoding="utf-8"))
 
 
 def telling_hours(steps, count: int = 4) -> list[tuple[int, str]]:
@@ -135,15 +118,21 @@ def _fmt(value, digits=1):
     return f"{value:,.{digits}f}" if isinstance(value, (int, float)) else str(value)
 
 
-def write_report(out: Path, system: System, result: SeasonResult, weather) -> list[Path]:
-    """Tables, summary, figures and the HTML report into ``out`` (already prepared)."""
+def write_report(out: Path, system: System, result: SeasonResult, weather, steps_csv: bool = False) -> list[Path]:
+    """Tables, summary, figures and the HTML report into ``out`` (already prepared).
+
+    ``steps.parquet`` (every step) and ``hourly.csv`` (:func:`pvsource.season.hourly_table`)
+    are always written; the per-step ``steps.csv``, large at short steps, only with ``steps_csv``.
+    """
     out = Path(out)
     steps, summary = result.steps, result.summary
     written = []
-    table = steps.copy()
-    table.index.name = "timestamp"
-    written.append(_atomic(out / "steps.parquet", lambda tmp: table.to_parquet(tmp)))
-    written.append(_atomic(out / "steps.csv", lambda tmp: table.to_csv(tmp)))
+    table = steps.rename_axis("timestamp")
+    written.append(atomic_write(out / "steps.parquet", lambda tmp: table.to_parquet(tmp)))
+    hourly = hourly_table(steps, summary["step_h"])
+    written.append(atomic_write(out / "hourly.csv", lambda tmp: hourly.to_csv(tmp, float_format="%.10g")))
+    if steps_csv:
+        written.append(atomic_write(out / "steps.csv", lambda tmp: table.to_csv(tmp)))
     written.append(write_text(out / "summary.json", json.dumps(json_ready(summary), indent=2, allow_nan=False)))
     monthly = json_ready(summary["monthly"])
     header = list(monthly[0]) if monthly else []

@@ -350,6 +350,69 @@ def _span_stats(steps: pd.DataFrame, step_h: float) -> dict:
     return out
 
 
+_HOUR_NS = 3_600_000_000_000
+
+
+def hourly_table(steps: pd.DataFrame, step_h: float) -> pd.DataFrame:
+    """The steps gathered into the clock hours they fall in: what a spreadsheet user opens.
+
+    - every power column ``*_w`` becomes the energy of the hour ``*_wh``
+      (the sum of power x step [Wh]), the same way the summary counts energy;
+    - every other number is the hour's mean (NaN steps left out);
+    - ``converged`` holds if it held at every step; ``stage`` and ``limit``
+      are the ones that held longest;
+    - ``covered_h`` is the time the row's steps cover [h]: 1 for a complete
+      hour, less where steps are missing.
+
+    Hours are those of the weather's own clock, labelled by their start, with
+    the steps whose timestamps fall in [start, start + 1 h). A clock hour
+    that happens twice (daylight saving ending) is two rows. Steps longer than
+    an hour are not split: each stays one row, labelled by its own timestamp,
+    with its energy over the whole step.
+
+    Parameters
+    ----------
+    steps : DataFrame
+        :attr:`SeasonResult.steps`, indexed by time, at least one row.
+    step_h : float
+        Step length [h], as in the summary.
+
+    Returns
+    -------
+    DataFrame
+        One row per hour that has steps, indexed by ``hour_start``.
+    """
+    index = steps.index
+    wall = index.tz_localize(None) if index.tz is not None else index
+    wall_ns = np.asarray(wall.as_unit("ns").asi8)
+    offset_ns = wall_ns - np.asarray(index.as_unit("ns").asi8)
+    # A new row where the clock hour or the clock's offset (DST) changes.
+    hour = wall_ns // _HOUR_NS
+    change = (np.diff(hour) != 0) | (np.diff(offset_ns) != 0)
+    starts = np.flatnonzero(np.concatenate([[True], change]))
+    counts = np.diff(np.append(starts, len(steps)))
+    label = index[starts] - pd.to_timedelta(wall_ns[starts] % _HOUR_NS, unit="ns")
+    out = {"covered_h": counts * step_h}
+    for name in steps.columns:
+        col = steps[name].to_numpy()
+        if col.dtype.kind == "b":
+            out[name] = np.add.reduceat(~col, starts) == 0
+        elif col.dtype.kind in "iuf":
+            col = col.astype(float, copy=False)
+            missing = np.isnan(col)
+            total = np.add.reduceat(np.where(missing, 0.0, col), starts)
+            if name.endswith("_w"):
+                out[name[:-2] + "_wh"] = total * step_h
+            else:
+                with np.errstate(invalid="ignore", divide="ignore"):
+                    out[name] = total / (counts - np.add.reduceat(missing, starts))
+        else:
+            codes, labels = pd.factorize(steps[name], use_na_sentinel=False)
+            tally = np.add.reduceat(np.eye(len(labels), dtype=np.int32)[codes], starts)
+            out[name] = np.asarray(labels, dtype=object)[tally.argmax(axis=1)]
+    return pd.DataFrame(out, index=pd.Index(label, name="hour_start"))
+
+
 def summarise(system: System, steps: pd.DataFrame, step_h: float) -> dict:
     """Totals and statistics for the whole span, with a ``monthly`` list of the same energies."""
     summary = {"steps": int(len(steps)), "step_h": step_h, "start": str(steps.index[0]), "end": str(steps.index[-1])}

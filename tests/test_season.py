@@ -7,7 +7,7 @@ import pytest
 
 from pvsource import bank as bank_model
 from pvsource.demo import demo_system, synthetic_weather
-from pvsource.season import ENERGY_KEYS, SOC_GRID, integrate_soc, run_season
+from pvsource.season import ENERGY_KEYS, SOC_GRID, hourly_table, integrate_soc, run_season
 
 from conftest import demo_system_file, run_cli, write_weather_csv
 
@@ -91,15 +91,26 @@ def test_the_demo_is_reproducible(demo_run):
 
 
 def test_demo_command_writes_every_output(capsys, tmp_path):
+    import os
+    import stat
+
     out = tmp_path / "demo"
-    code, text, err = run_cli(capsys, "demo", "--out", str(out), "--json")
+    old = os.umask(0o027)
+    try:
+        code, text, err = run_cli(capsys, "demo", "--out", str(out), "--json")
+    finally:
+        os.umask(old)
     assert code == 0
+    # Files take the user's umask (POSIX: mode 0o666 & ~umask), as any program's files do.
+    modes = {p.name: stat.S_IMODE(p.stat().st_mode) for p in out.iterdir()}
+    assert modes and set(modes.values()) == {0o640}, modes
     rec = json.loads(text)
     keys = ("poa_insolation_kwh_m2", "energy_mpp_kwh", "energy_delivered_kwh", "energy_stored_kwh",
             "wiring_loss_kwh", "controller_loss_kwh", "curtailed_kwh")
     assert all(k in rec for k in keys)
     assert all(k in rec["monthly"][0] for k in keys)
-    for name in ("steps.parquet", "steps.csv", "summary.json", "monthly.csv", "report.html",
+    assert not (out / "steps.csv").exists()  # only with --steps-csv
+    for name in ("steps.parquet", "hourly.csv", "summary.json", "monthly.csv", "report.html",
                  "monthly_energy.png", "wiring_loss_heatmap.png", "charge_duration.png", "state_of_charge.png",
                  "iv_curves.png"):
         assert (out / name).stat().st_size > 0, name
@@ -115,10 +126,20 @@ def test_season_from_a_weather_csv_matches_the_demo(capsys, tmp_path, demo_run):
     csv = tmp_path / "weather.csv"
     write_weather_csv(weather, csv)
     system_file = demo_system_file(tmp_path)
-    code, text, err = run_cli(capsys, "season", str(system_file), str(csv), "--out", str(tmp_path / "out"), "--json")
+    out = tmp_path / "out"
+    code, text, err = run_cli(capsys, "season", str(system_file), str(csv), "--out", str(out), "--json", "--steps-csv")
     assert code == 0, err
     rec = json.loads(text)
     assert rec["energy_stored_kwh"] == pytest.approx(result.summary["energy_stored_kwh"], rel=1e-6)
+    import pandas as pd
+
+    # Every step in both per-step files, read back by pandas.
+    per_step = pd.read_csv(out / "steps.csv")
+    assert len(per_step) == len(pd.read_parquet(out / "steps.parquet")) == len(weather)
+    assert per_step["stored_w"].sum() == pytest.approx(rec["energy_stored_kwh"] * 1000.0, rel=1e-9)
+    hourly = pd.read_csv(out / "hourly.csv")
+    assert len(hourly) == len(weather)  # hourly weather: one row per step
+    assert hourly["stored_wh"].sum() == pytest.approx(rec["energy_stored_kwh"] * 1000.0, rel=1e-9)
 
 
 def test_the_grid_interpolated_path_agrees_with_exact_coulomb_counting(demo_run):
@@ -291,3 +312,55 @@ def test_hourly_and_one_minute_steps_of_the_same_weather_agree(demo_module):
         assert len(a["monthly"]) == len(b["monthly"]) == 1
         for key in ("poa_insolation_kwh_m2", "energy_mpp_kwh"):
             assert b[key] == pytest.approx(a[key], rel=5e-3)
+
+
+def _minute_steps(start: str, days: int, tz: str):
+    """An invented one-minute frame of steps: powers, a current, a state of charge, a stage and a flag."""
+    import pandas as pd
+
+    index = pd.date_range(start, periods=days * 1440, freq="1min", tz=tz)
+    rng = np.random.default_rng(11)
+    n = len(index)
+    return pd.DataFrame({
+        "stored_w": rng.uniform(0.0, 900.0, n), "charge_current_a": rng.uniform(0.0, 20.0, n),
+        "soc": np.linspace(0.2, 0.9, n), "stage": np.where(np.arange(n) % 60 < 40, "bulk", "absorption"),
+        "converged": np.arange(n) != 100,
+    }, index=index)
+
+
+def test_hourly_table_matches_pandas_resampling_across_a_clock_change():
+    # Reference: pandas' own resampling on UTC hours (Zurich's offsets are
+    # whole hours, so its clock hours are UTC hours); 2025-10-26 repeats 02:00.
+    steps = _minute_steps("2025-10-25", 3, "Europe/Zurich")
+    step_h = 1.0 / 60.0
+    hourly = hourly_table(steps, step_h)
+    reference = steps.tz_convert("UTC").resample("h")
+    assert len(hourly) == 72 and hourly.index.is_unique
+    assert np.allclose(hourly["stored_wh"].to_numpy(), reference["stored_w"].sum().to_numpy() * step_h, rtol=1e-12)
+    assert np.allclose(hourly["charge_current_a"].to_numpy(), reference["charge_current_a"].mean().to_numpy())
+    assert np.allclose(hourly["soc"].to_numpy(), reference["soc"].mean().to_numpy())
+    assert (hourly["covered_h"] == 1.0).all()
+    assert (hourly["stage"] == "bulk").all()  # 40 of each hour's 60 minutes
+    assert not hourly["converged"].iloc[1] and hourly["converged"].drop(hourly.index[1]).all()
+    repeated = hourly.index[hourly.index.tz_localize(None).duplicated(keep=False)]
+    assert [t.tz_convert("UTC").hour for t in repeated] == [0, 1]  # 02:00 CEST, then 02:00 CET
+
+
+def test_hourly_table_keeps_steps_longer_than_an_hour_whole():
+    # Three-hour data is not split into hours: one row per step, its energy over the whole step.
+    import pandas as pd
+
+    index = pd.date_range("2025-06-01", periods=8, freq="3h", tz="Etc/GMT-1")
+    steps = pd.DataFrame({"stored_w": np.arange(8.0) * 100.0, "soc": np.linspace(0.1, 0.8, 8)}, index=index)
+    hourly = hourly_table(steps, 3.0)
+    assert list(hourly.index) == list(index)
+    assert np.array_equal(hourly["stored_wh"].to_numpy(), np.arange(8.0) * 300.0)
+    assert (hourly["covered_h"] == 3.0).all()
+
+
+def test_hourly_table_marks_a_partial_hour():
+    steps = _minute_steps("2025-03-01", 1, "Etc/GMT-1")
+    steps = steps.drop(steps.index[30:60])  # half of the first hour is missing
+    hourly = hourly_table(steps, 1.0 / 60.0)
+    assert hourly["covered_h"].iloc[0] == pytest.approx(0.5) and hourly["covered_h"].iloc[1] == pytest.approx(1.0)
+    assert hourly["stored_wh"].iloc[0] == pytest.approx(steps["stored_w"].iloc[:30].sum() / 60.0)
