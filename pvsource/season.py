@@ -333,23 +333,36 @@ def _energies(steps: pd.DataFrame, step_h: float) -> dict:
     return out
 
 
-def _span_stats(steps: pd.DataFrame, step_h: float) -> dict:
+def _span_stats(steps: pd.DataFrame, step_h: float, whole_span: bool = True) -> dict:
+    """Charge-current and state-of-charge statistics; the hours by stage and limit only for the ``whole_span``."""
     out = {}
     if "charge_current_a" in steps:
         lit = steps["charge_current_a"].to_numpy()
         out["peak_charge_current_a"] = float(np.nanmax(lit)) if len(lit) else 0.0
         positive = lit[lit > 0]
         out["p95_charge_current_a"] = float(np.percentile(positive, 95)) if positive.size else 0.0
-        out["hours_by_stage"] = {str(k): float(v) * step_h for k, v in steps["stage"].value_counts().items()}
-        out["hours_by_limit"] = {str(k): float(v) * step_h for k, v in steps["limit"].value_counts().items()}
+        if whole_span:
+            out["hours_by_stage"] = {str(k): float(v) * step_h for k, v in steps["stage"].value_counts().items()}
+            out["hours_by_limit"] = {str(k): float(v) * step_h for k, v in steps["limit"].value_counts().items()}
     if "soc" in steps:
-        out["min_soc"] = float(steps["soc"].min())
-        out["max_soc"] = float(steps["soc"].max())
-        daily = steps["soc"].groupby(steps.index.date).max()
-        out["days_reaching_full"] = int((daily >= FULL_SOC).sum())
+        soc = steps["soc"].to_numpy()
+        out["min_soc"] = float(soc.min())
+        out["max_soc"] = float(soc.max())
+        # Days of the weather's own clock; the steps are in time order, so each day is one run.
+        day = clock_ns(steps.index)[0] // _DAY_NS
+        starts = np.flatnonzero(np.concatenate([[True], np.diff(day) != 0]))
+        out["days_reaching_full"] = int((np.maximum.reduceat(soc, starts) >= FULL_SOC).sum())
     return out
 
 
+def clock_ns(index: pd.DatetimeIndex):
+    """Wall-clock time of each stamp in its own time zone, and that zone's offset from UTC, both [ns]."""
+    wall = index.tz_localize(None) if index.tz is not None else index
+    wall_ns = np.asarray(wall.as_unit("ns").asi8)
+    return wall_ns, wall_ns - np.asarray(index.as_unit("ns").asi8)
+
+
+_DAY_NS = 86_400_000_000_000
 _HOUR_NS = 3_600_000_000_000
 
 
@@ -383,9 +396,7 @@ def hourly_table(steps: pd.DataFrame, step_h: float) -> pd.DataFrame:
         One row per hour that has steps, indexed by ``hour_start``.
     """
     index = steps.index
-    wall = index.tz_localize(None) if index.tz is not None else index
-    wall_ns = np.asarray(wall.as_unit("ns").asi8)
-    offset_ns = wall_ns - np.asarray(index.as_unit("ns").asi8)
+    wall_ns, offset_ns = clock_ns(index)
     # A new row where the clock hour or the clock's offset (DST) changes.
     hour = wall_ns // _HOUR_NS
     change = (np.diff(hour) != 0) | (np.diff(offset_ns) != 0)
@@ -415,16 +426,22 @@ def hourly_table(steps: pd.DataFrame, step_h: float) -> pd.DataFrame:
 
 def summarise(system: System, steps: pd.DataFrame, step_h: float) -> dict:
     """Totals and statistics for the whole span, with a ``monthly`` list of the same energies."""
+    if not steps.index.is_monotonic_increasing:
+        steps = steps.sort_index()  # months and days below are runs of rows in time order
     summary = {"steps": int(len(steps)), "step_h": step_h, "start": str(steps.index[0]), "end": str(steps.index[-1])}
     summary.update(_energies(steps, step_h))
     summary.update(_span_stats(steps, step_h))
     monthly = []
-    # Months of the weather's own local calendar.
+    # Months of the weather's own local calendar. The steps are in time
+    # order, so each month is one run of rows: slices, not a group-by's copies.
     local = steps.index.tz_localize(None) if steps.index.tz is not None else steps.index
-    for period, part in steps.groupby(local.to_period("M")):
-        row = {"month": str(period)}
+    month = local.year.to_numpy() * 12 + local.month.to_numpy() - 1
+    edges = np.append(np.flatnonzero(np.concatenate([[True], np.diff(month) != 0])), len(steps))
+    for start, stop in zip(edges[:-1], edges[1:]):
+        part = steps.iloc[start:stop]
+        row = {"month": f"{month[start] // 12:04d}-{month[start] % 12 + 1:02d}"}
         row.update(_energies(part, step_h))
-        row.update({k: v for k, v in _span_stats(part, step_h).items() if not isinstance(v, dict)})
+        row.update(_span_stats(part, step_h, whole_span=False))
         monthly.append(row)
     summary["monthly"] = monthly
     if system.bank is not None:

@@ -364,3 +364,20 @@ def test_hourly_table_marks_a_partial_hour():
     hourly = hourly_table(steps, 1.0 / 60.0)
     assert hourly["covered_h"].iloc[0] == pytest.approx(0.5) and hourly["covered_h"].iloc[1] == pytest.approx(1.0)
     assert hourly["stored_wh"].iloc[0] == pytest.approx(steps["stored_w"].iloc[:30].sum() / 60.0)
+
+
+def test_csv_files_read_back_exactly_in_pandas(tmp_path):
+    # Reference: pandas' CSV reader and its ISO 8601 parser, across a clock change, with a gap (NaN) and text.
+    import pandas as pd
+
+    from pvsource.report import write_csv
+
+    steps = _minute_steps("2025-10-26", 1, "Europe/Zurich")
+    steps.iloc[5, 0] = np.nan
+    write_csv(tmp_path / "steps.csv", steps.rename_axis("timestamp"))
+    back = pd.read_csv(tmp_path / "steps.csv", index_col="timestamp")
+    times = pd.to_datetime(back.index, utc=True)
+    assert np.array_equal(times.as_unit("ns").asi8, steps.index.as_unit("ns").asi8)  # the same instants
+    assert back.index[0] == "2025-10-26T00:00:00+02:00" and back.index[-1] == "2025-10-26T22:59:00+01:00"  # 1,440 minutes of a 25-hour day
+    assert np.array_equal(back["stored_w"].to_numpy(), steps["stored_w"].to_numpy(), equal_nan=True)
+    assert list(back["stage"].iloc[[0, 59]]) == ["bulk", "absorption"]
