@@ -61,6 +61,10 @@ class BankPoint:
     accept_a: np.ndarray
     cap_a: np.ndarray | None = None
 
+    def head(self, m: int) -> "BankPoint":
+        """The first ``m`` conditions."""
+        return BankPoint(*(None if a is None else a[:m] for a in (getattr(self, k) for k in self.__dataclass_fields__)))
+
     def room_a(self):
         """What still fits in the bank this step (a season study's cap); infinite by default [A]."""
         return np.full_like(self.emf_v, np.inf) if self.cap_a is None else self.cap_a

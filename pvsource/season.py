@@ -207,13 +207,16 @@ def charge_grid_a(system: System, g, t, done=lambda k: None, chunk_size: int = C
         emf[k] = bank_model.open_circuit_v(system.bank, float(soc))
     lit = np.flatnonzero((np.asarray(g) > 0.0).any(axis=-1))
     wiring = system.wiring
+    # The bank at each grid state of charge is the same in every chunk: build it once, slice it per chunk.
+    size = min(chunk_size, lit.size)
+    banks = [bank_point(system, np.full(size, float(soc)), None) for soc in grid]
     for start in range(0, lit.size, chunk_size):
         rows = lit[start:start + chunk_size]
         state = parameters_at(system.module.parameters, g[rows], t[rows])
         net = Network(state, system.n_series, system.n_parallel, wiring.r_string_ohm, wiring.r_home_ohm)
         side = array_side(net, wiring.r_feeder_ohm) if system.controller.kind == "mppt" else None
-        for k, soc in enumerate(grid):
-            bank_pt = bank_point(system, np.full(rows.size, float(soc)), None)
+        for k, whole in enumerate(banks):
+            bank_pt = whole if rows.size == size else whole.head(rows.size)
             charge[k, rows] = unlimited_current_a(net, system.controller, bank_pt, wiring.r_feeder_ohm,
                                                   wiring.r_bank_ohm, side)
     for k in range(k_grid):
@@ -410,13 +413,16 @@ def hourly_table(steps: pd.DataFrame, step_h: float) -> pd.DataFrame:
             out[name] = np.add.reduceat(~col, starts) == 0
         elif col.dtype.kind in "iuf":
             col = col.astype(float, copy=False)
-            missing = np.isnan(col)
-            total = np.add.reduceat(np.where(missing, 0.0, col), starts)
+            total, count = np.add.reduceat(col, starts), counts
+            if np.isnan(total).any():  # only then pay for leaving NaN steps out
+                missing = np.isnan(col)
+                total, count = np.add.reduceat(np.where(missing, 0.0, col), starts), counts - np.add.reduceat(
+                    missing, starts)
             if name.endswith("_w"):
                 out[name[:-2] + "_wh"] = total * step_h
             else:
                 with np.errstate(invalid="ignore", divide="ignore"):
-                    out[name] = total / (counts - np.add.reduceat(missing, starts))
+                    out[name] = total / count
         else:
             codes, labels = pd.factorize(steps[name], use_na_sentinel=False)
             tally = np.add.reduceat(np.eye(len(labels), dtype=np.int32)[codes], starts)

@@ -332,6 +332,7 @@ def test_hourly_table_matches_pandas_resampling_across_a_clock_change():
     # Reference: pandas' own resampling on UTC hours (Zurich's offsets are
     # whole hours, so its clock hours are UTC hours); 2025-10-26 repeats 02:00.
     steps = _minute_steps("2025-10-25", 3, "Europe/Zurich")
+    steps.iloc[30, 1] = np.nan  # a step without a current: left out of its hour's mean, as pandas does
     step_h = 1.0 / 60.0
     hourly = hourly_table(steps, step_h)
     reference = steps.tz_convert("UTC").resample("h")
