@@ -24,7 +24,9 @@ def save_atomically(fig, path) -> Path:
     """Write a figure to ``path`` through a temporary file in the same folder."""
     path = Path(path)
     try:
-        return atomic_write(path, lambda tmp: fig.savefig(tmp, dpi=130), suffix=path.suffix or ".png")
+        # A tight box keeps labels and legends that sit outside the axes.
+        return atomic_write(path, lambda tmp: fig.savefig(tmp, dpi=130, bbox_inches="tight", pad_inches=0.12),
+                            suffix=path.suffix or ".png")
     finally:
         plt.close(fig)
 
@@ -90,10 +92,17 @@ SEASON_PARTS = (
 )
 
 
+def _month_label(month: str) -> str:
+    """"2025-03" -> "Mar"; anything else unchanged."""
+    names = ("Jan", "Feb", "Mar", "Apr", "May", "Jun", "Jul", "Aug", "Sep", "Oct", "Nov", "Dec")
+    head, _, tail = month.partition("-")
+    return names[int(tail) - 1] if tail.isdigit() and 1 <= int(tail) <= 12 else month
+
+
 def monthly_energy_figure(summary: dict, path) -> Path:
     """Each month's energy at the groups' MPPs, split into where it went (stacked columns)."""
     months = summary["monthly"]
-    labels = [m["month"][5:] for m in months]
+    labels = [_month_label(m["month"]) for m in months]
     fig, ax = plt.subplots(figsize=(8.0, 4.2))
     bottom = np.zeros(len(months))
     for key, label, colour in SEASON_PARTS:
@@ -108,7 +117,8 @@ def monthly_energy_figure(summary: dict, path) -> Path:
     ax.set_xlabel("month")
     ax.spines[["top", "right"]].set_visible(False)
     ax.grid(True, axis="y", color="#e3e3e3", lw=0.6)
-    ax.legend(fontsize=7.5, frameon=False, ncol=3, loc="upper left")
+    # Under the axes: the columns fill the plot, a legend inside would cover them.
+    ax.legend(fontsize=7.5, frameon=False, ncol=3, loc="upper center", bbox_to_anchor=(0.5, -0.2))
     ax.set_title("Where each month's available energy went", fontsize=10, loc="left")
     return save_atomically(fig, path)
 
@@ -157,7 +167,7 @@ def soc_figure(steps, path) -> Path:
     ax.set_ylim(0, 102)
     ax.set_ylabel("state of charge [%]")
     ax.spines[["top", "right"]].set_visible(False)
-    ax.legend(fontsize=7.5, frameon=False, loc="lower left")
+    ax.legend(fontsize=7.5, frameon=False, ncol=2, loc="lower right", bbox_to_anchor=(1.0, 1.0))
     ax.set_title("State of charge", fontsize=10, loc="left")
     return save_atomically(fig, path)
 

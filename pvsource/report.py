@@ -7,19 +7,18 @@ that already holds files is only written into with ``force``.
 
 from __future__ import annotations
 
-import base64
-import html
 import json
 import math
 from pathlib import Path
 
 import numpy as np
 
-from pvsource import cautions, plots
+from pvsource import plots
 from pvsource.checks import design_checks
 from pvsource.curves import array_curves, thevenin_at
 from pvsource.errors import InputError
 from pvsource.files import atomic_write, write_text
+from pvsource.report_page import render_page
 from pvsource.season import SeasonResult, clock_ns, hourly_table
 from pvsource.system import System
 
@@ -100,22 +99,11 @@ def iv_curves(system: System, steps, count: int = 4) -> list:
     t = rows[[f"group_{n}_cell_temp_c" for n in names]].to_numpy(float)
     found = array_curves(system, g, t)
     _, tangent = thevenin_at(system, g, t, rows["v"].to_numpy(float))
-    return [{"label": f"{why}: {steps.index[k].strftime('%Y-%m-%d %H:%M')}, {g[n].mean():.0f} W/m2, "
+    return [{"label": f"{why}: {steps.index[k].strftime('%Y-%m-%d %H:%M')}, {g[n].mean():.0f} W/m², "
                       f"cells {t[n].mean():.0f} °C",
              "v": found.v[n], "i": found.i[n], "p": found.p[n], "v_op": float(rows["v"].iloc[n]),
              "i_op": float(rows["i"].iloc[n]), "e_th_v": float(tangent.e_v[n]), "r_th_ohm": float(tangent.r_ohm[n])}
             for n, (k, why) in enumerate(picked)]
-
-
-def _table(rows: list[tuple]) -> str:
-    body = "".join("<tr>" + "".join(f"<td>{html.escape(str(c))}</td>" for c in r) + "</tr>" for r in rows)
-    return f"<table>{body}</table>"
-
-
-def _fmt(value, digits=1):
-    if value is None or (isinstance(value, float) and not math.isfinite(value)):
-        return "n/a"
-    return f"{value:,.{digits}f}" if isinstance(value, (int, float)) else str(value)
 
 
 def iso_stamps(index) -> np.ndarray:
@@ -191,40 +179,7 @@ def write_report(out: Path, system: System, result: SeasonResult, weather, steps
 
     t_min, t_max = float(weather["temp_air"].min()), float(weather["temp_air"].max())
     checks = design_checks(system, t_min, t_max)
-    images = "".join(
-        f'<figure><img alt="{html.escape(name)}" src="data:image/png;base64,'
-        f'{base64.b64encode((out / name).read_bytes()).decode()}"></figure>' for name in figures)
-    energy_rows = [(label, _fmt(summary.get(key)), "kWh") for key, label in (
-        ("energy_mpp_kwh", "available at the groups' MPPs"), ("energy_generated_kwh", "generated"),
-        ("wiring_loss_kwh", "lost in cables"), ("controller_loss_kwh", "lost in the controller"),
-        ("curtailed_kwh", "curtailed by the controller"), ("energy_delivered_kwh", "into the bank or load"),
-        ("energy_stored_kwh", "stored"), ("load_kwh", "load"), ("unmet_load_kwh", "load not met"))]
-    stat_rows = [(k.replace("_", " "), _fmt(summary.get(k), 2)) for k in (
-        "peak_charge_current_a", "p95_charge_current_a", "min_soc", "days_reaching_full") if k in summary]
-    month_rows = [(m["month"], _fmt(m["energy_mpp_kwh"]), _fmt(m["energy_generated_kwh"]),
-                   _fmt(m["wiring_loss_kwh"], 2), _fmt(m["curtailed_kwh"]), _fmt(m["energy_stored_kwh"]),
-                   _fmt(m.get("min_soc"), 2)) for m in summary["monthly"]]
-    check_rows = [(c.name, _fmt(c.value, 2), _fmt(c.limit, 2), c.unit,
-                   {True: "pass", False: "FAIL", None: "no limit"}[c.passed], c.basis) for c in checks]
-    notes = "".join(f"<li>{html.escape(n)}</li>" for n in result.notes)
-    caution_items = "".join(f"<li>{html.escape(c)}</li>" for c in (*cautions.WIRING, *cautions.GENERAL))
-    page = f"""<!doctype html><html lang="en"><head><meta charset="utf-8">
-<title>pvsource season study: {html.escape(system.name)}</title>
-<style>body{{font-family:system-ui,sans-serif;max-width:60rem;margin:2rem auto;color:#22313a;line-height:1.45}}
-h1{{font-size:1.4rem}}h2{{font-size:1.1rem;border-bottom:2px solid #d08c2a;padding-bottom:.2rem;margin-top:2rem}}
-table{{border-collapse:collapse;margin:.5rem 0}}td{{padding:.15rem .7rem;border-bottom:1px solid #e5e5e5}}
-figure{{margin:1rem 0}}img{{max-width:100%}}.caution li{{margin:.2rem 0}}</style></head><body>
-<h1>Season study: {html.escape(system.name or system.source)}</h1>
-<p>{html.escape(summary["start"])} to {html.escape(summary["end"])}, {summary["steps"]:,} steps of {step_h:g} h.
-Site {html.escape(system.site.name if system.site else "")} at {system.site.latitude:g}, {system.site.longitude:g}.</p>
-<h2>Energy</h2>{_table(energy_rows)}{_table(stat_rows)}
-<h2>Month by month</h2>{_table([("month", "at MPPs [kWh]", "generated", "cables", "curtailed", "stored", "min SOC")]
-                               + month_rows)}
-<h2>Figures</h2>{images}
-<h2>Design checks</h2><p>Against the weather's own extremes ({t_min:.1f} to {t_max:.1f} degC air).</p>
-{_table([("check", "value", "limit", "unit", "verdict", "basis")] + check_rows)}
-<h2>Notes</h2><ul>{notes}</ul>
-<h2>Cautions</h2><ul class="caution">{caution_items}</ul>
-</body></html>"""
+    page = render_page(system, summary, result.notes, checks,
+                       [(name, (out / name).read_bytes()) for name in figures], t_min, t_max)
     written.append(write_text(out / "report.html", page))
     return written

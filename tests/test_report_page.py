@@ -1,0 +1,161 @@
+"""The HTML report: what it says, that it reads as words, and that a real browser draws it."""
+
+import html
+import re
+import shutil
+import subprocess
+from dataclasses import replace
+
+import numpy as np
+import pytest
+
+from pvsource.checks import Check
+from pvsource.demo import demo_system, synthetic_weather
+from pvsource.report import iv_curves, write_report
+from pvsource.report_page import render_page
+from pvsource.season import run_season
+
+
+@pytest.fixture(scope="module")
+def winter_run():
+    # January and February of the demo: the bank empties and load goes unmet.
+    system = demo_system()
+    weather = synthetic_weather(system)
+    weather = weather[weather.index.month <= 2]
+    return system, weather, run_season(system, weather)
+
+
+@pytest.fixture(scope="module")
+def written(winter_run, tmp_path_factory):
+    system, weather, result = winter_run
+    out = tmp_path_factory.mktemp("report")
+    write_report(out, system, result, weather)
+    return out
+
+
+def _text(page: str) -> str:
+    """The words a reader sees: no style, no tags, no embedded images."""
+    page = re.sub(r"<style>.*?</style>", " ", page, flags=re.S)
+    page = re.sub(r"<[^>]+>", " ", page)
+    return html.unescape(page)
+
+
+def _section(page: str, ident: str) -> str:
+    match = re.search(rf'<section id="?{ident}"?>(.*?)</section>', page, flags=re.S)
+    assert match, ident
+    return match.group(1)
+
+
+def test_the_system_section_says_what_was_studied(written, winter_run):
+    system = winter_run[0]
+    part = _text(_section((written / "report.html").read_text(), "system"))
+    ds = system.module.datasheet
+    for words in (f"{ds.v_oc:.2f} V", f"{ds.i_sc:.2f} A", f"{ds.v_mp:.2f} V", f"{ds.i_mp:.2f} A",
+                  "Fitted single-diode model", "series resistance R_s", "south roof", "3 in series × 2", "35°",
+                  "180° (south)", "close to the roof", "maximum power point tracker", "150 V", "40 A",
+                  "lithium iron phosphate (LFP)", "8 in series × 1", "200 Ah"):
+        assert words in part, words
+    for run in system.cables:
+        row = re.search(rf"{re.escape(run.name)}(.*?)(?:\n|$)", part.replace("  ", " "), flags=re.S)
+        assert row, run.name
+    # Each cable with its size, one-way length and material.
+    for size, length in (("4 mm²", "6.0"), ("6 mm²", "22.0"), ("25 mm²", "2.0")):
+        assert re.search(rf"{size}\s+{length}\s+copper", part), size
+
+
+def test_labels_are_words_not_keys(written):
+    text = _text((written / "report.html").read_text())
+    # Keys of the summary and the system file look like snake_case words.
+    keys = [w for w in re.findall(r"\b[a-z]+(?:_[a-z0-9]+)+\b", text)]
+    assert keys == []
+    for bug in ("peak charge current a", "min soc", "p95", "kwh ", "degC"):
+        assert bug not in text, bug
+
+
+def test_monthly_table_carries_load_and_unmet_load(written, winter_run):
+    summary = winter_run[2].summary
+    part = _section((written / "report.html").read_text(), "monthly")
+    assert "load [kWh]" in part and "unmet load [kWh]" in part
+    body = re.search(r"<tbody>(.*?)</tbody>", part, flags=re.S).group(1)
+    rows = re.findall(r"<tr[^>]*>(.*?)</tr>", body, flags=re.S)
+    assert len(rows) == len(summary["monthly"]) == 2
+    for row, month in zip(rows, summary["monthly"]):
+        cells = [_text(c).strip() for c in re.findall(r"<td[^>]*>(.*?)</td>", row, flags=re.S)]
+        assert f"{month['load_kwh']:,.1f}" in cells and f"{month['unmet_load_kwh']:,.1f}" in cells
+    # A month that could not supply its load is marked.
+    assert summary["monthly"][0]["unmet_load_kwh"] > 0 and 'class="num warn"' in part
+
+
+def test_no_section_is_empty_and_notes_appear_only_when_there_are_some(winter_run):
+    system, weather, result = winter_run
+    page = render_page(system, result.summary, (), [], [], -5.0, 20.0)
+    for ident, body in re.findall(r'<section id="?(\w+)"?>(.*?)</section>', page, flags=re.S):
+        words = _text(re.sub(r"<h2>.*?</h2>", "", body)).split()
+        assert len(words) > 3, ident
+    assert "Notes" not in page and "<h2></h2>" not in page
+    page = render_page(system, result.summary, ("a note on the study",), [], [], -5.0, 20.0)
+    assert "a note on the study" in _text(_section(page, "notes"))
+
+
+def test_failed_checks_and_alerts_stand_out(winter_run):
+    system, _, result = winter_run
+    failed = Check("max_string_voc", 131.9, 100.0, "V", False, "NEC 690.7(A)", "max", "cold morning")
+    passed = Check("min_string_vmp", 82.6, 30.4, "V", True, "common practice", "min", "hot afternoon")
+    page = render_page(system, result.summary, (), [failed, passed], [], -5.0, 20.0)
+    attention = _section(page, "findings")
+    assert re.search(r'<li class="alert"><strong>Check failed.</strong>Highest string open-circuit voltage', attention)
+    # The shortfall of the bank is a finding too (the demo's winter empties it).
+    assert '<li class="warn"><strong>Load not met.' in attention and "Bank emptied." in attention
+    checks = _section(page, "checks")
+    assert re.search(r'<tr class="fail">.*?badge fail">FAIL', checks, flags=re.S)
+    assert checks.count('class="fail"') == 1
+    # A clean design says so rather than leaving the box empty.
+    good = dict(result.summary, unmet_load_kwh=0.0, min_soc=0.4)
+    assert "No problems found." in _section(render_page(system, good, (), [passed], [], -5.0, 20.0), "findings")
+
+
+def test_print_stylesheet_is_part_of_the_page(written):
+    page = (written / "report.html").read_text()
+    assert "@media print" in page and "@page" in page and "break-inside:avoid" in page
+
+
+def test_the_iv_figure_carries_the_tangent_of_the_operating_point(winter_run):
+    system, _, result = winter_run
+    curves = iv_curves(system, result.steps)
+    assert 2 <= len(curves) <= 4
+    for c in curves:
+        # The tangent passes through the operating point ...
+        assert (c["e_th_v"] - c["v_op"]) / c["r_th_ohm"] == pytest.approx(c["i_op"], abs=1e-6 * max(c["i"]))
+        # ... with the slope of the drawn curve there (law: the tangent of a smooth curve; the curve's own
+        # finite-difference slope, numpy.gradient, as the outside reference).
+        slope = np.interp(c["v_op"], c["v"], np.gradient(c["i"], c["v"]))
+        assert -1.0 / c["r_th_ohm"] == pytest.approx(slope, rel=0.05, abs=1e-3)
+        # The operating point lies on the curve.
+        assert np.interp(c["v_op"], c["v"], c["i"]) == pytest.approx(c["i_op"], abs=2e-3 * max(c["i"]))
+
+
+CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser")
+FLAGS = ("--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
+         "--disable-background-networking", "--disable-component-update", "--disable-sync")
+
+
+@pytest.mark.skipif(CHROMIUM is None, reason="Chromium is not installed (Debian: apt-get install chromium)")
+def test_a_real_browser_draws_the_page_and_prints_it(written, tmp_path):
+    from PIL import Image
+
+    png, pdf = tmp_path / "page.png", tmp_path / "page.pdf"
+    url = (written / "report.html").resolve().as_uri()
+    for extra in ((f"--screenshot={png}", "--window-size=1200,2400"), (f"--print-to-pdf={pdf}", "--no-pdf-header-footer")):
+        subprocess.run([CHROMIUM, *FLAGS, f"--user-data-dir={tmp_path / 'profile'}", *extra, url],
+                       capture_output=True, timeout=180, check=False)
+    with Image.open(png) as im:
+        assert im.size == (1200, 2400)
+        pixels = np.asarray(im.convert("RGB"), float)
+    # A real page: ink covers a fair share of it, in many colours (figures, tiles), not one blank tone.
+    background = np.median(pixels.reshape(-1, 3), axis=0)
+    ink = np.abs(pixels - background).sum(axis=-1) > 60
+    assert 0.03 < ink.mean() < 0.6
+    assert len(np.unique(pixels.reshape(-1, 3)[::7], axis=0)) > 200
+    # The print stylesheet gives a document of several pages.
+    data = pdf.read_bytes()
+    assert data[:5] == b"%PDF-" and len(re.findall(rb"/Type\s*/Page\b", data)) >= 3
