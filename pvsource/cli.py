@@ -291,6 +291,9 @@ def wire(
     _emit_json(rec) if as_json else typer.echo(render_wire(system, rec, conditions))
 
 
+PLOT_SUFFIXES = (".png", ".svg", ".pdf")
+
+
 @app.command()
 def sweep(
     system_file: Annotated[Path, typer.Argument(metavar="SYSTEM.toml", help="The system file.")],
@@ -303,15 +306,17 @@ def sweep(
         "--irradiance", metavar="W_M2|GROUP=W_M2", help="Conditions for the sweep; default: the file's.")] = None,
     cell_temp: Annotated[Optional[list[str]], typer.Option(
         "--cell-temp", metavar="C|GROUP=C", help="Conditions for the sweep; default: the file's.")] = None,
-    plot: Annotated[Optional[Path], typer.Option("--plot", metavar="FILE.png",
-                                                 help="Draw power and efficiency against the matching ratio.")] = None,
+    plot: Annotated[Optional[Path], typer.Option("--plot", metavar="FILE.png|.svg|.pdf",
+                                                 help="Draw power and efficiency against the swept value and "
+                                                      "against the matching ratio.")] = None,
     as_json: Annotated[bool, typer.Option("--json", help="Print the rows as JSON instead of a table.")] = False,
 ):
     """Sweep one variable: delivered power, efficiency, matching ratio and charge current, exact and linearised."""
     system = load_system(system_file)
     if plot is not None:
-        if plot.suffix.lower() != ".png":
-            raise InputError("--plot", None, f"expected a .png file name, got {str(plot)!r}")
+        if plot.suffix.lower() not in PLOT_SUFFIXES:
+            raise InputError("--plot", None, f"expected a file name ending {', '.join(PLOT_SUFFIXES)}, "
+                                             f"got {str(plot)!r}")
         if not (plot.parent if str(plot.parent) else Path(".")).is_dir():
             raise InputError("--plot", None, f"the folder {str(plot.parent)!r} does not exist")
         if plot.resolve() == Path(system_file).resolve():
@@ -328,7 +333,8 @@ def sweep(
     if plot is not None:
         sweep_figure(rows, design, plot, f"{system.name or system.source}: sweep over {over}")
     if as_json:
-        _emit_json({"variable": over, "unit": design["unit"], "design_point": design, "rows": records,
+        _emit_json({"variable": over, "unit": design["unit"], "changes": design["changes"],
+                    "replaced": design["replaced"], "design_point": design, "rows": records,
                     "plot": str(plot) if plot is not None else None})
     else:
         typer.echo(render_sweep(system, rows, design, plot))

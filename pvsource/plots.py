@@ -4,12 +4,14 @@ then rename), so a failed draw never leaves half a picture."""
 
 from __future__ import annotations
 
+import textwrap
 from pathlib import Path
 
 import matplotlib
 
 matplotlib.use("Agg")
 import matplotlib.pyplot as plt  # noqa: E402
+from matplotlib import ticker  # noqa: E402
 import numpy as np  # noqa: E402
 
 from pvsource.files import atomic_write  # noqa: E402
@@ -31,53 +33,143 @@ def save_atomically(fig, path) -> Path:
         plt.close(fig)
 
 
-def sweep_figure(rows, design: dict, path, title: str = "") -> Path:
-    """Delivered power and efficiency against the matching ratio, exact and linearised.
+def _plain(value, _pos=None) -> str:
+    """A tick label as a plain number: 0.5, 1, 20, 1500 (never 1.1 x 10^0)."""
+    return f"{value:g}" if abs(value) < 1e6 else f"{value:.3g}"
 
-    Two stacked panels share a logarithmic matching-ratio axis. The exact
-    sweep is drawn as points joined by a line; the linear (Thevenin) model
-    of the design point as a dashed line. A vertical band marks m = 1, the
-    maximum power transfer condition, and a ring marks the design point.
+
+def _plain_axis(axis, log: bool, decades: float = 1.0) -> None:
+    """Plain tick labels; on a log axis, majors at 1, 2 and 5 of each decade (at 1 alone beyond
+    two decades, where 2 and 5 would crowd) and no minor labels."""
+    if log:
+        subs = (1.0, 2.0, 5.0) if decades <= 2.0 else (1.0,)
+        axis.set_major_locator(ticker.LogLocator(base=10.0, subs=subs))
+        axis.set_minor_formatter(ticker.NullFormatter())
+    axis.set_major_formatter(ticker.FuncFormatter(_plain))
+
+
+def _marked_line(ax, x, label: str, colour: str, style: str, right: bool) -> None:
+    """A vertical line with its label along it, on the side ``right`` (or left) of the line."""
+    ax.axvline(x, color=colour, lw=1.0, ls=style)
+    # Low on the axes, where the curves (power from zero, efficiency near the top) leave room.
+    ax.text(x, 0.03, f" {label} ", transform=ax.get_xaxis_transform(), rotation=90,
+            ha="left" if right else "right", va="bottom", fontsize=7.5, color=colour,
+            bbox={"facecolor": "white", "edgecolor": "none", "alpha": 0.8, "pad": 0.5})
+
+
+SWEEP_AXIS_WORDS = {"load-resistance": "load resistance [ohm]", "bank-voltage": "bank resting voltage (EMF) [V]",
+                    "bank-class": "nominal bank voltage [V]", "soc": "state of charge [-]",
+                    "modules": "modules per string", "irradiance": "irradiance [W/m²]",
+                    "cell-temp": "cell temperature [°C]"}
+
+
+def sweep_axes(rows, design: dict, title: str = ""):
+    """The sweep figure, drawn but not saved: two panels side by side.
+
+    Left, delivered power and efficiency against the swept value; right, the
+    same against the matching ratio m = (V/I) / R_th, with the linear
+    (Thevenin) model of the design point, P = E^2 m / (R (1+m)^2) and
+    efficiency m / (1+m), dashed. A line marks m = 1 (maximum power transfer)
+    and another the design point, each labelled along itself.
     """
+    values = list(rows["value"])
+    categorical = any(isinstance(v, str) for v in values)
+    x = np.arange(len(values), dtype=float) if categorical else np.asarray(values, float)
     m = np.asarray(rows["matching_ratio"], float)
-    order = np.argsort(m)
-    # Open circuit (no current) sends m toward infinity: leave it off the axis.
-    ok = np.isfinite(m[order]) & (m[order] > 0) & (m[order] < 1e6)
-    idx = order[ok]
-    fig, (top, bottom) = plt.subplots(2, 1, figsize=(7.5, 6.2), sharex=True,
-                                      gridspec_kw={"height_ratios": [3, 2], "hspace": 0.08})
-    mm = m[idx]
-    top.plot(mm, np.asarray(rows["delivered_w"], float)[idx], "o-", color=EXACT, ms=3.5, lw=1.4,
-             label="delivered, exact")
-    top.plot(mm, np.asarray(rows["p"], float)[idx], "-", color=EXACT, lw=0.8, alpha=0.5,
-             label="at the array terminals, exact")
-    grid = np.geomspace(max(mm.min(), 1e-3), max(mm.max(), 1.5), 300) if mm.size else np.geomspace(0.1, 10, 300)
+    delivered = np.asarray(rows["delivered_w"], float)
+    array_p = np.asarray(rows["p"], float)
+    eff = 100.0 * np.asarray(rows["efficiency"], float)
+    fig, (ax_v, ax_m) = plt.subplots(1, 2, figsize=(10.5, 4.4), gridspec_kw={"wspace": 0.42})
+    twins = (ax_v.twinx(), ax_m.twinx())
+
+    # Against the swept value.
+    ax_v.plot(x, delivered, "o-", color=EXACT, ms=3.5, lw=1.5, label="delivered power, exact")
+    ax_v.plot(x, array_p, "-", color=EXACT, lw=0.9, alpha=0.55, label="power at the array terminals, exact")
+    twins[0].plot(x, eff, "s-", color=MARK, ms=3, lw=1.2, label="efficiency (delivered / generated), exact")
+    variable = design.get("variable", "")
+    ax_v.set_xlabel(SWEEP_AXIS_WORDS.get(variable, f"conductor size of {variable[5:]!r}" if variable.startswith(
+        "size:") else variable))
+    if categorical:
+        crowded = len(values) > 5
+        ax_v.set_xticks(x, [str(v).replace("mm2", "mm²") for v in values], rotation=30 if crowded else 0,
+                        ha="right" if crowded else "center")
+    else:
+        log = design.get("variable") == "load-resistance"
+        if log:
+            ax_v.set_xscale("log")
+        _plain_axis(ax_v.xaxis, log, np.log10(np.nanmax(x) / np.nanmin(x)) if log else 1.0)
+    where = design.get("value")
+    if where is not None:
+        where_x = float(values.index(where)) if categorical and where in values else (
+            None if categorical else float(where))
+        if where_x is not None and np.nanmin(x) <= where_x <= np.nanmax(x):
+            _marked_line(ax_v, where_x, "design point", LINEAR, ":", right=True)
+    # Where the sweep passes m = 1, if it does: the swept value that matches the array.
+    finite = np.isfinite(m) & (m > 0)
+    crossing = np.flatnonzero(finite[:-1] & finite[1:] & (np.sign(np.log(np.where(finite, m, 1.0)))[:-1]
+                                                              * np.sign(np.log(np.where(finite, m, 1.0)))[1:] < 0))
+    if crossing.size and not categorical:
+        k = int(crossing[0])
+        lm = np.log(m[k:k + 2])
+        at = x[k] + (x[k + 1] - x[k]) * (0.0 - lm[0]) / (lm[1] - lm[0])
+        _marked_line(ax_v, at, "m = 1", "#4d6b50", "--", right=False)
+    ax_v.set_title("against the swept value", fontsize=9.5, loc="left")
+
+    # Against the matching ratio.
+    ok = finite & (m < 1e6)
+    order = np.argsort(m[ok])
+    mm = m[ok][order]
+    ax_m.plot(mm, delivered[ok][order], "o-", color=EXACT, ms=3.5, lw=1.5)
+    ax_m.plot(mm, array_p[ok][order], "-", color=EXACT, lw=0.9, alpha=0.55)
+    twins[1].plot(mm, eff[ok][order], "s-", color=MARK, ms=3, lw=1.2)
+    lo, hi = (min(mm.min(), 1.0, design["matching_ratio"]), max(mm.max(), 1.0, design["matching_ratio"])) \
+        if mm.size else (0.1, 10.0)
+    lo, hi = lo / 1.3, hi * 1.3
+    grid = np.geomspace(lo, hi, 300)
     e, r = design["e_v"], design["r_ohm"]
-    top.plot(grid, e * e * grid / (r * (1 + grid) ** 2), "--", color=LINEAR, lw=1.4,
-             label="at the array terminals, linear model of the design point")
-    bottom.plot(mm, np.asarray(rows["efficiency"], float)[idx], "o-", color=EXACT, ms=3.5, lw=1.4,
-                label="delivered / generated, exact")
-    bottom.plot(grid, grid / (1 + grid), "--", color=LINEAR, lw=1.4, label="m / (1 + m), linear model")
-    for ax in (top, bottom):
-        ax.axvspan(0.97, 1.03, color=MARK, alpha=0.25, lw=0)
-        ax.axvline(design["matching_ratio"], color=EXACT, lw=0.6, ls=":")
-        ax.grid(True, which="major", color="#d9d9d9", lw=0.6)
-        ax.spines[["top", "right"]].set_visible(False)
-    # The ring sits on the array-terminal power, which the linear model passes through.
-    top.plot([design["matching_ratio"]], [design["p"]], "o", mfc="none", mec=LINEAR, ms=11, mew=1.6,
-             label="design point")
-    bottom.plot([design["matching_ratio"]], [design["efficiency"]], "o", mfc="none", mec=LINEAR, ms=11, mew=1.6)
-    top.text(1.06, 0.97, "m = 1\nmaximum power\ntransfer", transform=top.get_xaxis_transform(), ha="left",
-             va="top", fontsize=7.5, color="#4d6b50")
-    top.set_xscale("log")
-    top.set_ylabel("power [W]")
-    bottom.set_ylabel("efficiency [-]")
-    bottom.set_ylim(0, 1.02)
-    bottom.set_xlabel("matching ratio m = (V/I) / R_th at the array terminals")
-    top.legend(fontsize=7.5, frameon=False, loc="best")
-    bottom.legend(fontsize=7.5, frameon=False, loc="lower right")
-    fig.suptitle(title or f"sweep over {design.get('variable', '')}", fontsize=10, x=0.12, ha="left")
-    return save_atomically(fig, path)
+    ax_m.plot(grid, e * e * grid / (r * (1 + grid) ** 2), "--", color=LINEAR, lw=1.4,
+              label="power at the array terminals, linear model of the design point")
+    twins[1].plot(grid, 100 * grid / (1 + grid), "--", color="#4d6b50", lw=1.2,
+                  label="efficiency of the linear model, m / (1 + m)")
+    log_m = hi / lo > 4.0
+    if log_m:
+        ax_m.set_xscale("log")
+    ax_m.set_xlim(lo, hi)
+    _plain_axis(ax_m.xaxis, log_m, np.log10(hi / lo))
+    design_right = design["matching_ratio"] >= 1.0
+    _marked_line(ax_m, 1.0, "m = 1", "#4d6b50", "--", right=not design_right)
+    _marked_line(ax_m, design["matching_ratio"], "design point", LINEAR, ":", right=design_right)
+    ax_m.set_xlabel("matching ratio m = (V/I) / R_th")
+    ax_m.set_title("against the matching ratio", fontsize=9.5, loc="left")
+
+    for ax, twin in zip((ax_v, ax_m), twins):
+        ax.set_ylabel("power [W]")
+        twin.set_ylabel("efficiency [%]", color="#4d6b50")
+        twin.set_ylim(0, 102)
+        ax.set_ylim(bottom=0)
+        _plain_axis(ax.yaxis, False)
+        _plain_axis(twin.yaxis, False)
+        ax.grid(True, color="#e3e3e3", lw=0.6)
+        ax.spines[["top"]].set_visible(False)
+        twin.spines[["top"]].set_visible(False)
+    handles = [*ax_v.get_legend_handles_labels()[0], *twins[0].get_legend_handles_labels()[0],
+               *ax_m.get_legend_handles_labels()[0], *twins[1].get_legend_handles_labels()[0]]
+    fig.legend(handles, [h.get_label() for h in handles], loc="upper center", bbox_to_anchor=(0.5, 0.0), ncol=2,
+               fontsize=7.5, frameon=False)
+    top = 0.99
+    if design.get("replaced"):
+        # Under the title, above the panels: the reader must know the swept system is not the file's.
+        note = textwrap.fill(f"Replaced for this sweep: {design['replaced']}.", 150)
+        fig.text(0.06, top, note, fontsize=7.5, color="#b3261e", ha="left", va="bottom")
+        top += 0.036 * (note.count("\n") + 1) + 0.01
+    fig.suptitle(title or f"sweep over {design.get('variable', '')}", fontsize=10, x=0.06, ha="left", y=top,
+                 va="bottom")
+    return fig
+
+
+def sweep_figure(rows, design: dict, path, title: str = "") -> Path:
+    """The sweep figure (:func:`sweep_axes`) written to ``path``: PNG, SVG or PDF by its suffix."""
+    return save_atomically(sweep_axes(rows, design, title), path)
 
 
 # Season figures: one palette throughout, ordered from what reached the bank

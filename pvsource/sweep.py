@@ -10,9 +10,12 @@ linear view explains the numbers; where they part, the array's curvature does.
 Variables (``--over``):
 
 ==================  ==========================================================
-``load-resistance`` a resistor load [ohm]
-``bank-voltage``    a bank wired straight to the array, its EMF swept [V];
-                    its resistance is the system's bank or battery load's
+``load-resistance`` a resistor load [ohm]; with a bank, the resistor takes
+                    the place of the controller and bank (said so)
+``bank-voltage``    the bank's resting voltage (EMF) [V]: with a bank, held at
+                    each value behind the system's own controller; without,
+                    the battery load's EMF (any other load is replaced by a
+                    battery with the system's resistance, said so)
 ``bank-class``      the bank's cells in series for nominal 12, 24, 48 V ...,
                     at the same stored energy, with the system's controller
 ``soc``             the bank's state of charge [-]
@@ -113,13 +116,94 @@ def _bank_resistance(system: System) -> float:
     return 0.0
 
 
+LOAD_WORDS = {"mpp": "maximum-power load", "resistor": "resistor load", "voltage": "fixed-voltage load",
+              "battery": "battery load"}
+
+
+def what_changes(system: System, variable: str) -> tuple[str, str | None]:
+    """How a sweep changes the system, and what it replaces (None when it replaces nothing).
+
+    Returns
+    -------
+    changes : str
+        One sentence for the header and the JSON.
+    replaced : str or None
+        The part of the system the sweep cannot keep, in words; None when the
+        sweep runs through the system as it is.
+    """
+    if variable == "load-resistance":
+        if system.bank is not None:
+            kind = {"mppt": "tracking (MPPT) ", "pwm": "PWM ", "direct": "direct "}.get(
+                system.controller.kind if system.controller is not None else None, "")
+            return ("a resistor at the end of the feeder takes each value",
+                    f"the {kind}controller and the bank are replaced by a resistor wired "
+                    "straight to the feeder: a controller charges a bank and cannot feed a bare resistor")
+        if system.load.kind != "resistor":
+            return ("a resistor at the end of the feeder takes each value",
+                    f"the {LOAD_WORDS[system.load.kind]} is replaced by a resistor")
+        return "the resistor load takes each value", None
+    if variable == "bank-voltage":
+        if system.bank is not None:
+            return ("the bank's resting voltage is held at each value behind the system's own controller; its "
+                    "resistance, charge voltages and state of charge stay the file's"), None
+        if system.load.kind != "battery":
+            return ("a battery at the end of the feeder takes each resting voltage",
+                    f"the {LOAD_WORDS[system.load.kind]} is replaced by a battery with "
+                    f"{_bank_resistance(system):g} ohm internal resistance")
+        return "the battery load's EMF takes each value", None
+    words = {"bank-class": "the bank is rebuilt for each nominal class at the same stored energy",
+             "soc": "the bank's state of charge takes each value", "modules": "every group's modules per string",
+             "irradiance": "every group's irradiance", "cell-temp": "every group's cell temperature"}
+    if variable.startswith("size:"):
+        return f"the conductor size of the run {variable[5:]!r}", None
+    return words.get(variable, variable), None
+
+
+def _held_emf(bank: bank_model.Bank, emf_v: float) -> bank_model.Bank:
+    """The bank with its resting voltage held at ``emf_v`` at every state of charge [V]."""
+    chem = bank.chemistry
+    flat = (float(emf_v) / bank.cells_in_series,) * len(chem.ocv_soc)
+    return replace(bank, chemistry=replace(chem, ocv_v_per_cell=flat))
+
+
+def design_value(system: System, variable: str, irradiance_w_m2=None, cell_temp_c=None):
+    """The value of the swept variable in the unchanged system, or None where it has none."""
+    b = system.bank
+    if variable == "load-resistance":
+        return system.load.resistance_ohm if b is None and system.load.kind == "resistor" else None
+    if variable == "bank-voltage":
+        if b is not None:
+            return float(bank_model.open_circuit_v(b))
+        return system.load.emf_v if system.load.kind == "battery" else None
+    if variable == "bank-class" and b is not None:
+        classes = bank_model.NOMINAL_CLASS_CELLS.get(b.chemistry.key, {})
+        return next((v for v, cells in classes.items() if cells == b.cells_in_series), None)
+    if variable == "soc":
+        return None if b is None else b.soc
+    if variable == "modules":
+        counts = {g.modules_per_string for g in system.groups}
+        return counts.pop() if len(counts) == 1 else None
+    if variable.startswith("size:"):
+        run = next((r for r in system.cables if r.name == variable[5:]), None)
+        return run.size.label if run is not None and run.size is not None else None
+    given = {"irradiance": (irradiance_w_m2, "irradiance_w_m2"), "cell-temp": (cell_temp_c, "cell_temp_c")}
+    if variable in given:
+        value, attr = given[variable]
+        if value is None:
+            values = {getattr(g, attr) for g in system.groups}
+            return values.pop() if len(values) == 1 else None
+        return float(value) if np.ndim(value) == 0 and not isinstance(value, dict) else None
+    return None
+
+
 def _variant(system: System, variable: str, value) -> System:
-    """The system with one thing changed."""
+    """The system with one thing changed (see :func:`what_changes`)."""
     if variable == "load-resistance":
         return replace(system, load=Load("resistor", resistance_ohm=float(value)), bank=None)
     if variable == "bank-voltage":
-        return replace(system, load=Load("battery", emf_v=float(value), resistance_ohm=_bank_resistance(system)),
-                       bank=None)
+        if system.bank is not None:
+            return replace(system, bank=_held_emf(system.bank, value))
+        return replace(system, load=Load("battery", emf_v=float(value), resistance_ohm=_bank_resistance(system)))
     if variable == "bank-class":
         return replace(system, bank=bank_model.with_nominal_class(system.bank, value))
     if variable == "modules":
@@ -140,7 +224,10 @@ def run_sweep(system: System, variable: str, start: str, stop: str, steps: int, 
     design : dict
         The unchanged system's point (``matching_ratio``, ``delivered_w``,
         ``efficiency``, ``p``) and its array Thevenin equivalent (``e_v``,
-        ``r_ohm``) from which the linear columns are predicted.
+        ``r_ohm``) from which the linear columns are predicted; ``value``, the
+        swept variable's own value there (None where it has none);
+        ``changes``, what the sweep varies, and ``replaced``, the part of the
+        system it had to replace (None when it runs through the system as it is).
     """
     values, unit = sweep_values(system, variable, start, stop, steps)
     g = irradiance_w_m2
@@ -175,9 +262,11 @@ def run_sweep(system: System, variable: str, start: str, stop: str, steps: int, 
         "v": df["v"], "i": df["i"], "p": df["p"], "generated_w": df["generated_w"],
         "linear_p_w": lin["p_load_w"], "linear_efficiency": lin["efficiency"],
     })
+    changes, replaced = what_changes(system, variable)
     design = {"matching_ratio": float(base["matching_ratio"]), "delivered_w": float(base["delivered_w"]),
               "efficiency": float(base["efficiency"]), "p": float(base["p"]), "e_v": e, "r_ohm": r,
-              "source_p_mp": float(base["source_p_mp"]), "unit": unit, "variable": variable}
+              "source_p_mp": float(base["source_p_mp"]), "unit": unit, "variable": variable,
+              "value": design_value(system, variable, g, t), "changes": changes, "replaced": replaced}
     return rows, design
 
 

@@ -343,7 +343,10 @@ def render_sweep(system: System, rows, design: dict, plot) -> str:
     unit = design["unit"]
     lines = [f"pvsource sweep over {design['variable']}: {system.name or system.source}",
              f"design point: m = {_num(design['matching_ratio'], 3)}, delivered {_num(design['delivered_w'], 1, 'W')}, "
-             f"array linearised as E {_num(design['e_v'], 2, 'V')} behind {_num(design['r_ohm'], 4, 'ohm')}"]
+             f"array linearised as E {_num(design['e_v'], 2, 'V')} behind {_num(design['r_ohm'], 4, 'ohm')}",
+             f"swept: {design['changes']}"]
+    if design.get("replaced"):
+        lines.append(f"REPLACED: {design['replaced']}; the other results describe that changed system")
     lines.append(f"\n{'value':>12} {'delivered':>11} {'effic.':>8} {'m':>9} {'charge':>9} {'array P':>10} "
                  f"{'linear P':>10} {'linear eff':>10}")
     lines.append(f"{'[' + unit + ']':>12} {'[W]':>11} {'[%]':>8} {'[-]':>9} {'[A]':>9} {'[W]':>10} {'[W]':>10} "

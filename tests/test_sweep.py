@@ -5,6 +5,8 @@ import json
 import numpy as np
 import pytest
 
+from pvsource.bank import internal_resistance_ohm as bank_internal_resistance_ohm
+from pvsource.bank import open_circuit_v as bank_open_circuit_v
 from pvsource.config import load_system
 from pvsource.errors import InputError
 from pvsource.sweep import run_sweep
@@ -105,3 +107,96 @@ def test_cli_sweep_json_and_plot(capsys, tmp_path):
 def test_cli_sweep_errors_are_one_line(capsys, args, words):
     code, out, err = run(capsys, *args)
     assert code == 2 and out == "" and err.count("\n") == 1 and words in err
+
+
+# ---------------------------------------------------------------- what a sweep changes, and its figure
+
+def test_a_sweep_that_replaces_part_of_the_system_says_so(capsys):
+    rows, design = run_sweep(load_system(CABIN), "load-resistance", "1", "100", 5)
+    assert "controller and the bank are replaced by a resistor" in design["replaced"]
+    code, out, _ = run(capsys, "sweep", CABIN, "--over", "load-resistance", "--from", "1", "--to", "100",
+                       "--steps", "3", "--json")
+    assert code == 0 and "controller and the bank are replaced" in json.loads(out)["replaced"]
+    code, out, _ = run(capsys, "sweep", CABIN, "--over", "load-resistance", "--from", "1", "--to", "100",
+                       "--steps", "3")
+    assert code == 0 and "REPLACED: the tracking (MPPT) controller and the bank" in out.splitlines()[3]
+    # A battery load's EMF and a bank behind its controller are swept as they are.
+    for path in (EXAMPLE, CABIN):
+        code, out, _ = run(capsys, "sweep", path, "--over", "bank-voltage", "--from", "24", "--to", "27",
+                           "--steps", "3", "--json")
+        rec = json.loads(out)
+        assert code == 0 and rec["replaced"] is None and rec["changes"]
+    assert "behind the system's own controller" in rec["changes"]
+
+
+def test_bank_voltage_sweeps_through_the_controller():
+    system = load_system(CABIN)
+    rows, design = run_sweep(system, "bank-voltage", "22", "28", 4)
+    r_bank = float(bank_internal_resistance_ohm(system.bank))
+    i = rows["charge_current_a"].to_numpy()
+    # Law (Thevenin bank): what reaches the bank is I (E + I R), with E the swept resting voltage.
+    np.testing.assert_allclose(rows["delivered_w"], i * (rows["value"] + i * r_bank), rtol=1e-9)
+    # The controller is still there: its output limit binds in full sun.
+    assert i.max() == pytest.approx(system.controller.max_output_a, rel=1e-9)
+    assert design["value"] == pytest.approx(float(bank_open_circuit_v(system.bank)))
+
+
+def test_the_linear_columns_follow_the_linear_source_law(demo_module):
+    system = make_system(demo_module, groups=((2, 2),), load=Load("resistor", resistance_ohm=5.0))
+    rows, design = run_sweep(system, "load-resistance", "2.5", "10", 3, 800.0, 40.0)
+    e, r, m = design["e_v"], design["r_ohm"], rows["matching_ratio"].to_numpy()
+    # Law, worked out here: a source E behind R into R_L = m R gives I = E / (R (1 + m)) and
+    # P = I^2 m R = E^2 m / (R (1 + m)^2); the efficiency is m / (1 + m).
+    np.testing.assert_allclose(rows["linear_p_w"], e * e * m / (r * (1 + m) ** 2), rtol=1e-12)
+    np.testing.assert_allclose(rows["linear_efficiency"], m / (1 + m), rtol=1e-12)
+    # Ohm's law at the exact points (no cables): V / I is the swept resistance.
+    np.testing.assert_allclose(rows["v"] / rows["i"], rows["value"], rtol=1e-7)
+    # The linear model touches the exact curve at the design point (R_L = 5 ohm).
+    assert design["value"] == 5.0 and rows["value"][1] == pytest.approx(5.0)
+    assert rows["p"][1] == pytest.approx(rows["linear_p_w"][1], rel=1e-6)
+
+
+def _texts(ax):
+    return {t.get_text().strip(): t.get_position()[0] for t in ax.texts}
+
+
+def test_the_figure_has_two_panels_labels_at_their_lines_and_plain_ticks():
+    from pvsource.plots import sweep_axes
+
+    rows, design = run_sweep(load_system(EXAMPLE), "bank-voltage", "22", "34", 13)
+    fig = sweep_axes(rows, design)
+    fig.canvas.draw()
+    panels = [ax for ax in fig.axes if ax.get_title(loc="left")]
+    assert [ax.get_title(loc="left") for ax in panels] == ["against the swept value", "against the matching ratio"]
+    by_value, by_m = panels
+    # Each label stands on its own line.
+    assert _texts(by_m)["m = 1"] == 1.0
+    assert _texts(by_m)["design point"] == pytest.approx(design["matching_ratio"])
+    assert _texts(by_value)["design point"] == pytest.approx(26.4)
+    assert 22 < _texts(by_value)["m = 1"] < 34
+    for ax, label in ((by_m, "m = 1"), (by_m, "design point"), (by_value, "design point")):
+        assert any(np.allclose(line.get_xdata(), _texts(ax)[label]) for line in ax.lines), label
+    # Plain ticks: no "1.1 x 10^0".
+    ticks = [t.get_text() for ax in fig.axes for axis in (ax.xaxis, ax.yaxis)
+             for t in axis.get_ticklabels(which="both") if t.get_text()]
+    assert ticks and not [t for t in ticks if "×" in t or "10^" in t or "$" in t or "e+" in t]
+
+
+def test_a_state_of_charge_sweep_draws_a_curve():
+    from pvsource.plots import sweep_axes
+
+    rows, design = run_sweep(load_system(CABIN), "soc", "0", "1", 11)
+    fig = sweep_axes(rows, design)
+    by_value = next(ax for ax in fig.axes if ax.get_title(loc="left") == "against the swept value")
+    delivered = next(line for line in by_value.lines if line.get_label() == "delivered power, exact")
+    x, y = np.asarray(delivered.get_xdata(), float), np.asarray(delivered.get_ydata(), float)
+    assert len(np.unique(x)) == 11 and np.ptp(y) > 0.1 * np.nanmax(y)
+
+
+@pytest.mark.parametrize("suffix, head", [(".svg", b"<?xml"), (".pdf", b"%PDF-"), (".png", b"\x89PNG")])
+def test_plot_formats(capsys, tmp_path, suffix, head):
+    path = tmp_path / f"sweep{suffix}"
+    code, _, err = run(capsys, "sweep", EXAMPLE, "--over", "irradiance", "--from", "200", "--to", "1000",
+                       "--steps", "4", "--plot", str(path))
+    assert code == 0, err
+    assert path.read_bytes()[:len(head)] == head
