@@ -197,13 +197,19 @@ def monthly_energy_figure(summary: dict, path) -> Path:
     labels = [_month_label(m["month"]) for m in months]
     fig, ax = plt.subplots(figsize=(8.0, 4.2))
     bottom = np.zeros(len(months))
-    for key, label, colour in SEASON_PARTS:
+    parts = SEASON_PARTS
+    if "min_soc" not in summary:
+        # No bank: what reached the end of the feeder went to the load.
+        parts = (("energy_delivered_kwh", "delivered to the load", SEASON_PARTS[0][2]), *SEASON_PARTS[1:])
+    for key, label, colour in parts:
         if key == "mismatch_kwh":
             values = np.array([max(m["energy_mpp_kwh"] - m["energy_generated_kwh"] - (m["curtailed_kwh"] or 0.0), 0.0)
                                for m in months])
         else:
             values = np.array([m.get(key) or 0.0 for m in months])
-        ax.bar(labels, values, bottom=bottom, color=colour, width=0.72, label=label, edgecolor="white", lw=0.4)
+        # A part that never happened stays out of the legend.
+        ax.bar(labels, values, bottom=bottom, color=colour, width=0.72, label=label if values.any() else None,
+               edgecolor="white", lw=0.4)
         bottom += values
     ax.set_ylabel("energy [kWh]")
     ax.set_xlabel("month")
@@ -220,7 +226,9 @@ def wiring_loss_heatmap(steps, path) -> Path:
     gen = steps["generated_w"].clip(lower=0)
     frame = steps.assign(hour=steps.index.hour, month=steps.index.month, gen=gen)
     grouped = frame.groupby(["month", "hour"])[["cable_loss_w", "gen"]].sum()
-    share = (grouped["cable_loss_w"] / grouped["gen"].where(grouped["gen"] > 0)).unstack("hour")
+    # Dark hours carry rounding-level powers (1e-50 W); a share of nothing is left blank.
+    lit = grouped["gen"] > 1e-6 * max(float(grouped["gen"].max()), 0.0)
+    share = (grouped["cable_loss_w"] / grouped["gen"].where(lit)).unstack("hour")
     share = share.reindex(index=range(1, 13), columns=range(24))
     fig, ax = plt.subplots(figsize=(8.0, 3.8))
     im = ax.imshow(100 * share.to_numpy(), aspect="auto", origin="lower", cmap="YlOrBr",
@@ -318,6 +326,6 @@ def pareto_figure(ranked, path) -> Path:
     ax.set_ylabel("lifetime cost (conductors + lost energy)")
     ax.spines[["top", "right"]].set_visible(False)
     ax.grid(True, color="#e3e3e3", lw=0.6)
-    ax.legend(fontsize=7.5, frameon=False)
+    ax.legend(fontsize=7.5, frameon=False, ncol=2, loc="upper center", bbox_to_anchor=(0.5, -0.14))
     ax.set_title("Design combinations: cost against energy", fontsize=10, loc="left")
     return save_atomically(fig, path)

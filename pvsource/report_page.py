@@ -73,6 +73,7 @@ ul.findings{list-style:none;padding:0;margin:.4rem 0}
 ul.findings li{padding:.45rem .8rem;margin:.35rem 0;border-left:5px solid var(--sage);background:#f0f5f0}
 ul.findings li.alert{border-left-color:var(--red);background:#fbeceb}
 ul.findings li.warn{border-left-color:var(--amber);background:#fdf3e2}
+ul.findings li.info{border-left-color:#b9c2c7;background:#f4f5f6}
 ul.findings li strong{margin-right:.4rem}
 table{border-collapse:collapse;margin:.4rem 0 .8rem;font-size:.9rem;width:auto}
 th,td{padding:.28rem .65rem;text-align:left;vertical-align:top}
@@ -146,8 +147,10 @@ def table(head, rows, numeric=(), row_classes=None, cell_classes=None, foot=None
             out.append(f"<{tag}{attr}>{c}</{tag}>")
         return "".join(out)
 
-    body = "".join(f'<tr{f" class={chr(34)}{row_classes[k]}{chr(34)}" if row_classes and row_classes[k] else ""}>'
-                   f"{cells(r, 'td', k)}</tr>" for k, r in enumerate(rows))
+    def opening(k):
+        return f'<tr class="{row_classes[k]}">' if row_classes and row_classes[k] else "<tr>"
+
+    body = "".join(f"{opening(k)}{cells(r, 'td', k)}</tr>" for k, r in enumerate(rows))
     tfoot = f"<tfoot><tr>{cells(foot, 'td')}</tr></tfoot>" if foot else ""
     attr = f' class="{css_class}"' if css_class else ""
     return f"<table{attr}><thead><tr>{cells(head, 'th')}</tr></thead><tbody>{body}</tbody>{tfoot}</table>"
@@ -210,24 +213,29 @@ def findings(system, summary: dict, checks) -> str:
             items.append(("info", "Not checked.", f"{check_label(c.name)}: no limit in the system file to compare "
                                                   f"{fmt(c.value, 1, c.unit)} with."))
     if not any(kind in ("alert", "warn") for kind, _, _ in items):
-        items.insert(0, ("ok", "No problems found.", "Every design check with a limit passes, and the load was met."))
+        met = ", and the load was met" if load > 0 else ""
+        items.insert(0, ("ok", "No problems found.", f"No design check with a limit failed{met}."))
     body = "".join(f'<li class="{kind}"><strong>{_esc(head)}</strong>{_esc(text)}</li>' for kind, head, text in items)
     return f'<section id="findings"><h2>What needs attention</h2><ul class="findings">{body}</ul></section>'
 
 
 def headline(system, summary: dict, checks) -> str:
     failed = sum(c.passed is False for c in checks)
+    checked = sum(c.passed is not None for c in checks)
+    cable_pct = summary.get("wiring_loss_pct")
     tiles = [(fmt(summary.get("energy_stored_kwh" if system.bank is not None else "energy_delivered_kwh"), 0, "kWh"),
               "stored in the bank" if system.bank is not None else "delivered to the load", False),
-             (pct(summary.get("wiring_loss_pct", 0.0) / 100.0 if summary.get("wiring_loss_pct") is not None
-                  else None), "of the generated energy lost in cables", False)]
+             (pct(None if cable_pct is None else cable_pct / 100.0), "of the generated energy lost in cables", False)]
     load = summary.get("load_kwh") or 0.0
     if load > 0:
         met = 1.0 - (summary.get("unmet_load_kwh") or 0.0) / load
         tiles.append((pct(met), "of the load met", met < 1.0 - UNMET_SHARE_NOTED))
     if summary.get("min_soc") is not None:
         tiles.append((pct(summary["min_soc"], 0), "lowest state of charge", summary["min_soc"] <= EMPTY_SOC))
-    tiles.append((f"{len(checks) - failed} / {len(checks)}", "design checks passed", failed > 0))
+    if checked:
+        tiles.append((f"{checked - failed} / {checked}", "design checks with a limit passed", failed > 0))
+    else:
+        tiles.append(("none", "design checks with a limit (no limits given)", False))
     body = "".join(f'<div class="tile{" bad" if bad else ""}"><b>{_esc(v)}</b><span>{_esc(label)}</span></div>'
                    for v, label, bad in tiles)
     return f'<div class="tiles" id="headline">{body}</div>'
@@ -343,12 +351,25 @@ ENERGY_ROWS = (("energy_mpp_kwh", "available at the groups' maximum power points
                ("load_kwh", "drawn by the load"), ("unmet_load_kwh", "load not met"))
 
 
-def energy_section(summary: dict) -> str:
+BANK_KEYS = ("energy_stored_kwh", "load_kwh", "unmet_load_kwh")
+CONTROLLER_KEYS = ("controller_loss_kwh", "curtailed_kwh")
+
+
+def relevant(system, key: str) -> bool:
+    """Whether an energy line applies to the system: bank lines need a bank, controller lines a controller."""
+    if key in BANK_KEYS:
+        return system.bank is not None
+    if key in CONTROLLER_KEYS:
+        return system.bank is not None and system.controller is not None and system.controller.kind is not None
+    return True
+
+
+def energy_section(system, summary: dict) -> str:
     avail = summary.get("energy_mpp_kwh") or 0.0
     load = summary.get("load_kwh") or 0.0
     rows = []
     for key, label in ENERGY_ROWS:
-        if key not in summary:
+        if key not in summary or not relevant(system, key):
             continue
         value = summary[key]
         if key == "unmet_load_kwh":
@@ -384,34 +405,37 @@ MONTH_COLUMNS = (("energy_mpp_kwh", "available at MPPs [kWh]", 1), ("energy_gene
                  ("load_kwh", "load [kWh]", 1), ("unmet_load_kwh", "unmet load [kWh]", 1))
 
 
-def monthly_section(summary: dict) -> str:
+def monthly_section(system, summary: dict) -> str:
     months = summary["monthly"]
     if not months:
         return ""
+    columns = [c for c in MONTH_COLUMNS if relevant(system, c[0])]
     soc = any(m.get("min_soc") is not None for m in months)
-    head = ("month", *(label for _, label, _ in MONTH_COLUMNS)) + (("lowest state of charge [%]",) if soc else ())
+    head = ("month", *(label for _, label, _ in columns)) + (("lowest state of charge [%]",) if soc else ())
     rows, flagged = [], {}
-    unmet_col = 1 + [k for k, _, _ in MONTH_COLUMNS].index("unmet_load_kwh")
+    keys = [k for k, _, _ in columns]
+    unmet_col = 1 + keys.index("unmet_load_kwh") if "unmet_load_kwh" in keys else None
     for r, m in enumerate(months):
         try:
             name = datetime.strptime(m["month"], "%Y-%m").strftime("%b %Y")
         except ValueError:
             name = m["month"]
-        row = [f"<span class=nowrap>{name}</span>", *(fmt(m.get(key), digits) for key, _, digits in MONTH_COLUMNS)]
+        row = [f"<span class=nowrap>{name}</span>", *(fmt(m.get(key), digits) for key, _, digits in columns)]
         if soc:
             row.append(fmt(None if m.get("min_soc") is None else 100 * m["min_soc"], 0))
-        if (m.get("unmet_load_kwh") or 0.0) > UNMET_SHARE_NOTED * max(m.get("load_kwh") or 0.0, 1e-9):
+        if unmet_col and (m.get("unmet_load_kwh") or 0.0) > UNMET_SHARE_NOTED * max(m.get("load_kwh") or 0.0, 1e-9):
             flagged[(r, unmet_col)] = "warn"
         rows.append(row)
     totals = ["whole span", *(fmt(sum((m.get(key) or 0.0) for m in months), digits)
-                              for key, _, digits in MONTH_COLUMNS)]
+                              for key, _, digits in columns)]
     if soc:
         totals.append(fmt(None if summary.get("min_soc") is None else 100 * summary["min_soc"], 0))
     return ('<section id="monthly"><h2>Month by month</h2>'
             + table(head, rows, numeric=tuple(range(1, len(head))), cell_classes=flagged, foot=totals,
                     css_class="compact")
-            + "<p class=lead>Each step counts in the month of the weather's own local calendar. Unmet load is "
-              "marked where a month could not supply all of it.</p></section>")
+            + "<p class=lead>Each step counts in the month of the weather's own local calendar."
+            + (" Unmet load is marked where a month could not supply all of it." if unmet_col else "")
+            + "</p></section>")
 
 
 def figures_section(figures) -> str:
@@ -476,8 +500,8 @@ def render_page(system, summary: dict, notes, checks, figures, t_min: float, t_m
 {headline(system, summary, checks)}
 {findings(system, summary, checks)}
 {system_section(system, summary)}
-{energy_section(summary)}
-{monthly_section(summary)}
+{energy_section(system, summary)}
+{monthly_section(system, summary)}
 {figures_section(figures)}
 {checks_section(checks, t_min, t_max)}
 {notes_html}

@@ -159,3 +159,43 @@ def test_a_real_browser_draws_the_page_and_prints_it(written, tmp_path):
     # The print stylesheet gives a document of several pages.
     data = pdf.read_bytes()
     assert data[:5] == b"%PDF-" and len(re.findall(rb"/Type\s*/Page\b", data)) >= 3
+
+
+def test_a_system_without_a_bank_shows_no_bank_lines(winter_run):
+    from pvsource.system import Load
+
+    system, _, result = winter_run
+    plain = replace(system, bank=None, controller=None, load=Load("mpp"))
+    unchecked = Check("max_string_voc", 131.9, None, "V", None, "NEC 690.7(A)", "max", "cold morning")
+    page = render_page(plain, result.summary, (), [unchecked], [], -5.0, 20.0)
+    text = _text(page)
+    assert "delivered to the load" in text and "a maximum-power tracker at the end of the feeder" in text
+    for words in ("stored in the bank", "unmet load", "curtailed", "design checks with a limit passed"):
+        assert words not in text, words
+    assert "Battery bank" not in _section(page, "system")
+    # An unchecked limit is said, not counted as a pass.
+    assert "Not checked." in _section(page, "findings") and "no limits given" in text
+
+
+def test_legends_stay_off_the_data(winter_run, tmp_path, monkeypatch):
+    # Every legend of the season figures sits outside its axes (or has none): none covers a curve or a bar.
+    from pvsource import plots
+
+    system, weather, result = winter_run
+    seen = []
+
+    def keep(fig, path):
+        fig.canvas.draw()
+        renderer = fig.canvas.get_renderer()
+        legends = [*fig.legends, *(ax.get_legend() for ax in fig.axes if ax.get_legend() is not None)]
+        covered = [ax.get_title(loc="left") for legend in legends for ax in fig.axes
+                   if ax.get_label() != "<colorbar>"
+                   and legend.get_window_extent(renderer).overlaps(ax.get_window_extent(renderer))]
+        seen.append((path.name, len(legends), covered))
+        return original(fig, path)
+
+    original = plots.save_atomically
+    monkeypatch.setattr(plots, "save_atomically", keep)
+    write_report(tmp_path, system, result, weather)
+    assert len(seen) == 5 and sum(n for _, n, _ in seen) >= 3
+    assert [(name, covered) for name, _, covered in seen if covered] == []
