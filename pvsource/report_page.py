@@ -44,7 +44,8 @@ ROLE_WORDS = {"string": "string lead", "home-run": "home run to the combiner", "
 MOUNTING_WORDS = {"open_rack": "open rack, glass-glass", "open_rack_polymer": "open rack, glass-polymer",
                   "close_roof": "close to the roof", "insulated_back": "insulated back",
                   "faiman_open": "open rack (Faiman model)"}
-METHOD_WORDS = {"desoto": "De Soto fit to the datasheet", "batzelis": "Batzelis explicit estimate from the datasheet",
+METHOD_WORDS = {"six_parameter": "six-parameter fit (Dobos), power coefficient included",
+                "desoto": "De Soto fit to the datasheet", "batzelis": "Batzelis explicit estimate from the datasheet",
                 "given": "entered directly"}
 CONTROLLER_WORDS = {"mppt": "maximum power point tracker", "pwm": "PWM switch", "direct": "direct connection"}
 LOAD_WORDS = {"mpp": "a maximum-power tracker at the end of the feeder", "resistor": "a resistor",
@@ -283,9 +284,10 @@ def _module_block(module) -> str:
                 ("maximum power Pmp", fmt(ds.v_mp * ds.i_mp, 1, "W")),
                 ("Isc temperature coefficient", fmt(ds.isc_temp_coeff_pct, 3, "%/°C")),
                 ("Voc temperature coefficient", fmt(ds.voc_temp_coeff_pct, 3, "%/°C"))]
-        pmax = getattr(ds, "pmax_temp_coeff_pct", None)
-        if pmax is not None:
-            rows.append(("Pmp temperature coefficient", fmt(pmax, 3, "%/°C")))
+        if ds.pmax_temp_coeff_pct is not None:
+            rows.append(("Pmp temperature coefficient", fmt(ds.pmax_temp_coeff_pct, 3, "%/°C")))
+        if ds.noct_c is not None:
+            rows.append(("nominal operating cell temperature", fmt(ds.noct_c, 0, "°C")))
         rows.append(("cells in series", str(ds.cells_in_series)))
         left = f"<div><h3>Module datasheet at STC</h3>{pairs(rows)}</div>"
     thermal_v = 8.617333262e-5 * 298.15 * p.cells_in_series  # k T / q per cell at 25 °C, CODATA 2018
