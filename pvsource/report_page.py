@@ -37,14 +37,19 @@ FIGURE_CAPTIONS = {
 CHECK_LABELS = {
     "max_string_voc": "Highest string open-circuit voltage, at the record low",
     "min_string_vmp": "Lowest string maximum-power voltage, at the record high",
-    "conductor_current": "Conductor design current",
+    "conductor_current": "Conductor design current against its ampacity",
+    "string_fuse": "String fuse",
+    "controller_input_isc": "Array short-circuit current at the controller's input",
+    "controller_output_power": "Array power against the controller's output",
+    "fuse_rating": "Fuse rating against its conductor",
+    "bank_short_circuit": "Bank fault current against the fuse's interrupting rating",
 }
 ROLE_WORDS = {"string": "string lead", "home-run": "home run to the combiner", "feeder": "feeder to the controller",
               "bank": "controller to bank", "interconnect": "bank interconnect"}
 MOUNTING_WORDS = {"open_rack": "open rack, glass-glass", "open_rack_polymer": "open rack, glass-polymer",
                   "close_roof": "close to the roof", "insulated_back": "insulated back",
                   "faiman_open": "open rack (Faiman model)"}
-METHOD_WORDS = {"six_parameter": "six-parameter fit (Dobos), power coefficient included",
+METHOD_WORDS = {"six_parameter": "six-parameter fit (Dobos)",
                 "desoto": "De Soto fit to the datasheet", "batzelis": "Batzelis explicit estimate from the datasheet",
                 "given": "entered directly"}
 CONTROLLER_WORDS = {"mppt": "maximum power point tracker", "pwm": "PWM switch", "direct": "direct connection"}
@@ -83,6 +88,7 @@ tbody td{border-bottom:1px solid var(--rule)}
 tbody tr:nth-child(even) td{background:#fbfaf7}
 td.num,th.num{text-align:right;font-variant-numeric:tabular-nums}
 td.num,.nowrap{white-space:nowrap}
+td.val{text-align:right;font-variant-numeric:tabular-nums}
 table.compact{font-size:.84rem}
 table.compact th{font-size:.76rem}
 tfoot td{border-top:2px solid var(--slate);font-weight:600}
@@ -92,6 +98,7 @@ td.warn{color:#8a4b00;font-weight:600}
 .badge.pass{color:#2f6b3a;border:1px solid #8fb897}
 .badge.fail{color:#fff;background:var(--red)}
 .badge.none{color:var(--soft);border:1px solid var(--rule)}
+.badge.advice{color:#8a4b00;border:1px solid var(--amber)}
 .pair{display:flex;flex-wrap:wrap;gap:0 2.5rem;align-items:flex-start}
 .pair>div{flex:0 1 auto;max-width:30rem}
 figure{margin:1.2rem 0;break-inside:avoid}
@@ -159,7 +166,8 @@ def table(head, rows, numeric=(), row_classes=None, cell_classes=None, foot=None
 
 def pairs(rows) -> str:
     """A two-column table of (label, value) pairs."""
-    body = "".join(f"<tr><td>{_esc(label)}</td><td class=num>{_esc(value)}</td></tr>" for label, value in rows)
+    body = "".join(f"<tr><td class=nowrap>{_esc(label)}</td><td class=val>{_esc(value)}</td></tr>"
+                   for label, value in rows)
     return f"<table><tbody>{body}</tbody></table>"
 
 
@@ -199,8 +207,10 @@ def findings(system, summary: dict, checks) -> str:
     for c in checks:
         if c.passed is False:
             sense = "above the limit" if c.sense == "max" else "below the minimum"
-            items.append(("alert", "Check failed.", f"{check_label(c.name)}: {fmt(c.value, 1, c.unit)}, {sense} of "
-                                                    f"{fmt(c.limit, 1, c.unit)} ({c.basis})."))
+            # An advisory check warns of lost energy; a failed one is a hazard or a code rule.
+            kind, head = ("warn", "Advisory.") if c.advisory else ("alert", "Check failed.")
+            items.append((kind, head, f"{check_label(c.name)}: {fmt(c.value, 1, c.unit)}, {sense} of "
+                                      f"{fmt(c.limit, 1, c.unit)} ({c.basis})."))
     load, unmet = summary.get("load_kwh") or 0.0, summary.get("unmet_load_kwh") or 0.0
     if load > 0 and unmet > UNMET_SHARE_NOTED * load:
         items.append(("warn", "Load not met.", f"{fmt(unmet, 1, 'kWh')} of {fmt(load, 1, 'kWh')} "
@@ -221,7 +231,7 @@ def findings(system, summary: dict, checks) -> str:
 
 
 def headline(system, summary: dict, checks) -> str:
-    failed = sum(c.passed is False for c in checks)
+    failed = sum(c.failed for c in checks)
     checked = sum(c.passed is not None for c in checks)
     cable_pct = summary.get("wiring_loss_pct")
     tiles = [(fmt(summary.get("energy_stored_kwh" if system.bank is not None else "energy_delivered_kwh"), 0, "kWh"),
@@ -298,7 +308,7 @@ def _module_block(module) -> str:
             ("diode ideality factor n", fmt(p.a_ref_v / thermal_v, 3)),
             ("how it was obtained", METHOD_WORDS.get(module.fit.method, module.fit.method))]
     if worst is not None:
-        rows.append(("largest STC error against the datasheet", pct(worst, 3)))
+        rows.append(("largest error at STC", pct(worst, 3)))
     right = f"<div><h3>Fitted single-diode model at STC</h3>{pairs(rows)}<p class=lead>{_esc(module.fit.note)}</p></div>"
     name = module.name or (ds.name if ds is not None else "")
     title = f"<h3>Module: {_esc(name)}</h3>" if name else ""
@@ -458,10 +468,12 @@ def checks_section(checks, t_min: float, t_max: float) -> str:
     for c in checks:
         verdict = {True: '<span class="badge pass">pass</span>', False: '<span class="badge fail">FAIL</span>',
                    None: '<span class="badge none">no limit</span>'}[c.passed]
+        if c.passed is False and c.advisory:
+            verdict = '<span class="badge advice">advisory</span>'
         bound = "" if c.limit is None else ("at most " if c.sense == "max" else "at least ") + fmt(c.limit, 1, c.unit)
         rows.append((_esc(check_label(c.name)), _esc(fmt(c.value, 1, c.unit)), _esc(bound or "not given"),
                      pct(c.margin) if c.margin is not None else "", verdict, _esc(c.basis)))
-        classes.append("fail" if c.passed is False else "")
+        classes.append("fail" if c.failed else "")
     return ('<section id="checks"><h2>Design checks</h2>'
             f"<p class=lead>Against the weather's own extremes of air temperature, {t_min:.1f} to {t_max:.1f} °C.</p>"
             + table(("check", "value", "limit", "margin", "verdict", "basis"), rows, numeric=(1, 2, 3),

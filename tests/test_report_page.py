@@ -201,3 +201,12 @@ def test_legends_stay_off_the_data(winter_run, tmp_path, monkeypatch):
     write_report(tmp_path, system, result, weather)
     assert len(seen) == 5 and sum(n for _, n, _ in seen) >= 3
     assert [(name, covered) for name, _, covered in seen if covered] == []
+
+
+def test_an_advisory_check_is_a_warning_not_a_failure(winter_run):
+    system, _, result = winter_run
+    clipped = Check("controller_output_power", 1821.6, 1136.0, "W", False, "common practice", "max", "clipping",
+                    advisory=True)
+    page = render_page(system, result.summary, (), [clipped], [], -5.0, 20.0)
+    assert "Advisory." in _section(page, "findings") and "Check failed." not in page
+    assert 'badge advice">advisory' in _section(page, "checks") and '<tr class="fail">' not in page
