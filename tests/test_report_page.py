@@ -180,10 +180,13 @@ def test_a_system_without_a_bank_shows_no_bank_lines(winter_run):
 
 
 def test_legends_stay_off_the_data(winter_run, tmp_path, monkeypatch):
-    # Every legend of the season figures sits outside its axes (or has none): none covers a curve or a bar.
-    from pvsource import plots
+    # Every legend sits outside the axes (or there is none): none covers a curve or a bar.
+    import matplotlib.pyplot as plt
 
-    system, weather, result = winter_run
+    from pvsource import plots
+    from pvsource.sweep import run_sweep
+
+    system, _, result = winter_run
     seen = []
 
     def keep(fig, path):
@@ -194,12 +197,19 @@ def test_legends_stay_off_the_data(winter_run, tmp_path, monkeypatch):
                    if ax.get_label() != "<colorbar>"
                    and legend.get_window_extent(renderer).overlaps(ax.get_window_extent(renderer))]
         seen.append((path.name, len(legends), covered))
-        return original(fig, path)
+        plt.close(fig)
+        return path
 
-    original = plots.save_atomically
     monkeypatch.setattr(plots, "save_atomically", keep)
-    write_report(tmp_path, system, result, weather)
-    assert len(seen) == 5 and sum(n for _, n, _ in seen) >= 3
+    steps, summary = result.steps, result.summary
+    plots.monthly_energy_figure(summary, tmp_path / "monthly.png")
+    plots.wiring_loss_heatmap(steps, tmp_path / "heatmap.png")
+    plots.charge_duration_figure(steps, summary["step_h"], tmp_path / "duration.png")
+    plots.soc_figure(steps, tmp_path / "soc.png")
+    plots.iv_figure(iv_curves(system, steps), tmp_path / "iv.png")
+    rows, design = run_sweep(system, "soc", "0", "1", 5, 900.0, 45.0)
+    plots.sweep_figure(rows, design, tmp_path / "sweep.png")
+    assert len(seen) == 6 and sum(n for _, n, _ in seen) >= 4
     assert [(name, covered) for name, _, covered in seen if covered] == []
 
 
