@@ -5,9 +5,9 @@ from dataclasses import replace
 import numpy as np
 import pytest
 
+import reference as ref
 from pvsource import bank as bank_model
 from pvsource.controller import Controller, efficiency_at
-from pvsource.network import evaluate_groups, solve_max_power
 from pvsource.operating import operating_points
 from pvsource.system import Load
 
@@ -47,15 +47,10 @@ def test_mppt_delivers_efficiency_times_the_maximum_power_when_nothing_limits(de
     system = bank_system(demo_module, "mppt", soc=0.3, rated_power_w=2000.0)
     r = operating_points(system, 700.0, 35.0).iloc[0]
     assert r["limit"] == "source" and r["stage"] == "bulk" and r["curtailed_w"] == pytest.approx(0.0, abs=1e-9)
-    # Reference: the maximum power through the feeder, found independently.
-    from pvsource.module import parameters_at
-    from pvsource.network import Network
-    net = Network(parameters_at(demo_module.parameters, np.array([[700.0]]), np.array([[35.0]])),
-                  np.array([3.0]), np.array([2.0]), np.zeros(1), np.zeros(1))
-    r_f = system.wiring.r_feeder_ohm
-    mp = solve_max_power(net, r_f)
-    i = evaluate_groups(net, mp.x_v).group_i_a[0, 0]
-    p_mp_in = (mp.bus_v[0] - i * r_f) * i
+    # Reference: the maximum power through the feeder from pvlib's i_from_v and
+    # scipy's bounded maximisation (tests/reference.py).
+    groups = [ref.group(ref.desoto(demo_module.parameters, 700.0, 35.0), 3, 2)]
+    p_mp_in, _ = ref.max_power(groups, system.wiring.r_feeder_ohm, 3 * 45.0)
     p_out = (r["bank_emf_v"] + r["charge_current_a"] * (r["bank_r_ohm"] + system.wiring.r_bank_ohm)) \
         * r["charge_current_a"]
     eta = efficiency_at(system.controller, p_mp_in / 2000.0)
@@ -103,7 +98,12 @@ def test_absorption_tapers_with_the_banks_acceptance(demo_module):
                          max_output_a=80.0)
     r = operating_points(system, 1000.0, 30.0).iloc[0]
     accept = float(bank_model.acceptance_current_a(system.bank))
-    assert accept == pytest.approx(0.5 * 0.2 * 200.0)
+    # Common practice, from memory: a flooded bank at 90 % in absorption takes
+    # a few per cent of C up to about C/8 (the tail falls to 1-2 % of C when full).
+    assert 0.02 * 200.0 <= accept <= 0.125 * 200.0
+    # Below Ohm's law at the absorption voltage, worked out from the bank's EMF and resistance.
+    v_abs, _ = bank_model.charge_voltages_v(system.bank)
+    assert accept < (float(v_abs) - r["bank_emf_v"]) / r["bank_r_ohm"]
     assert r["stage"] == "absorption"
     assert r["charge_current_a"] == pytest.approx(accept, rel=1e-9)
     assert r["curtailed_w"] > 0
@@ -164,17 +164,13 @@ def test_a_blocking_diode_stops_back_feed_at_night(demo_module):
 
 def test_direct_coupled_current_matches_pvlib_at_the_bank_voltage(demo_module):
     # Reference: pvlib.pvsystem.i_from_v at the bank's terminal voltage E + I R
-    # (one string of one module, no cables, no diode).
-    from pvlib import pvsystem
-    from pvsource.module import parameters_at
+    # (two strings of one module, no cables, no diode; tests/reference.py).
     system = replace(make_system(demo_module, groups=((1, 2),)), bank=bank_model.make_bank("lfp", 8, 1, 200, 0.5, 25),
                      controller=Controller(kind="direct"))
     r = operating_points(system, 800.0, 45.0).iloc[0]
     v_terminal = r["bank_emf_v"] + r["charge_current_a"] * r["bank_r_ohm"]
-    st = parameters_at(demo_module.parameters, 800.0, 45.0)
-    ref = 2 * float(pvsystem.i_from_v(v_terminal, st.i_l_a, st.i_o_a, st.r_s_ohm, st.r_sh_ohm, st.a_v,
-                                      method="lambertw"))
-    assert r["charge_current_a"] == pytest.approx(ref, rel=1e-9)
+    groups = [ref.group(ref.desoto(demo_module.parameters, 800.0, 45.0), 1, 2)]
+    assert r["charge_current_a"] == pytest.approx(ref.array_current(groups, v_terminal), rel=1e-9)
 
 
 def test_a_charge_current_above_the_arrays_isc_is_withheld(demo_module, monkeypatch):

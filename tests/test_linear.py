@@ -3,6 +3,7 @@
 import numpy as np
 import pytest
 
+import reference as ref
 from pvsource import linear
 
 
@@ -30,14 +31,31 @@ def test_efficiency_is_m_over_one_plus_m():
     np.testing.assert_allclose(out["p_load_w"] / out["p_source_w"], out["efficiency"], rtol=1e-14)
 
 
-def test_linearise_round_trips_the_point():
-    v, i, g = np.array([30.0, 80.0]), np.array([9.0, 2.0]), np.array([0.01, 3.0])
+def test_linearise_on_pvlibs_curve_gives_the_tangent_and_its_laws(demo_module):
+    # Reference: the module's I-V curve from pvlib (singlediode key points and
+    # i_from_v, tests/reference.py), its slope by central difference.
+    groups = [ref.group(ref.desoto(demo_module.parameters, 800.0, 45.0), 1, 1)]
+    points = ref.key_points(ref.desoto(demo_module.parameters, 800.0, 45.0))
+    v_mp, i_mp, v_oc = float(points["v_mp"]), float(points["i_mp"]), float(points["v_oc"])
+    v = np.array([0.5 * v_mp, v_mp, 0.98 * v_oc])
+    i = np.array([ref.array_current(groups, x) for x in v])
+    g = np.array([ref.conductance(groups, x) for x in v])
     eq = linear.linearise(v, i, g)
-    np.testing.assert_allclose(eq.e_v, v + i / g)
-    np.testing.assert_allclose(eq.i_a, eq.e_v / eq.r_ohm)
-    np.testing.assert_allclose(eq.current_at(v), i)
-    # Below V_mp (small conductance) the EMF lies far above the terminal voltage.
-    assert eq.e_v[0] > 10 * v[0]
+    # Law (Thevenin/Norton): the tangent's intercepts; 2 V and 2 I at the MPP,
+    # where dP/dV = 0 gives R_th = V / I (maximum power transfer).
+    assert eq.e_v[1] == pytest.approx(2 * v_mp, rel=1e-5)
+    assert eq.i_a[1] == pytest.approx(2 * i_mp, rel=1e-5)
+    assert linear.matching_ratio(v[1], i[1], eq.r_ohm[1]) == pytest.approx(1.0, rel=1e-5)
+    # The tangent meets pvlib's curve at the point and over-predicts beside it (a concave curve).
+    np.testing.assert_allclose(eq.current_at(v), i, rtol=1e-12)
+    for dv in (-0.25, 0.25):
+        assert eq.current_at(v + dv)[:2] == pytest.approx(
+            [ref.array_current(groups, x) for x in (v + dv)[:2]], rel=2e-3)
+        assert np.all(eq.current_at(v + dv) > [ref.array_current(groups, x) for x in v + dv])
+    # GUIDE note 3: below V_mp a current source whose EMF lies far above pvlib's
+    # Voc, near Voc a voltage source whose EMF is close to Voc.
+    assert eq.e_v[0] > 2 * v_oc and eq.r_ohm[0] > 5 * v[0] / i[0]
+    assert eq.e_v[2] == pytest.approx(v_oc, rel=0.02)
 
 
 def test_matching_ratio_is_undefined_without_current():
