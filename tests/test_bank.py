@@ -5,8 +5,6 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from hypothesis import given, settings
-from hypothesis import strategies as st
 
 from pvsource.bank import (CHEMISTRIES, PRESET_NAMES, absorption_current_a, charge_voltages_v,
                            internal_resistance_ohm, load_chemistry, make_bank, max_charge_current_a,
@@ -97,47 +95,42 @@ def test_ocv_clips_soc_and_broadcasts():
 # --- the Thevenin model -------------------------------------------------------
 
 
-@settings(max_examples=60, deadline=None)
-@given(key=st.sampled_from(CHEMISTRIES), soc=st.floats(0, 1), temp_c=st.floats(-40, 70),
-       terminal_v=st.floats(0.5, 5.0))
-def test_constant_voltage_stage_current_law(key, soc, temp_c, terminal_v):
-    # Law (Ohm, on the Thevenin equivalent): I = (V - E) / R while V > E, and
-    # no charge current once the EMF reaches the held voltage.
-    b = bank(key, soc=soc, temp_c=temp_c)
-    target_v = terminal_v * b.cells_in_series
-    emf, r = thevenin(b)
-    i = absorption_current_a(b, target_v)
-    if emf >= target_v:
-        assert i == 0
-    else:
-        assert i == pytest.approx((target_v - emf) / r, rel=1e-12)
-        # Law (Kirchhoff's voltage law): E + I R is the terminal voltage set.
-        assert emf + i * r == pytest.approx(target_v, rel=1e-12)
+def test_constant_voltage_current_is_ohms_law_in_a_worked_example():
+    # Law (Ohm and Kirchhoff's voltage law on the Thevenin equivalent), worked
+    # by hand from the LFP preset's table, not through pvsource.bank: a 4-cell
+    # 100 Ah LFP battery at 50 % and 25 degC rests at E = 4 x 3.290 = 13.160 V
+    # behind R = 4 x 0.08 / 100 = 3.2 mOhm. Held at 13.200 V it takes
+    # 0.040 V / 3.2 mOhm = 12.5 A; held at or below its EMF it takes nothing
+    # (a charger cannot sink current).
+    b = bank("lfp", soc=0.5, temp_c=25.0)
+    assert absorption_current_a(b, 13.200) == pytest.approx(12.5, rel=1e-9)
+    i = absorption_current_a(b, np.array([13.0, 13.160, 13.168]))
+    np.testing.assert_allclose(i, [0.0, 0.0, 2.5], atol=1e-9)
 
 
-def test_absorption_current_is_zero_at_or_above_the_target():
-    # Law: with E >= V the bank would discharge into a charger, which cannot sink.
-    b = bank("lead-acid-flooded", soc=1.0)
-    emf = open_circuit_v(b)
-    assert absorption_current_a(b, emf) == 0
-    assert absorption_current_a(b, emf - 1.0) == 0
-    i = absorption_current_a(b, np.array([emf - 0.1, emf + 0.1]))
-    assert i[0] == 0 and i[1] == pytest.approx(0.1 / internal_resistance_ohm(b), rel=1e-9)
+@pytest.mark.parametrize("key, low_mohm, high_mohm", [
+    # Common practice, from memory (the presets' sources): DC resistance of a
+    # 12 V 100 Ah battery.
+    ("lead-acid-flooded", 6.0, 10.0),   # deep-cycle flooded, about 6-10 mOhm
+    ("lead-acid-sealed", 4.0, 10.0),    # AGM, about 4-6 mOhm at 1 kHz, DC higher
+    ("lfp", 2.0, 4.0),                  # four prismatic cells of 0.5-1 mOhm
+    ("nmc", 1.5, 4.0),                  # three cells of about 0.75 mOhm at 100 Ah (1.5 mOhm at 50 Ah)
+])
+def test_a_12v_100ah_battery_has_the_common_resistance(key, low_mohm, high_mohm):
+    assert low_mohm <= 1e3 * internal_resistance_ohm(bank(key, capacity_ah=100.0, temp_c=25.0)) <= high_mohm
 
 
 def test_resistance_follows_the_series_and_parallel_laws():
-    # Law: n_s equal resistors in series add; n_p equal strings in parallel
-    # divide. R_cell = k / C_string, so at fixed string capacity the bank
-    # resistance is n_s k / (C_string n_p).
-    k = load_chemistry("lfp").resistance_ohm_ah
-    one = bank("lfp", cells=1, strings=1, capacity_ah=100.0)
-    assert internal_resistance_ohm(one) == pytest.approx(k / 100.0, rel=1e-12)
-    assert internal_resistance_ohm(bank("lfp", cells=16)) == pytest.approx(16 * k / 100.0, rel=1e-12)
-    # Three strings of the same 100 Ah cells (300 Ah total): a third.
-    three = bank("lfp", cells=1, strings=3, capacity_ah=300.0)
-    assert internal_resistance_ohm(three) == pytest.approx(k / 300.0, rel=1e-12)
-    # Cells twice as large: half the resistance.
-    assert internal_resistance_ohm(bank("lfp", cells=1, capacity_ah=200.0)) == pytest.approx(k / 200.0, rel=1e-12)
+    # Law (series resistances add, parallel conductances add), worked out in the
+    # test from one measured cell: 16 cells in series in each of 3 parallel
+    # strings of 100 Ah cells (300 Ah bank) is 16 R_cell / 3.
+    r_cell = internal_resistance_ohm(bank("lfp", cells=1, strings=1, capacity_ah=100.0))
+    string = 16 * r_cell
+    expected = 1.0 / (1.0 / string + 1.0 / string + 1.0 / string)
+    assert internal_resistance_ohm(bank("lfp", cells=16, strings=3, capacity_ah=300.0)) == pytest.approx(expected,
+                                                                                                          rel=1e-12)
+    # A cell twice as large is two of the same cells in parallel: half the resistance.
+    assert internal_resistance_ohm(bank("lfp", cells=1, capacity_ah=200.0)) == pytest.approx(r_cell / 2, rel=1e-12)
 
 
 @pytest.mark.parametrize("key", CHEMISTRIES)
@@ -162,7 +155,9 @@ def test_flooded_temperature_compensation_is_minus_30_mv_per_degc_for_12v():
     # battery (-5 mV/degC per cell), referred to 25 degC.
     b = bank("lead-acid-flooded")
     (abs_25, float_25), (abs_35, float_35) = charge_voltages_v(b, 25.0), charge_voltages_v(b, 35.0)
-    assert abs_25 == pytest.approx(14.7, abs=1e-9) and float_25 == pytest.approx(13.5, abs=1e-9)
+    # Common practice, from memory: a 12 V flooded battery absorbs at about
+    # 14.4-14.8 V and floats at about 13.2-13.6 V at 25 degC.
+    assert 14.4 <= abs_25 <= 14.8 and 13.2 <= float_25 <= 13.6
     assert (abs_35 - abs_25) / 10 == pytest.approx(-0.030, abs=1e-9)
     assert (float_35 - float_25) / 10 == pytest.approx(-0.030, abs=1e-9)
     # Colder raises both, by the same coefficient.
@@ -191,7 +186,10 @@ def test_no_lithium_charging_below_zero_degc(key):
     # Common practice: no charging of lithium-ion cells below 0 degC (lithium plating).
     b = bank(key, capacity_ah=200.0)
     i = max_charge_current_a(b, np.array([-10.0, -0.1, 0.0, 25.0]))
-    assert np.all(i == np.array([0.0, 0.0, 100.0, 100.0]))  # 0.5C of 200 Ah
+    assert np.all(i[:2] == 0.0)
+    # Common practice, from memory: lithium storage cells take 0.2C to 1C
+    # continuously from 0 degC up (40-200 A for 200 Ah).
+    assert i[2] == i[3] and 40.0 <= i[3] <= 200.0
 
 
 def test_lead_acid_charges_in_the_cold_at_its_c_rate():

@@ -56,13 +56,33 @@ def test_modules_and_sizes_step_along_their_series():
     assert list(rows["value"]) == [2, 3, 4]
     rows, _ = run_sweep(system, "size:array to controller", "4 mm2", "16 mm2", 10)
     assert list(rows["value"]) == ["4 mm2", "6 mm2", "10 mm2", "16 mm2"]
-    assert rows["generated_w"].is_monotonic_increasing or rows["delivered_w"].is_monotonic_increasing
+    # The tracker's 40 A output limit binds at every size, so what reaches the
+    # controller is the same, and only the feeder's I^2 R loss moves the
+    # generated power. Reference: IEC 60228 Table 2, class 2 copper, maximum
+    # resistance at 20 degC (4 mm2: 4.61, 16 mm2: 1.15 ohm/km; from memory),
+    # at the run's 60 degC with alpha = 0.00393 /K (IEC 60228 Annex B), over
+    # the 2 x 18 m loop. Within 6 %: the standard's maxima lie a few per cent
+    # above a conductor at its nominal area.
+    assert rows["delivered_w"].nunique() == 1
+    r_hot = {"4 mm2": 4.61e-3, "16 mm2": 1.15e-3}
+    loss = {k: rows.set_index("value")["i"][k] ** 2 * r * 36.0 * (1 + 0.00393 * 40.0) for k, r in r_hot.items()}
+    gen = rows.set_index("value")["generated_w"]
+    assert gen["4 mm2"] - gen["16 mm2"] == pytest.approx(loss["4 mm2"] - loss["16 mm2"], rel=0.06)
+    assert rows["efficiency"].is_monotonic_increasing
 
 
-def test_soc_sweep_tapers_into_float():
+def test_soc_sweep_follows_the_lfp_plateau_then_floats():
+    # The cabin: 8 LFP cells behind a tracker limited to 40 A (its file).
     rows, _ = run_sweep(load_system(CABIN), "soc", "0.0", "1.0", 11)
-    assert rows["charge_current_a"].iloc[0] > 0
-    assert rows["charge_current_a"].iloc[-1] <= rows["charge_current_a"].iloc[0]
+    mid = rows[(rows["value"] >= 0.2) & (rows["value"] <= 0.9)]
+    assert (mid["charge_current_a"] == 40.0).all()
+    # Common practice, from memory: an LFP cell rests at 3.2-3.4 V over 20-90 %
+    # of its charge; the terminal voltage adds 40 A through about 2 mOhm.
+    terminal_v = mid["delivered_w"] / mid["charge_current_a"]
+    assert ((terminal_v >= 8 * 3.2) & (terminal_v <= 8 * 3.4 + 0.2)).all()
+    assert terminal_v.is_monotonic_increasing  # law: the EMF rises with the charge stored
+    # Common practice: a full bank held at float takes no charge.
+    assert rows["charge_current_a"].iloc[-1] == 0.0
 
 
 @pytest.mark.parametrize("variable, start, stop, steps, match", [
