@@ -57,11 +57,16 @@ def _series_r(g: dict) -> float:
     return g["rs"] + (g["r_string"] + g["n_p"] * g["r_home"]) / g["n_s"]
 
 
-def array_current(groups, v_bus: float) -> float:
-    """Current out of parallel groups at a bus voltage [A], from pvlib's i_from_v (Lambert W)."""
-    return sum(g["n_p"] * float(pvsystem.i_from_v(v_bus / g["n_s"], g["il"], g["io"], _series_r(g), g["rsh"],
-                                                  g["a"], method="lambertw"))
-               for g in groups)
+def array_current(groups, v_bus):
+    """Current out of parallel groups at bus voltages [A], from pvlib's i_from_v (Lambert W).
+
+    A float for one voltage, an array for an array of them.
+    """
+    v = np.asarray(v_bus, dtype=float)
+    total = sum(g["n_p"] * np.asarray(pvsystem.i_from_v(v / g["n_s"], g["il"], g["io"], _series_r(g), g["rsh"],
+                                                        g["a"], method="lambertw"), float)
+                for g in groups)
+    return float(total) if np.ndim(total) == 0 else total
 
 
 def string_voltage(g: dict, i_string: float) -> float:
@@ -70,7 +75,7 @@ def string_voltage(g: dict, i_string: float) -> float:
                                               method="lambertw"))
 
 
-def conductance(groups, v_bus: float, step_v: float = 1e-4) -> float:
+def conductance(groups, v_bus, step_v: float = 1e-4):
     """-dI/dV of the array at the bus [S], by a central difference of :func:`array_current`."""
     return -(array_current(groups, v_bus + step_v) - array_current(groups, v_bus - step_v)) / (2 * step_v)
 
