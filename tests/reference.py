@@ -20,19 +20,22 @@ from scipy.optimize import brentq, minimize_scalar
 KEYS = ("il", "io", "rs", "rsh", "a")
 
 
-def desoto(params, irradiance_w_m2, cell_temp_c) -> dict:
-    """The five single-diode values at conditions, from pvlib's De Soto model.
+def diode_at(params, irradiance_w_m2, cell_temp_c) -> dict:
+    """The five single-diode values at conditions, from pvlib's CEC model.
 
-    Reference: :func:`pvlib.pvsystem.calcparams_desoto` (De Soto et al. 2006,
-    doi:10.1016/j.solener.2005.06.010) on the reference parameters' plain numbers.
+    Reference: :func:`pvlib.pvsystem.calcparams_cec` (De Soto et al. 2006,
+    doi:10.1016/j.solener.2005.06.010, with Dobos's temperature-coefficient
+    adjustment, doi:10.1115/1.4005759) on the reference parameters' plain
+    numbers; an adjustment of zero, or none, is De Soto's model.
     Returns arrays broadcast to the conditions' shape.
     """
     g = np.asarray(irradiance_w_m2, dtype=float)
     t = np.asarray(cell_temp_c, dtype=float)
-    with np.errstate(divide="ignore"):
-        values = pvsystem.calcparams_desoto(
+    with np.errstate(divide="ignore", over="ignore"):
+        values = pvsystem.calcparams_cec(
             g, t, params.alpha_sc_a_per_c, params.a_ref_v, params.i_l_ref_a, params.i_o_ref_a,
-            params.r_sh_ref_ohm, params.r_s_ohm, EgRef=params.eg_ref_ev, dEgdT=params.degdt_per_c)
+            params.r_sh_ref_ohm, params.r_s_ohm, getattr(params, "adjust_pct", 0.0), EgRef=params.eg_ref_ev,
+            dEgdT=params.degdt_per_c)
     shape = np.broadcast_shapes(g.shape, t.shape)
     return {k: np.broadcast_to(np.asarray(v, float), shape).copy() for k, v in zip(KEYS, values)}
 

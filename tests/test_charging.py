@@ -49,7 +49,7 @@ def test_mppt_delivers_efficiency_times_the_maximum_power_when_nothing_limits(de
     assert r["limit"] == "source" and r["stage"] == "bulk" and r["curtailed_w"] == pytest.approx(0.0, abs=1e-9)
     # Reference: the maximum power through the feeder from pvlib's i_from_v and
     # scipy's bounded maximisation (tests/reference.py).
-    groups = [ref.group(ref.desoto(demo_module.parameters, 700.0, 35.0), 3, 2)]
+    groups = [ref.group(ref.diode_at(demo_module.parameters, 700.0, 35.0), 3, 2)]
     p_mp_in, _ = ref.max_power(groups, system.wiring.r_feeder_ohm, 3 * 45.0)
     p_out = (r["bank_emf_v"] + r["charge_current_a"] * (r["bank_r_ohm"] + system.wiring.r_bank_ohm)) \
         * r["charge_current_a"]
@@ -169,7 +169,7 @@ def test_direct_coupled_current_matches_pvlib_at_the_bank_voltage(demo_module):
                      controller=Controller(kind="direct"))
     r = operating_points(system, 800.0, 45.0).iloc[0]
     v_terminal = r["bank_emf_v"] + r["charge_current_a"] * r["bank_r_ohm"]
-    groups = [ref.group(ref.desoto(demo_module.parameters, 800.0, 45.0), 1, 2)]
+    groups = [ref.group(ref.diode_at(demo_module.parameters, 800.0, 45.0), 1, 2)]
     assert r["charge_current_a"] == pytest.approx(ref.array_current(groups, v_terminal), rel=1e-9)
 
 

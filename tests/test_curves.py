@@ -19,7 +19,7 @@ def _groups(module, g, t, *counts_and_r_home):
     conditions ``g`` and ``t`` are one value per group.
     """
     g, t = np.broadcast_to(g, len(counts_and_r_home)), np.broadcast_to(t, len(counts_and_r_home))
-    return [ref.group(ref.desoto(module.parameters, g[k], t[k]), n_s, n_p, r_s, r_h)
+    return [ref.group(ref.diode_at(module.parameters, g[k], t[k]), n_s, n_p, r_s, r_h)
             for k, (n_s, n_p, r_s, r_h) in enumerate(counts_and_r_home)]
 
 
@@ -30,11 +30,11 @@ def test_one_group_with_cables_matches_pvlib_lambertw(demo_module, g, t):
     curves = array_curves(system, g, t, points=60)
     groups = _groups(demo_module, g, t, (3, 2, 2 * 10 * 8.0 / 1000, 2 * 15 * 3.0 / 1000))
     i_ref = ref.array_current(groups, curves.v[0])
-    # Reference: pvlib.pvsystem.i_from_v (Lambert W) on pvlib.pvsystem.calcparams_desoto parameters.
+    # Reference: pvlib.pvsystem.i_from_v (Lambert W) on pvlib.pvsystem.calcparams_cec parameters.
     np.testing.assert_allclose(curves.i[0], i_ref, atol=1e-7 * i_ref[0] + 1e-9)
     np.testing.assert_allclose(curves.p[0], curves.v[0] * i_ref, atol=1e-6 * i_ref[0] * curves.v_oc[0])
     # Reference: pvlib.pvsystem.singlediode; no current flows at open circuit, so cables do not move Voc.
-    v_oc = ref.key_points(ref.desoto(demo_module.parameters, g, t), 3, 2)["v_oc"]
+    v_oc = ref.key_points(ref.diode_at(demo_module.parameters, g, t), 3, 2)["v_oc"]
     assert curves.v_oc[0] == pytest.approx(float(v_oc), rel=1e-7)
 
 
@@ -57,7 +57,7 @@ def test_mismatched_groups_add_their_currents_at_the_bus(demo_module):
 @pytest.mark.parametrize("g, t", CONDITIONS)
 def test_tangent_slope_is_pvlibs_and_matches_at_the_mpp(demo_module, g, t):
     system = make_system(demo_module, groups=((3, 2),))
-    sd = {k: float(x) for k, x in ref.key_points(ref.desoto(demo_module.parameters, g, t), 3, 2).items()}
+    sd = {k: float(x) for k, x in ref.key_points(ref.diode_at(demo_module.parameters, g, t), 3, 2).items()}
     v = np.array([0.3, 0.9, 1.0, 1.05]) * sd["v_mp"]
     i, eq = thevenin_at(system, g, t, v)
     # Reference: a central difference of pvlib.pvsystem.i_from_v gives dI/dV; R_th = -dV/dI.

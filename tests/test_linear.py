@@ -34,8 +34,8 @@ def test_efficiency_is_m_over_one_plus_m():
 def test_linearise_on_pvlibs_curve_gives_the_tangent_and_its_laws(demo_module):
     # Reference: the module's I-V curve from pvlib (singlediode key points and
     # i_from_v, tests/reference.py), its slope by central difference.
-    groups = [ref.group(ref.desoto(demo_module.parameters, 800.0, 45.0), 1, 1)]
-    points = ref.key_points(ref.desoto(demo_module.parameters, 800.0, 45.0))
+    groups = [ref.group(ref.diode_at(demo_module.parameters, 800.0, 45.0), 1, 1)]
+    points = ref.key_points(ref.diode_at(demo_module.parameters, 800.0, 45.0))
     v_mp, i_mp, v_oc = float(points["v_mp"]), float(points["i_mp"]), float(points["v_oc"])
     v = np.array([0.5 * v_mp, v_mp, 0.98 * v_oc])
     i = np.array([ref.array_current(groups, x) for x in v])

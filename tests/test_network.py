@@ -20,7 +20,7 @@ def _network(module, g, t, n_s, n_p, r_string=None, r_home=None):
 
 def _reference_groups(module, g, t, n_s, n_p, row, r_string=None, r_home=None):
     """The network's groups at one condition, from pvlib alone (tests/reference.py)."""
-    diode = ref.desoto(module.parameters, np.atleast_2d(g)[row], np.atleast_2d(t)[row])
+    diode = ref.diode_at(module.parameters, np.atleast_2d(g)[row], np.atleast_2d(t)[row])
     k = len(n_s)
     r_string = np.zeros(k) if r_string is None else r_string
     r_home = np.zeros(k) if r_home is None else r_home
@@ -34,7 +34,7 @@ def test_single_group_key_points_match_pvlib_singlediode(demo_module, rng):
     g[:10] = 0.0
     t = rng.uniform(-40, 90, (n, 1))
     net = _network(demo_module, g, t, [4], [3])
-    points = ref.key_points(ref.desoto(demo_module.parameters, g[:, 0], t[:, 0]), 4, 3)
+    points = ref.key_points(ref.diode_at(demo_module.parameters, g[:, 0], t[:, 0]), 4, 3)
     oc = solve_thevenin(net, 0.0, np.inf)
     sc = solve_at_bus_voltage(net, 0.0)
     mp = solve_max_power(net)

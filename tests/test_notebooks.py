@@ -37,7 +37,7 @@ def test_thevenin_view_shows_maximum_power_transfer(monkeypatch):
     nb = run_notebook("thevenin-view.ipynb", monkeypatch)
     system, m, p, eta, generated, m_bank = (nb[k] for k in ("system", "m", "p", "eta", "generated", "m_bank"))
     # Reference: pvlib's singlediode for three modules in parallel at 800 W/m2, 45 degC.
-    diode = ref.desoto(system.module.parameters, 800.0, 45.0)
+    diode = ref.diode_at(system.module.parameters, 800.0, 45.0)
     p_mp = float(ref.key_points(diode, 1, 3)["p_mp"])
     assert nb["p_mp"] == pytest.approx(p_mp, rel=1e-9)
     # "The array's own generated power peaks at m = 1, at its maximum power
@@ -64,7 +64,7 @@ def test_season_study_curtails_on_summer_middays_above_the_mpp(monkeypatch):
     (group,) = system.groups
     g = steps[f"group_{group.name}_irradiance_w_m2"].to_numpy()
     t = steps[f"group_{group.name}_cell_temp_c"].to_numpy()
-    points = ref.key_points(ref.desoto(system.module.parameters, g, t), group.modules_per_string, group.strings)
+    points = ref.key_points(ref.diode_at(system.module.parameters, g, t), group.modules_per_string, group.strings)
     # The energy at the MPPs is pvlib's P_mp at each step's conditions, summed
     # over the year's hours (reference: pvlib.pvsystem.singlediode).
     assert summary["energy_mpp_kwh"] == pytest.approx(np.sum(points["p_mp"]) * summary["step_h"] / 1000, rel=1e-6)

@@ -87,7 +87,7 @@ def test_linearisation_is_the_tangent_of_pvlibs_curve(demo_module):
     system = make_system(demo_module, groups=((1, 3),), cables=(cable("feeder", 12, 3.4),),
                          load=Load("battery", emf_v=26.4, resistance_ohm=0.03))
     r = operating_points(system, 800.0, 45.0).iloc[0]
-    groups = [ref.group(ref.desoto(demo_module.parameters, 800.0, 45.0), 1, 3)]
+    groups = [ref.group(ref.diode_at(demo_module.parameters, 800.0, 45.0), 1, 3)]
     assert r["i"] == pytest.approx(ref.array_current(groups, r["v"]), rel=1e-9)
     r_tangent = 1.0 / ref.conductance(groups, r["v"])
     assert r["thevenin_r_ohm"] == pytest.approx(r_tangent, rel=1e-6)
@@ -196,7 +196,7 @@ def test_hard_but_valid_systems_solve_and_balance(demo_module, groups, load):
     assert np.abs(df["energy_balance_residual"]).max() <= 1e-9
     e, r = load.thevenin()
     for k in range(len(g)):
-        diode = ref.desoto(demo_module.parameters, g[k], 25.0)
+        diode = ref.diode_at(demo_module.parameters, g[k], 25.0)
         ref_groups = [ref.group(diode, n_s, n_p, index=m) for m, (n_s, n_p) in enumerate(groups)]
         if r == 0.0:
             # Stiff bus: check the other way round, since pvlib's i_from_v

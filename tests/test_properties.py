@@ -76,7 +76,7 @@ def test_the_linearisation_is_exact_at_the_point_and_second_order_near_it(demo_m
     # i_from_v (tests/reference.py), not pvsource's solver.
     system = make_system(demo_module, groups=((3, 2),), load=Load("resistor", resistance_ohm=r))
     row = operating_points(system, g, t).iloc[0]
-    groups = [ref.group(ref.desoto(demo_module.parameters, g, t), 3, 2)]
+    groups = [ref.group(ref.diode_at(demo_module.parameters, g, t), 3, 2)]
     assert row["i"] == pytest.approx(ref.array_current(groups, row["v"]), rel=1e-9, abs=1e-9)
     errors = []
     for h in (0.02, 0.01):
