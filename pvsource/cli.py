@@ -444,10 +444,18 @@ def demo(
                                                                 "one-minute steps; steps.parquet always has them).")] = False,
     force: Annotated[bool, typer.Option("--force", help="Write into a folder that already holds files.")] = False,
     as_json: Annotated[bool, typer.Option("--json", help="Print the summary as one JSON object.")] = False,
+    days: Annotated[Optional[int], typer.Option(
+        "--days", metavar="N", help="Study only the first N days of the year (1 to 365), for a quick look.")] = None,
 ):
     """The whole season study on the built-in invented cabin and a synthetic, reproducible weather year."""
+    if days is not None and not 1 <= days <= 365:
+        raise InputError("--days", None, f"expected a whole number of days from 1 to 365, got {days}")
     system = demo_system()
     weather = synthetic_weather(system)
+    if days is not None:
+        import pandas as pd
+
+        weather = weather[weather.index < weather.index[0] + pd.Timedelta(days=days)]
     _season_outputs(system, weather, out, force, "perez", as_json, steps_csv=steps_csv)
 
 

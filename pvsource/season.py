@@ -21,9 +21,8 @@ from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
-from numba import njit
-
 from pvsource import bank as bank_model
+from pvsource.compiled import kernel
 from pvsource.errors import InputError
 from pvsource.module import model_notes
 from pvsource.operating import CHUNK_SIZE, operating_points
@@ -84,7 +83,7 @@ def group_conditions(system: System, weather: pd.DataFrame, transposition: str =
     return np.clip(np.stack(irr, axis=-1), 0.0, 2000.0), np.stack(temp, axis=-1), poa
 
 
-@njit(cache=True)
+@kernel
 def _soc_kernel(grid, free, emf, loads, per_ah, coulombic, soc0, kind, limits):  # pragma: no cover - compiled
     # limits: controller current, bank charge current, acceptance start, R,
     # absorption V, float V, float state of charge.

@@ -466,3 +466,15 @@ def test_every_hint_in_a_weather_message_names_an_option_that_exists():
     assert named, "the scan found no hints at all"
     for command in ("season", "explore", "fleet"):
         assert named <= _options(command), (command, named - _options(command))
+
+
+def test_demo_days_shortens_the_year(capsys, tmp_path):
+    code, out, err = run(capsys, "demo", "--days", "2", "--out", str(tmp_path / "demo"), "--json")
+    assert code == 0, err
+    rec = json.loads(out)
+    # Two days of hourly steps, from the first hour of the synthetic year.
+    assert rec["steps"] == 48 and rec["step_h"] == 1.0
+    assert rec["start"][:16].replace("T", " ") == "2025-01-01 00:00"
+    code, out, err = run(capsys, "demo", "--days", "0", "--out", str(tmp_path / "none"))
+    assert code == 2 and out == "" and err.count("\n") == 1 and "--days" in err
+    assert not (tmp_path / "none").exists()
