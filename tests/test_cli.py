@@ -164,8 +164,11 @@ def test_readme_quick_start_has_exactly_two_commands():
     commands = re.findall(r"```(?:sh|bash|console)?\n(.*?)```", section, re.S)
     lines = [ln for block in commands for ln in block.strip().splitlines() if ln.strip()]
     assert len(lines) == 2
-    ci = (ROOT / ".ci" / "run").read_text()
-    assert lines[1].strip() in ci  # CI runs the README's test command
+    # CI reads and runs exactly these two commands, in this order.
+    ci = subprocess.run(["bash", str(ROOT / ".ci" / "run"), "--commands"], capture_output=True, text=True,
+                        timeout=60)
+    assert ci.returncode == 0, ci.stderr
+    assert ci.stdout.splitlines() == [ln.strip() for ln in lines]
 
 
 def test_wire_on_a_system_file_reports_every_run(capsys):
