@@ -244,6 +244,22 @@ def test_check_json_lists_the_checks_with_their_basis(capsys):
     assert rec["all_passed"] is False
 
 
+def test_check_takes_the_cell_rise_from_noct_unless_given(capsys):
+    # Reference, worked out by hand: the example module's NOCT is 45 degC
+    # (its file), so the rise in full sun is (45 - 20) x 1000/800 = 31.25 degC
+    # (NOCT conditions, IEC 61215-2: 800 W/m2, 20 degC air).
+    _, out, _ = run(capsys, "check", EXAMPLE, "--min-temp", "-15", "--max-temp", "38", "--json")
+    rec = json.loads(out)
+    vmp = next(c for c in rec["checks"] if c["name"] == "min_string_vmp")
+    assert rec["cell_rise_c"] == pytest.approx(31.25) and "NOCT 45" in rec["cell_rise_basis"]
+    assert "38 + 31.25 = 69.25 degC" in vmp["detail"] and "NOCT 45" in vmp["basis"]
+    _, out, _ = run(capsys, "check", EXAMPLE, "--min-temp", "-15", "--max-temp", "38", "--cell-rise", "35", "--json")
+    rec = json.loads(out)
+    assert rec["cell_rise_c"] == 35.0 and "as given" in rec["cell_rise_basis"]
+    _, out, _ = run(capsys, "check", EXAMPLE, "--min-temp", "-15", "--max-temp", "38")
+    assert "31.25 degC above the air in full sun, from the module's NOCT" in out
+
+
 def test_check_cold_voc_of_a_cec_library_module(capsys, tmp_path):
     # Reference: the CEC module library that pvlib ships (an open dataset). A
     # string of two of its 60-cell modules at -15 degC.

@@ -24,10 +24,10 @@ def _two_group_system(module, load):
 
 
 @pytest.mark.parametrize("load", LOADS, ids=lambda l: l.kind)
-def test_kvl_kcl_and_energy_balance_hold_on_every_solve(demo_module, rng, load):
+def test_kvl_kcl_and_energy_balance_hold_on_every_solve(any_module, rng, load):
     # Laws: Kirchhoff's voltage and current laws and conservation of energy
     # (generated = every cable loss + delivered) to 1e-9 relative.
-    system = _two_group_system(demo_module, load)
+    system = _two_group_system(any_module, load)
     n = 400
     df = operating_points(system, rng.uniform(0, 1300, (n, 2)), rng.uniform(-30, 85, (n, 2)))
     assert df["converged"].all()
@@ -50,9 +50,9 @@ def test_superposition_shares_sum_to_the_solved_current(demo_module, rng, load):
     np.testing.assert_allclose(df["superposition_total_a"], df["i"], rtol=1e-9, atol=1e-9)
 
 
-def test_maximum_power_transfer_condition_at_the_mpp(demo_module, rng):
+def test_maximum_power_transfer_condition_at_the_mpp(any_module, rng):
     # Law: at the maximum power point dP/dV = 0, so R_th = V / I (m = 1).
-    system = make_system(demo_module, groups=((3, 2), (3, 1)), load=Load("mpp"))
+    system = make_system(any_module, groups=((3, 2), (3, 1)), load=Load("mpp"))
     df = operating_points(system, rng.uniform(30, 1200, (300, 2)), rng.uniform(-20, 75, (300, 2)))
     np.testing.assert_allclose(df["thevenin_r_ohm"], df["v"] / df["i"], rtol=1e-6)
     np.testing.assert_allclose(df["matching_ratio"], 1.0, rtol=1e-6)
@@ -80,14 +80,14 @@ def test_a_tracker_behind_a_feeder_sees_m_equal_one_at_its_terminals(demo_module
     assert (df["matching_ratio"] > 1.0).all()  # the array itself sits above its own V_mp
 
 
-def test_linearisation_is_the_tangent_of_pvlibs_curve(demo_module):
+def test_linearisation_is_the_tangent_of_pvlibs_curve(any_module):
     # Reference: the array's I-V curve from pvlib's i_from_v (tests/reference.py):
     # R_th = -dV/dI there by central difference, and the exact currents at
     # +/- 10 % of the bus voltage.
-    system = make_system(demo_module, groups=((1, 3),), cables=(cable("feeder", 12, 3.4),),
+    system = make_system(any_module, groups=((1, 3),), cables=(cable("feeder", 12, 3.4),),
                          load=Load("battery", emf_v=26.4, resistance_ohm=0.03))
     r = operating_points(system, 800.0, 45.0).iloc[0]
-    groups = [ref.group(ref.diode_at(demo_module.parameters, 800.0, 45.0), 1, 3)]
+    groups = [ref.group(ref.diode_at(any_module.parameters, 800.0, 45.0), 1, 3)]
     assert r["i"] == pytest.approx(ref.array_current(groups, r["v"]), rel=1e-9)
     r_tangent = 1.0 / ref.conductance(groups, r["v"])
     assert r["thevenin_r_ohm"] == pytest.approx(r_tangent, rel=1e-6)
@@ -105,6 +105,20 @@ def test_linearisation_is_the_tangent_of_pvlibs_curve(demo_module):
         assert rec[tag]["i_linear_a"] == pytest.approx(tangent, rel=1e-6)
         # Law: a concave curve lies below its tangent, so the linear model over-predicts on both sides.
         assert tangent > exact
+
+
+def test_source_key_points_match_pvlib_for_a_single_group(any_module, rng):
+    # Reference: pvlib.pvsystem.calcparams_cec (with the six-parameter
+    # module's adjustment) and singlediode (lambertw), scaled by 3 in series
+    # and 2 in parallel (tests/reference.py).
+    system = make_system(any_module, groups=((3, 2),), cables=(cable("feeder", 20, 3.4),),
+                         load=Load("battery", emf_v=80.0, resistance_ohm=0.05))
+    g, t = rng.uniform(10, 1200, 100), rng.uniform(-20, 80, 100)
+    df = operating_points(system, g, t)
+    points = ref.key_points(ref.diode_at(any_module.parameters, g, t), 3, 2)
+    np.testing.assert_allclose(df["source_v_oc"], points["v_oc"], rtol=1e-9)
+    np.testing.assert_allclose(df["source_i_sc"], points["i_sc"], rtol=1e-9)
+    np.testing.assert_allclose(df["source_p_mp"], points["p_mp"], rtol=1e-9)
 
 
 def test_direct_coupled_battery_trades_power_for_position_on_the_curve(demo_module):
