@@ -102,6 +102,15 @@ class Check:
         return self.passed is False and not self.advisory
 
     @property
+    def verdict(self) -> str:
+        """Status code for the edges: ``pass``, ``fail``, ``advisory`` (failed but advisory) or ``none``."""
+        if self.passed is None:
+            return "none"
+        if self.passed:
+            return "pass"
+        return "advisory" if self.advisory else "fail"
+
+    @property
     def margin(self) -> float | None:
         """Headroom as a fraction of the limit; negative when failed."""
         if self.limit is None or self.limit == 0:
@@ -114,6 +123,7 @@ class Check:
         rec = asdict(self)
         rec.update(rec.pop("data"))
         rec["margin"] = self.margin
+        rec["verdict"] = self.verdict
         return rec
 
     def reason(self) -> str:

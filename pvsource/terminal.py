@@ -317,8 +317,7 @@ def render_checks(system: System, rec: dict) -> str:
              + (", from the module's NOCT)" if "NOCT" in rec.get("cell_rise_basis", "") else ")")]
     lines.append(_rule("Checks"))
     for c in rec["checks"]:
-        state = "note" if c.get("advisory") and c["passed"] is False else \
-            {True: "pass", False: "FAIL", None: "----"}[c["passed"]]
+        state = {"pass": "pass", "fail": "FAIL", "advisory": "note", "none": "----"}[c["verdict"]]
         limit = "no limit given" if c["limit"] is None else f"{'<=' if c['sense'] == 'max' else '>='} " \
                                                              f"{c['limit']:.2f} {c['unit']}"
         margin = "" if c["margin"] is None else f"  margin {100 * c['margin']:+.1f} %"
