@@ -55,6 +55,8 @@ app = typer.Typer(
     add_completion=False,
     no_args_is_help=True,
     pretty_exceptions_enable=False,
+    # Plain help text: rich markup would eat the units in brackets, "[degC]" and "[m]".
+    rich_markup_mode=None,
 )
 
 

@@ -497,3 +497,14 @@ def test_demo_days_shortens_the_year(capsys, tmp_path):
     code, out, err = run(capsys, "demo", "--days", "0", "--out", str(tmp_path / "none"))
     assert code == 2 and out == "" and err.count("\n") == 1 and "--days" in err
     assert not (tmp_path / "none").exists()
+
+
+@pytest.mark.parametrize("command", ["wire", "check"])
+def test_help_keeps_the_units_in_brackets(capsys, command):
+    # Units in brackets are the project's convention for every option (DEVELOPERS.md); rich markup read
+    # "[degC]" and "[m]" as tags and printed "Design cell temperature ;".
+    code, text, _ = run_cli(capsys, command, "--help")
+    flat = " ".join(text.split())
+    assert code == 0 and "Insulation temperature rating [degC]" in flat and "the runs [degC]" in flat
+    if command == "wire":
+        assert "conductor circuit [m]" in flat and "Design cell temperature [degC]" in flat
