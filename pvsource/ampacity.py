@@ -284,7 +284,8 @@ def smallest_size_for_current(max_circuit_current_a: float, series: str, materia
     """Smallest standard size of a series whose ampacity carries ``max_circuit_current_a`` (I_max) [A].
 
     Each of ``conductors_in_parallel`` conductors carries an equal share.
-    Sizes the tables lack are skipped.
+    Sizes the tables lack are skipped, and so are small conductors whose NEC
+    240.4(D) protection limit is below the circuit's smallest fuse.
 
     Returns
     -------
@@ -305,6 +306,11 @@ def smallest_size_for_current(max_circuit_current_a: float, series: str, materia
                 continue
             raise
         largest = (s, amp)
+        # The circuit's fuse is at least 1.25 x I_max, rounded up (NEC 690.9(B), 240.6(A)); a small
+        # conductor may not sit behind a fuse above its 240.4(D) limit, whatever its table ampacity.
+        small = SMALL_CONDUCTOR_MAX_A.get((s.label, material))
+        if small is not None and next_standard_rating(CONTINUOUS_FACTOR * share) > small:
+            continue
         if CONTINUOUS_FACTOR * share <= amp.limit_a:
             return s, amp
     biggest = f"the largest tabulated, {largest[0].label}, carries {largest[1].max_circuit_current_a:.0f} A" \

@@ -99,9 +99,10 @@ def test_nec_690_8_pv_source_circuit_example():
     # NEC 690.8 worked by hand: Isc 10 A gives I_max = 12.5 A and 15.6 A for the
     # conductor. 14 AWG 90 °C copper at 40 °C: the 75 °C termination column
     # holds 20 A >= 15.6 A (690.8(B)(1)), and 25 A x 0.91 = 22.75 A >= 12.5 A
-    # (690.8(B)(2)). 18 and 16 AWG have no 75 °C value, so 14 AWG is the smallest.
+    # (690.8(B)(2)), but its fuse, at least 15.6 A and so 20 A (690.9(B), 240.6(A)), is above 14 AWG's
+    # 15 A of 240.4(D) (from memory). 12 AWG (20 A limit) takes it: 30 A x 0.91 = 27.3 A.
     size, a = amp.smallest_size_for_current(12.5, "awg", "copper", Installation(90, 40.0, 2, "raceway", 75))
-    assert size.label == "14 AWG" and a.corrected_a == pytest.approx(22.75)
+    assert size.label == "12 AWG" and a.corrected_a == pytest.approx(27.3)
     # 32 A maximum current (40 A for the conductor) in a 75 °C column: 8 AWG (50 A),
     # since 10 AWG's 35 A falls short.
     size, _ = amp.smallest_size_for_current(32.0, "awg", "copper", Installation(90, 30.0, 2, "raceway", 75))
@@ -186,3 +187,15 @@ def test_every_table_value_has_a_source():
         with open(path, newline="", encoding="utf-8") as fh:
             rows = list(csv.DictReader(fh))
         assert rows and all(r["source"].strip() for r in rows), path.name
+
+
+def test_size_by_ampacity_keeps_small_conductors_behind_their_240_4_d_fuse():
+    # NEC 2023 240.4(D) (from memory): 14 AWG Cu at most 15 A, 12 AWG Cu 20 A, 10 AWG Cu 30 A. A 20 A PV
+    # circuit needs a fuse of at least 1.25 x 20 = 25 A (690.9(B), 240.6(A)). In free air, 310.17's 75 degC
+    # column gives 14 AWG Cu 30 A, enough for 1.25 x 20 A, yet 14 and 12 AWG cannot sit behind a 25 A fuse.
+    free_air = Installation(90, 30.0, 2, "free-air", 75)
+    size, _ = amp.smallest_size_for_current(20.0, "awg", "copper", free_air)
+    assert size.label == "10 AWG"
+    # 8 A needs a 10 A fuse, within 14 AWG's 15 A: the small size stays allowed.
+    size, _ = amp.smallest_size_for_current(8.0, "awg", "copper", free_air)
+    assert size.label == "14 AWG"
