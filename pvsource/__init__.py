@@ -10,20 +10,37 @@ The library's front door:
 - :func:`read_weather` reads a weather CSV, TMY3 or EPW file, and
   :func:`run_season` runs the season study (per-step table and summary);
 - :func:`demo_system` and :func:`synthetic_weather` give the built-in demo.
+
+These names are imported on first use (PEP 562), so ``import pvsource`` and
+``pvsource --version`` do not load pandas, pvlib, scipy or matplotlib.
 """
 
-from pvsource.config import load_module, load_system
-from pvsource.demo import demo_system, synthetic_weather
-from pvsource.errors import ConvergenceError, InputError, PhysicsGuardError
-from pvsource.operating import operating_points
-from pvsource.season import SeasonResult, run_season
-from pvsource.system import Load, System
-from pvsource.weather import read_weather
+from importlib import import_module
 
 __version__ = "0.1.0"
 
-__all__ = [
-    "ConvergenceError", "InputError", "Load", "PhysicsGuardError", "SeasonResult", "System",
-    "demo_system", "load_module", "load_system", "operating_points", "read_weather", "run_season",
-    "synthetic_weather", "__version__",
-]
+# Public name -> the module that defines it.
+_EXPORTS = {
+    "load_module": "pvsource.config", "load_system": "pvsource.config",
+    "demo_system": "pvsource.demo", "synthetic_weather": "pvsource.demo",
+    "ConvergenceError": "pvsource.errors", "InputError": "pvsource.errors", "PhysicsGuardError": "pvsource.errors",
+    "operating_points": "pvsource.operating",
+    "SeasonResult": "pvsource.season", "run_season": "pvsource.season",
+    "Load": "pvsource.system", "System": "pvsource.system",
+    "read_weather": "pvsource.weather",
+}
+
+__all__ = sorted([*_EXPORTS, "__version__"])
+
+
+def __getattr__(name: str):
+    module = _EXPORTS.get(name)
+    if module is None:
+        raise AttributeError(f"module 'pvsource' has no attribute {name!r}")
+    value = getattr(import_module(module), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__():
+    return sorted({*globals(), *_EXPORTS})

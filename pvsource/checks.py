@@ -41,11 +41,9 @@ from pvsource import ampacity as amp
 from pvsource import conductors
 from pvsource.module import STC_CELL_TEMP_C, STC_IRRADIANCE_W_M2, parameters_at
 from pvsource.system import System
+from pvsource.units import DEFAULT_CELL_RISE_C
 from pvsource.wiring import PV_SIDE_ROLES, run_ampacity
 
-# Common practice: in full sun, cells of rack- or roof-mounted modules run
-# some 25-35 degC above the air; the high end makes the low-Vmp check cautious.
-DEFAULT_CELL_RISE_C = 35.0
 # NOCT is measured at 800 W/m2, 20 degC air and 1 m/s wind on an open rack
 # (IEC 61215); the rise scales with irradiance (Ross's linear model).
 NOCT_IRRADIANCE_W_M2 = 800.0

@@ -3,6 +3,15 @@
 Every input problem ends as one line on stderr and exit code 2; a solver that
 cannot give a trustworthy number ends with one line and exit code 1. Nothing
 here computes physics.
+
+The numerical libraries (numpy, pandas, pvlib, scipy, matplotlib, numba,
+pyarrow) are imported inside the commands that use them, so ``--version`` and
+``--help`` answer at once (``bench/bench_startup.py`` measures it).
+
+Option names follow one rule: an option that sets a key of the system file or
+of the JSON output is spelt like that key, with hyphens (``--cell-temp-c``,
+``--irradiance-w-m2``, ``--min-air-c``); every temperature option ends in
+``-c`` [degC]. Earlier spellings still work (:data:`OPTION_ALIASES`).
 """
 
 from __future__ import annotations
@@ -12,6 +21,7 @@ import math
 import sys
 import warnings
 from dataclasses import replace
+from enum import StrEnum
 from pathlib import Path
 from typing import Annotated, Optional
 
@@ -27,25 +37,10 @@ _EXITS = tuple({typer.Exit, getattr(_cli_errors, "Exit", typer.Exit)})
 _ABORTS = tuple({typer.Abort, getattr(_cli_errors, "Abort", typer.Abort), KeyboardInterrupt})
 
 from pvsource import __version__, cautions
-from pvsource.ampacity import (
-    DEFAULT_AMBIENT_C, DEFAULT_CONDUCTORS_TOGETHER, DEFAULT_INSTALL, DEFAULT_INSULATION_C, Installation,
-    check_installation,
-)
-from pvsource.checks import all_passed, cell_rise, design_checks, design_currents
-from pvsource.config import load_module, load_system
 from pvsource.errors import ConvergenceError, InputError, PhysicsGuardError
-from pvsource.module import model_notes
-from pvsource.operating import CELL_TEMP_RANGE_C, IRRADIANCE_RANGE_W_M2, operating_points, point_record
-from pvsource.demo import demo_system, synthetic_weather
-from pvsource.plots import sweep_figure
-from pvsource.report import json_ready, prepare_folder, write_report
-from pvsource.season import run_season
-from pvsource.runs import DEFAULT_DROP_BUDGET, FOOT_M, quick_record, wire_record
-from pvsource.sweep import run_sweep
-from pvsource.system import Load
-from pvsource.terminal import (
-    fit_record, render_checks, render_explore, render_fit, render_point, render_quick_wire, render_season,
-    render_sweep, render_wire,
+from pvsource.units import (
+    CELL_TEMP_RANGE_C, IRRADIANCE_RANGE_W_M2, design_irradiance_note, irradiance_hint,
+    temperature_hint, with_hint,
 )
 
 app = typer.Typer(
@@ -55,9 +50,40 @@ app = typer.Typer(
     add_completion=False,
     no_args_is_help=True,
     pretty_exceptions_enable=False,
-    # Plain help text: rich markup would eat the units in brackets, "[degC]" and "[m]".
+    # Plain help: Rich markup would read "[degC]" or "[site]" as a style tag and drop it.
     rich_markup_mode=None,
 )
+
+# Earlier spellings of options, still accepted; help shows only the current name.
+OPTION_ALIASES = {"--irradiance": "--irradiance-w-m2", "--cell-temp": "--cell-temp-c",
+                  "--min-temp": "--min-air-c", "--max-temp": "--max-air-c", "--cell-rise": "--cell-rise-c"}
+
+
+def _choices(name: str, values) -> type[StrEnum]:
+    """A fixed set of option values, listed as such in the help and checked by the parser."""
+    return StrEnum(name, {v: v for v in values}, module=__name__)
+
+
+BadRows = _choices("BadRows", ("fail", "fill", "skip"))
+TRANSPOSITIONS = ("perez", "haydavies", "isotropic")
+Transposition = _choices("Transposition", TRANSPOSITIONS)
+TIME_LABELS = ("start", "middle", "end", "instant")
+TimeLabel = _choices("TimeLabel", TIME_LABELS)
+Material = _choices("Material", ("copper", "aluminium", "aluminum"))
+Engine = _choices("Engine", ("local", "dask"))
+ResistanceBasis = _choices("ResistanceBasis", ("table", "computed"))
+Install = _choices("Install", ("raceway", "free-air", "A1", "A2", "B1", "B2", "C", "E"))
+
+
+def _with_aliases(argv: list[str]) -> list[str]:
+    """``argv`` with earlier option spellings replaced by the current ones (up to a ``--``)."""
+    out = []
+    for k, arg in enumerate(argv):
+        if arg == "--":
+            return out + argv[k:]
+        name, sep, value = arg.partition("=")
+        out.append(OPTION_ALIASES.get(name, name) + sep + value if name in OPTION_ALIASES else arg)
+    return out
 
 
 def _version(value: bool):
@@ -75,6 +101,8 @@ def _root(
 
 
 def _emit_json(obj) -> None:
+    from pvsource.report import json_ready
+
     typer.echo(json.dumps(json_ready(obj), indent=2, allow_nan=False))
 
 
@@ -111,8 +139,8 @@ def parse_condition(values: list[str] | None, option: str):
 
 
 CONDITION_OPTIONS = {
-    "--irradiance": ("irradiance_w_m2", IRRADIANCE_RANGE_W_M2, "W/m2"),
-    "--cell-temp": ("cell_temp_c", CELL_TEMP_RANGE_C, "degC"),
+    "--irradiance-w-m2": ("irradiance_w_m2", IRRADIANCE_RANGE_W_M2, "W/m2"),
+    "--cell-temp-c": ("cell_temp_c", CELL_TEMP_RANGE_C, "degC"),
 }
 
 
@@ -136,29 +164,44 @@ def _conditions_for(system, parsed, option: str, default=None):
         if values[g.name] is None:
             raise InputError(system.source, f"group {g.name!r}",
                              f"has no {attr} in the file; give it there or with {option}")
-        if not lo <= values[g.name] <= hi:
-            raise InputError(option, None, f"expected {lo:g} to {hi:g} {unit} for group {g.name!r}, "
-                                           f"got {values[g.name]:g}")
+        value = values[g.name]
+        if not lo <= value <= hi:
+            hint = irradiance_hint(value) if attr == "irradiance_w_m2" else temperature_hint(value, lo, hi)
+            raise InputError(option, None, with_hint(f"expected {lo:g} to {hi:g} {unit} for group {g.name!r}, "
+                                                     f"got {value:g}", hint))
+        if attr == "irradiance_w_m2" and parsed is not None and value != getattr(g, attr):
+            _note(option, design_irradiance_note(value))
     return values
+
+
+def _note(where: str, text: str | None) -> None:
+    """A remark on stderr that does not stop the command (an implausible but possible value)."""
+    if text:
+        sys.stderr.write(f"pvsource: note: {where}: {text}\n")
 
 
 @app.command()
 def point(
     system_file: Annotated[Path, typer.Argument(metavar="SYSTEM.toml", help="The system file.")],
     irradiance: Annotated[Optional[list[str]], typer.Option(
-        "--irradiance", metavar="W_M2|GROUP=W_M2",
+        "--irradiance-w-m2", metavar="W_M2|GROUP=W_M2",
         help="Effective irradiance [W/m2]; repeat as GROUP=VALUE for per-group values. "
              "Default: the system file's.")] = None,
     cell_temp: Annotated[Optional[list[str]], typer.Option(
-        "--cell-temp", metavar="C|GROUP=C",
+        "--cell-temp-c", metavar="C|GROUP=C",
         help="Cell temperature [degC]; repeat as GROUP=VALUE for per-group values. "
              "Default: the system file's.")] = None,
     as_json: Annotated[bool, typer.Option("--json", help="Print one JSON object (SI units) instead of tables.")] = False,
 ):
     """Solve the operating point at one set of conditions and show the array's Thevenin/Norton view."""
+    from pvsource.config import load_system
+    from pvsource.module import model_notes
+    from pvsource.operating import operating_points, point_record
+    from pvsource.terminal import render_point
+
     system = load_system(system_file)
-    g = _conditions_for(system, parse_condition(irradiance, "--irradiance"), "--irradiance")
-    t = _conditions_for(system, parse_condition(cell_temp, "--cell-temp"), "--cell-temp")
+    g = _conditions_for(system, parse_condition(irradiance, "--irradiance-w-m2"), "--irradiance-w-m2")
+    t = _conditions_for(system, parse_condition(cell_temp, "--cell-temp-c"), "--cell-temp-c")
     frame = operating_points(system, g, t)
     rec = point_record(system, frame.iloc[0])
     rec["notes"] = model_notes(system.module)
@@ -179,14 +222,22 @@ INSTALL_HELP = {
     "install": "raceway (NEC 310.16; IEC method B1) or free-air (NEC 310.17; IEC method E), or an IEC method A1, A2, "
                "B1, B2, C, E for metric sizes. Default raceway.",
 }
-InsulationOpt = Annotated[float, typer.Option("--insulation-c", help=INSTALL_HELP["insulation_c"])]
-AmbientOpt = Annotated[float, typer.Option("--ambient-c", help=INSTALL_HELP["ambient_c"])]
-TogetherOpt = Annotated[int, typer.Option("--conductors-together", help=INSTALL_HELP["conductors_together"])]
-InstallOpt = Annotated[str, typer.Option("--install", help=INSTALL_HELP["install"])]
+# The installation's defaults live with the ampacity tables; None here means "the default".
+InsulationOpt = Annotated[Optional[float], typer.Option("--insulation-c", help=INSTALL_HELP["insulation_c"])]
+AmbientOpt = Annotated[Optional[float], typer.Option("--ambient-c", help=INSTALL_HELP["ambient_c"])]
+TogetherOpt = Annotated[Optional[int], typer.Option("--conductors-together", help=INSTALL_HELP["conductors_together"])]
+InstallOpt = Annotated[Optional[Install], typer.Option("--install", help=INSTALL_HELP["install"])]
 
 
-def _installation(insulation_c, ambient_c, together, install) -> Installation:
-    """The command's installation defaults, checked; errors name the option."""
+def _installation(insulation_c, ambient_c, together, install):
+    """The command's installation (``ampacity.Installation``), defaults filled in and checked; errors name the option."""
+    from pvsource import ampacity
+    from pvsource.ampacity import Installation, check_installation
+
+    insulation_c = ampacity.DEFAULT_INSULATION_C if insulation_c is None else insulation_c
+    ambient_c = ampacity.DEFAULT_AMBIENT_C if ambient_c is None else ambient_c
+    together = ampacity.DEFAULT_CONDUCTORS_TOGETHER if together is None else together
+    install = ampacity.DEFAULT_INSTALL if install is None else str(install)
     inst = Installation(insulation_c=insulation_c, ambient_c=ambient_c, conductors_together=together, install=install)
     try:
         return check_installation(inst, "", {"insulation_c": "--insulation-c", "ambient_c": "--ambient-c",
@@ -206,14 +257,14 @@ def _budget_fraction(budget_pct):
 @app.command()
 def wire(
     system_file: Annotated[Optional[Path], typer.Argument(
-        metavar="[SYSTEM.toml]", help="The system file; leave out for one run given by the options below.")] = None,
+        metavar="SYSTEM.toml", help="The system file; leave out for one run given by the options below.")] = None,
     budget_pct: Annotated[Optional[float], typer.Option(
         "--budget-pct", help="Voltage-drop budget per circuit [% of the circuit voltage]; the PV side and the "
                              "battery side of a controller each have their own. Default 3 (common practice).")] = None,
     irradiance: Annotated[Optional[list[str]], typer.Option(
-        "--irradiance", metavar="W_M2|GROUP=W_M2", help="Design irradiance [W/m2]; default 1000 (STC).")] = None,
+        "--irradiance-w-m2", metavar="W_M2|GROUP=W_M2", help="Design irradiance [W/m2]; default 1000 (STC).")] = None,
     cell_temp: Annotated[Optional[list[str]], typer.Option(
-        "--cell-temp", metavar="C|GROUP=C", help="Design cell temperature [degC]; default 25 (STC).")] = None,
+        "--cell-temp-c", metavar="C|GROUP=C", help="Design cell temperature [degC]; default 25 (STC).")] = None,
     at_mpp: Annotated[bool, typer.Option(
         "--at-mpp", help="Put the array at its maximum power point instead of the system's own load or bank.")] = False,
     current: Annotated[Optional[float], typer.Option(
@@ -225,22 +276,26 @@ def wire(
         "--length-ft", help="One run: the one-way length in feet, instead of --length-m.")] = None,
     size: Annotated[Optional[str], typer.Option(
         "--size", help='One run: conductor size, e.g. "10 AWG", "2/0 AWG", "250 kcmil", "6 mm2".')] = None,
-    material: Annotated[str, typer.Option("--material", help="One run: copper or aluminium.")] = "copper",
+    material: Annotated[Material, typer.Option("--material", help="One run: the conductor metal.")] = Material.copper,
     temp_c: Annotated[float, typer.Option("--temp-c", help="One run: conductor temperature [degC].")] = 75.0,
     volts: Annotated[Optional[float], typer.Option(
         "--volts", help="One run: circuit voltage the drop is compared with [V].")] = None,
     parallel: Annotated[int, typer.Option("--parallel", help="One run: conductors in parallel per pole.")] = 1,
-    resistance_basis: Annotated[str, typer.Option(
+    resistance_basis: Annotated[ResistanceBasis, typer.Option(
         "--resistance-basis", help="One run: table (IEC 60228 or NEC Chapter 9 Table 8, the default) or computed "
-                                   "(resistivity, area and stranding).")] = "table",
-    insulation_c: InsulationOpt = DEFAULT_INSULATION_C,
-    ambient_c: AmbientOpt = DEFAULT_AMBIENT_C,
-    conductors_together: TogetherOpt = DEFAULT_CONDUCTORS_TOGETHER,
-    install: InstallOpt = DEFAULT_INSTALL,
+                                   "(resistivity, area and stranding).")] = ResistanceBasis.table,
+    insulation_c: InsulationOpt = None,
+    ambient_c: AmbientOpt = None,
+    conductors_together: TogetherOpt = None,
+    install: InstallOpt = None,
     as_json: Annotated[bool, typer.Option("--json", help="Print one JSON object instead of tables.")] = False,
 ):
     """Voltage drop, loss and ampacity of every cable run; the sizes by ampacity and by drop, and the larger."""
+    from pvsource.runs import DEFAULT_DROP_BUDGET, FOOT_M, quick_record, wire_record
+    from pvsource.terminal import render_quick_wire, render_wire
+
     budget = _budget_fraction(budget_pct)
+    material, resistance_basis = str(material), str(resistance_basis)
     inst = _installation(insulation_c, ambient_c, conductors_together, install)
     if length_ft is not None:
         if length_m is not None:
@@ -256,7 +311,7 @@ def wire(
         missing = [k for k in ("--current", "--length-m", "--size") if single[k] is None]
         if missing:
             raise InputError(missing[0], None, "is needed without a system file (or give SYSTEM.toml)")
-        for name, given in (("--irradiance", irradiance), ("--cell-temp", cell_temp), ("--at-mpp", at_mpp)):
+        for name, given in (("--irradiance-w-m2", irradiance), ("--cell-temp-c", cell_temp), ("--at-mpp", at_mpp)):
             if given:
                 raise InputError(name, None, "applies to a system file; one run is given by its current")
         rec = quick_record(current, length_m, size, material, temp_c, volts, budget, parallel,
@@ -267,6 +322,10 @@ def wire(
     given = [k for k, v in single.items() if v is not None]
     if given:
         raise InputError(given[0], None, "describes one run without a system file; the system file's runs are used")
+    from pvsource.config import load_system
+    from pvsource.operating import operating_points
+    from pvsource.system import Load
+
     system = load_system(system_file)
     if at_mpp:
         system = replace(system, load=Load("mpp"), bank=None)
@@ -274,10 +333,10 @@ def wire(
     # own conditions describe an example hour, not a design case.
     stc_system = replace(system, groups=tuple(replace(grp, irradiance_w_m2=None, cell_temp_c=None)
                                               for grp in system.groups))
-    g_opt = parse_condition(irradiance, "--irradiance")
-    t_opt = parse_condition(cell_temp, "--cell-temp")
-    g = _conditions_for(stc_system, g_opt, "--irradiance", default=1000.0)
-    t = _conditions_for(stc_system, t_opt, "--cell-temp", default=25.0)
+    g_opt = parse_condition(irradiance, "--irradiance-w-m2")
+    t_opt = parse_condition(cell_temp, "--cell-temp-c")
+    g = _conditions_for(stc_system, g_opt, "--irradiance-w-m2", default=1000.0)
+    t = _conditions_for(stc_system, t_opt, "--cell-temp-c", default=25.0)
     row = operating_points(system, g, t).iloc[0]
     rec = wire_record(system, row, DEFAULT_DROP_BUDGET if budget is None else budget, inst)
     if at_mpp or (system.bank is None and system.load.kind == "mpp"):
@@ -300,20 +359,28 @@ PLOT_SUFFIXES = (".png", ".svg", ".pdf")
 def sweep(
     system_file: Annotated[Path, typer.Argument(metavar="SYSTEM.toml", help="The system file.")],
     over: Annotated[str, typer.Option(
-        "--over", help="load-resistance, bank-voltage, bank-class, soc, modules, size:RUN, irradiance or cell-temp.")],
+        "--over", metavar="VARIABLE",
+        help="load_resistance_ohm, bank_emf_v (a bank wired straight to the array), bank_class_v (nominal 12/24/48 V), "
+             "soc, modules_per_string, size:RUN, irradiance_w_m2 or cell_temp_c; spelt like explore's --vary keys.")],
     start: Annotated[str, typer.Option("--from", help="First value (a size such as \"6 mm2\" for size:RUN).")],
     stop: Annotated[str, typer.Option("--to", help="Last value.")],
     steps: Annotated[int, typer.Option("--steps", help="Number of values (sizes, bank classes and modules per string step along their own series).")] = 25,
     irradiance: Annotated[Optional[list[str]], typer.Option(
-        "--irradiance", metavar="W_M2|GROUP=W_M2", help="Conditions for the sweep; default: the file's.")] = None,
+        "--irradiance-w-m2", metavar="W_M2|GROUP=W_M2", help="Conditions for the sweep; default: the file's.")] = None,
     cell_temp: Annotated[Optional[list[str]], typer.Option(
-        "--cell-temp", metavar="C|GROUP=C", help="Conditions for the sweep; default: the file's.")] = None,
+        "--cell-temp-c", metavar="C|GROUP=C", help="Conditions for the sweep; default: the file's.")] = None,
     plot: Annotated[Optional[Path], typer.Option("--plot", metavar="FILE.png|.svg|.pdf",
                                                  help="Draw power and efficiency against the swept value and "
                                                       "against the matching ratio.")] = None,
     as_json: Annotated[bool, typer.Option("--json", help="Print the rows as JSON instead of a table.")] = False,
 ):
     """Sweep one variable: delivered power, efficiency, matching ratio and charge current, exact and linearised."""
+    from pvsource.config import load_system
+    from pvsource.report import json_ready
+    from pvsource.sweep import run_sweep, variable_name
+    from pvsource.terminal import render_sweep
+
+    over = variable_name(over)
     system = load_system(system_file)
     if plot is not None:
         if plot.suffix.lower() not in PLOT_SUFFIXES:
@@ -324,15 +391,16 @@ def sweep(
         if plot.resolve() == Path(system_file).resolve():
             raise InputError("--plot", None, "would overwrite the system file")
     g = t = None
-    if irradiance is not None or over != "irradiance":
-        parsed = parse_condition(irradiance, "--irradiance")
-        g = None if parsed is None else _conditions_for(system, parsed, "--irradiance")
-    if cell_temp is not None or over != "cell-temp":
-        parsed = parse_condition(cell_temp, "--cell-temp")
-        t = None if parsed is None else _conditions_for(system, parsed, "--cell-temp")
+    if irradiance is not None or over != "irradiance_w_m2":
+        parsed = parse_condition(irradiance, "--irradiance-w-m2")
+        g = None if parsed is None else _conditions_for(system, parsed, "--irradiance-w-m2")
+    if cell_temp is not None or over != "cell_temp_c":
+        parsed = parse_condition(cell_temp, "--cell-temp-c")
+        t = None if parsed is None else _conditions_for(system, parsed, "--cell-temp-c")
     rows, design = run_sweep(system, over, start, stop, steps, g, t)
     records = json_ready(rows.to_dict(orient="records"))
     if plot is not None:
+        from pvsource.plots import sweep_figure
         sweep_figure(rows, design, plot, f"{system.name or system.source}: sweep over {over}")
     if as_json:
         _emit_json({"variable": over, "unit": design["unit"], "changes": design["changes"],
@@ -360,6 +428,10 @@ def _progress(label: str):
 
 def _season_outputs(system, weather, out: Path, force: bool, transposition: str, as_json: bool, inputs=(),
                     steps_csv: bool = False) -> None:
+    from pvsource.report import prepare_folder, write_report
+    from pvsource.season import run_season
+    from pvsource.terminal import render_season
+
     folder = prepare_folder(out, force, inputs)
     result = run_season(system, weather, transposition=transposition, progress=_progress("season"))
     write_report(folder, system, result, weather, steps_csv=steps_csv)
@@ -372,9 +444,6 @@ def _season_outputs(system, weather, out: Path, force: bool, transposition: str,
         typer.echo(render_season(system, result.summary, folder, result.notes))
 
 
-TRANSPOSITIONS = ("perez", "haydavies", "isotropic")
-TIME_LABELS = ("start", "middle", "end", "instant")  # pvsource.weather.TIME_LABELS, without importing pvlib here
-
 # The weather options: one name for one thing in season, explore and fleet.
 ColumnOption = Annotated[Optional[list[str]], typer.Option(
     "--column", metavar="NAME=CSVCOLUMN",
@@ -382,9 +451,11 @@ ColumnOption = Annotated[Optional[list[str]], typer.Option(
 TzOption = Annotated[Optional[str], typer.Option(
     "--tz", help="Time zone of naive timestamps, e.g. Etc/GMT-1 or Europe/Berlin (daylight saving becomes "
                  "standard time).")]
-BadRowsOption = Annotated[str, typer.Option("--bad-rows", help="fail, fill or skip rows that fail the checks.")]
-TranspositionOption = Annotated[str, typer.Option("--transposition", help="perez, haydavies or isotropic.")]
-TimeLabelOption = Annotated[Optional[str], typer.Option(
+BadRowsOption = Annotated[BadRows, typer.Option(
+    "--bad-rows", help="What to do with rows that fail the checks: stop, fill short gaps, or skip them.")]
+TranspositionOption = Annotated[Transposition, typer.Option(
+    "--transposition", help="The sky model that turns horizontal irradiance into plane-of-array irradiance.")]
+TimeLabelOption = Annotated[Optional[TimeLabel], typer.Option(
     "--time-label", help="What a CSV timestamp marks: the start, middle or end of the interval its values "
                          "average over, or an instant (the default). TMY3 and EPW are hour-ending.")]
 TimeFormatOption = Annotated[Optional[str], typer.Option(
@@ -394,6 +465,8 @@ TimeFormatOption = Annotated[Optional[str], typer.Option(
 
 def _weather_reader(column, tz, policy, transposition, time_label, time_format):
     """Check the weather options once; return a function that reads one weather file with them."""
+    policy, transposition = str(policy), str(transposition)
+    time_label = None if time_label is None else str(time_label)
     if transposition not in TRANSPOSITIONS:
         raise InputError("--transposition", None, f"expected one of {', '.join(TRANSPOSITIONS)}, got {transposition!r}")
     if policy not in ("fail", "fill", "skip"):
@@ -422,8 +495,8 @@ def season(
     out: Annotated[Path, typer.Option("--out", metavar="DIR", help="Folder for tables, figures and the report.")],
     column: ColumnOption = None,
     tz: TzOption = None,
-    policy: BadRowsOption = "fail",
-    transposition: TranspositionOption = "perez",
+    policy: BadRowsOption = BadRows.fail,
+    transposition: TranspositionOption = Transposition.perez,
     time_label: TimeLabelOption = None,
     time_format: TimeFormatOption = None,
     steps_csv: Annotated[bool, typer.Option("--steps-csv", help="Also write every step as steps.csv (large at "
@@ -432,7 +505,10 @@ def season(
     as_json: Annotated[bool, typer.Option("--json", help="Print the summary as one JSON object.")] = False,
 ):
     """A season of weather through the whole system: energy, losses, stages, state of charge; tables, figures, report."""
+    from pvsource.config import load_system
+
     read = _weather_reader(column, tz, policy, transposition, time_label, time_format)
+    transposition = str(transposition)
     system = load_system(system_file)
     weather = read(weather_file)
     _season_outputs(system, weather, out, force, transposition, as_json, (system_file, weather_file), steps_csv)
@@ -452,6 +528,8 @@ def demo(
     """The whole season study on the built-in invented cabin and a synthetic, reproducible weather year."""
     if days is not None and not 1 <= days <= 365:
         raise InputError("--days", None, f"expected a whole number of days from 1 to 365, got {days}")
+    from pvsource.demo import demo_system, synthetic_weather
+
     system = demo_system()
     weather = synthetic_weather(system)
     if days is not None:
@@ -467,8 +545,8 @@ def explore(
     weather_file: Annotated[Path, typer.Argument(metavar="WEATHER", help="A weather CSV, TMY3 file or EPW file.")],
     vary: Annotated[list[str], typer.Option(
         "--vary", metavar="KEY=V1,V2,...",
-        help="A choice to vary: modules_per_string, strings, size:RUN, bank_voltage, bank_capacity_ah, controller, "
-             "tilt_deg. Repeat for more.")],
+        help="A choice to vary: modules_per_string, strings, size:RUN, bank_class_v (nominal 12/24/48 V), "
+             "bank_capacity_ah, controller or tilt_deg; spelt like sweep's --over variables. Repeat for more.")],
     out: Annotated[Path, typer.Option("--out", metavar="DIR", help="Folder for the results.")],
     price_per_kg: Annotated[float, typer.Option("--price-per-kg", help="Conductor metal price per kg.")],
     energy_value: Annotated[float, typer.Option("--energy-value", help="Value of one lost kWh.")],
@@ -478,12 +556,13 @@ def explore(
                              "[% of the circuit voltage]; default: no drop rule.")] = None,
     column: ColumnOption = None,
     tz: TzOption = None,
-    policy: BadRowsOption = "fail",
-    transposition: TranspositionOption = "perez",
+    policy: BadRowsOption = BadRows.fail,
+    transposition: TranspositionOption = Transposition.perez,
     time_label: TimeLabelOption = None,
     time_format: TimeFormatOption = None,
     resume: Annotated[bool, typer.Option("--resume", help="Skip the combinations already in --out.")] = False,
-    engine: Annotated[str, typer.Option("--engine", help="local (this machine's cores) or dask.")] = "local",
+    engine: Annotated[Engine, typer.Option(
+        "--engine", help="Run on this machine's cores (local) or on dask.distributed (dask).")] = Engine.local,
     workers: Annotated[Optional[int], typer.Option("--workers", help="Processes (local) or LocalCluster workers.")]
     = None,
     scheduler: Annotated[Optional[str], typer.Option(
@@ -497,10 +576,14 @@ def explore(
         if not math.isfinite(value) or not lo <= value <= hi:
             raise InputError(name, None, f"expected {lo:g} to {hi:g}, got {value!r}")
     read = _weather_reader(column, tz, policy, transposition, time_label, time_format)
-    system = load_system(system_file)
+    from pvsource.config import load_system
     from pvsource.explore import explore as run_explore
     from pvsource.explore import parse_vary
+    from pvsource.report import json_ready, prepare_folder
+    from pvsource.terminal import render_explore
 
+    engine, transposition = str(engine), str(transposition)
+    system = load_system(system_file)
     if workers is not None and not 1 <= workers <= 1024:
         raise InputError("--workers", None, f"expected 1 to 1024, got {workers}")
     if scheduler is not None and engine != "dask":
@@ -532,17 +615,21 @@ def fleet(
     out: Annotated[Path, typer.Option("--out", metavar="DIR", help="Folder for the fleet table.")],
     column: ColumnOption = None,
     tz: TzOption = None,
-    policy: BadRowsOption = "fail",
-    transposition: TranspositionOption = "perez",
+    policy: BadRowsOption = BadRows.fail,
+    transposition: TranspositionOption = Transposition.perez,
     time_label: TimeLabelOption = None,
     time_format: TimeFormatOption = None,
     force: Annotated[bool, typer.Option("--force", help="Write into a folder that already holds files.")] = False,
     as_json: Annotated[bool, typer.Option("--json", help="Print the table as JSON rows.")] = False,
 ):
     """The season study over many systems and weather files, with one summary table across them."""
+    from pvsource.config import load_system
     from pvsource.explore import fleet_table, read_fleet
+    from pvsource.report import json_ready, prepare_folder
+    from pvsource.season import run_season
 
     read = _weather_reader(column, tz, policy, transposition, time_label, time_format)
+    transposition = str(transposition)
     members = read_fleet(source)
     folder = prepare_folder(out, force, [p for _, s_, w in members for p in (s_, w)])
     report = _progress("fleet")
@@ -574,31 +661,37 @@ def _atomic_frame(path: Path, frame) -> None:
 def check(
     system_file: Annotated[Path, typer.Argument(metavar="SYSTEM.toml", help="The system file.")],
     min_temp: Annotated[Optional[float], typer.Option(
-        "--min-temp", help="The site's record low air temperature [degC].")] = None,
+        "--min-air-c", help="The site's record low air temperature [degC].")] = None,
     max_temp: Annotated[Optional[float], typer.Option(
-        "--max-temp", help="The site's record high air temperature [degC].")] = None,
+        "--max-air-c", help="The site's record high air temperature [degC].")] = None,
     cell_rise_c: Annotated[Optional[float], typer.Option(
-        "--cell-rise", help="Cells above the air in full sun, for the hot case [degC]. Default: 1.25 x (NOCT - 20) "
-                            "from the datasheet's noct_c, else 35 (common practice).")] = None,
-    insulation_c: InsulationOpt = DEFAULT_INSULATION_C,
-    ambient_c: AmbientOpt = DEFAULT_AMBIENT_C,
-    conductors_together: TogetherOpt = DEFAULT_CONDUCTORS_TOGETHER,
-    install: InstallOpt = DEFAULT_INSTALL,
+        "--cell-rise-c", help="Cells above the air in full sun, for the hot case [degC]. Default: 1.25 x (NOCT - 20) "
+                              "from the datasheet's noct_c, else 35 (common practice).")] = None,
+    insulation_c: InsulationOpt = None,
+    ambient_c: AmbientOpt = None,
+    conductors_together: TogetherOpt = None,
+    install: InstallOpt = None,
     as_json: Annotated[bool, typer.Option("--json", help="Print one JSON object instead of tables.")] = False,
 ):
     """Voltage, current, ampacity and protection checks; exit code 1 when any check fails, 0 when all pass."""
     if min_temp is None:
-        raise InputError("--min-temp", None, "is needed: the site's record low air temperature in degC")
+        raise InputError("--min-air-c", None, "is needed: the site's record low air temperature in degC")
     if max_temp is None:
-        raise InputError("--max-temp", None, "is needed: the site's record high air temperature in degC")
-    for name, value, lo, hi in (("--min-temp", min_temp, -70.0, 40.0), ("--max-temp", max_temp, -20.0, 65.0),
-                                ("--cell-rise", cell_rise_c, 0.0, 60.0)):
+        raise InputError("--max-air-c", None, "is needed: the site's record high air temperature in degC")
+    for name, value, lo, hi in (("--min-air-c", min_temp, -70.0, 40.0), ("--max-air-c", max_temp, -20.0, 65.0),
+                                ("--cell-rise-c", cell_rise_c, 0.0, 60.0)):
         if value is None:
             continue
         if not math.isfinite(value) or not lo <= value <= hi:
-            raise InputError(name, None, f"expected {lo:g} to {hi:g} degC, got {value!r}")
+            hint = temperature_hint(value, lo, hi) if name != "--cell-rise-c" and math.isfinite(value) else None
+            raise InputError(name, None, with_hint(f"expected {lo:g} to {hi:g} degC, got {value!r}", hint))
     if min_temp >= max_temp:
-        raise InputError("--min-temp", None, f"must be below --max-temp ({max_temp:g} degC)")
+        raise InputError("--min-air-c", None, f"must be below --max-air-c ({max_temp:g} degC)")
+    from pvsource.checks import all_passed, cell_rise, design_checks, design_currents
+    from pvsource.config import load_system
+    from pvsource.module import model_notes
+    from pvsource.terminal import render_checks
+
     inst = _installation(insulation_c, ambient_c, conductors_together, install)
     system = load_system(system_file)
     rise_c, rise_basis = cell_rise(system, cell_rise_c)
@@ -621,6 +714,9 @@ def fit(
     as_json: Annotated[bool, typer.Option("--json", help="Print one JSON object instead of tables.")] = False,
 ):
     """Fit the single-diode model to a datasheet and show how well it reproduces it."""
+    from pvsource.config import load_module
+    from pvsource.terminal import fit_record, render_fit
+
     module = load_module(datasheet_file)
     rec = fit_record(module)
     if as_json:
@@ -641,7 +737,8 @@ def main(argv: list[str] | None = None) -> None:
             # Numerical warnings are not messages for a user: results that
             # matter are guarded (convergence, energy balance) and reported.
             warnings.simplefilter("ignore")
-            rc = app(args=argv, prog_name="pvsource", standalone_mode=False)
+            args = sys.argv[1:] if argv is None else list(argv)
+            rc = app(args=_with_aliases(args), prog_name="pvsource", standalone_mode=False)
         # Typer turns Ctrl-C and explicit exits into a returned exit code.
         if rc == 130:
             _fail("interrupted", 130)

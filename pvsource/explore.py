@@ -35,12 +35,15 @@ from pvsource import conductors
 from pvsource.checks import design_checks
 from pvsource.errors import InputError
 from pvsource.files import atomic_write
+from pvsource.names import canonical
 from pvsource.runs import drop_budget_reasons, resize_run
 from pvsource.season import run_season
 from pvsource.system import System
 
-VARY_KEYS = ("modules_per_string", "strings", "size:RUN", "bank_voltage", "bank_capacity_ah", "controller",
+VARY_KEYS = ("modules_per_string", "strings", "size:RUN", "bank_class_v", "bank_capacity_ah", "controller",
              "tilt_deg")
+# Earlier names, hyphens read as underscores; the keys are spelt like sweep's variables.
+VARY_ALIASES = {"bank_voltage": "bank_class_v", "bank_class": "bank_class_v", "modules": "modules_per_string"}
 MAX_COMBINATIONS = 5000
 
 
@@ -49,10 +52,10 @@ def parse_vary(texts, system: System) -> dict:
     vary = {}
     for text in texts or []:
         key, sep, values = text.partition("=")
-        key = key.strip()
         items = [v.strip() for v in values.split(",") if v.strip()]
         if not sep or not items:
             raise InputError("--vary", None, f"expected KEY=V1,V2,..., got {text!r}")
+        key = canonical(key, VARY_KEYS, VARY_ALIASES, "--vary", "key")
         if key in vary:
             raise InputError("--vary", None, f"{key!r} is given twice")
         vary[key] = [_value(key, item, system) for item in items]
@@ -82,7 +85,7 @@ def _value(key: str, text: str, system: System):
         if system.bank is None:
             raise InputError("--vary", key, "needs a system with a [bank]")
         return number(float, 1.0, 1e6)
-    if key == "bank_voltage":
+    if key == "bank_class_v":
         value = number(float, 1.0, 1000.0)
         if system.bank is None or value not in bank_model.NOMINAL_CLASS_CELLS[system.bank.chemistry.key]:
             raise InputError("--vary", key, f"expected a nominal class of the bank: 12, 24 or 48 V, got {text}")
@@ -115,7 +118,7 @@ def apply(system: System, combo: dict) -> System:
             system = replace(system, groups=tuple(replace(g, tilt_deg=value) for g in system.groups))
         elif key == "bank_capacity_ah":
             system = replace(system, bank=replace(system.bank, capacity_ah=value))
-        elif key == "bank_voltage":
+        elif key == "bank_class_v":
             system = replace(system, bank=bank_model.with_nominal_class(system.bank, value))
         elif key == "controller":
             system = replace(system, controller=replace(system.controller, kind=value))

@@ -36,6 +36,7 @@ from pvsource.network import (
     Network, Solution, evaluate_groups, solve_at_bus_voltage, solve_max_power, solve_thevenin,
 )
 from pvsource.system import System
+from pvsource.units import CELL_TEMP_RANGE_C, IRRADIANCE_RANGE_W_M2
 
 CHUNK_SIZE = 8192
 DRIFT_FRACTION = 0.10
@@ -47,8 +48,6 @@ DRIFT_TOLERANCE = 1e-4
 # the Newton step after the check brings V well inside 1e-5.
 SOURCE_MPP_TOLERANCE = 1e-5
 ENERGY_BALANCE_TOLERANCE = 1e-9
-IRRADIANCE_RANGE_W_M2 = (0.0, 2000.0)
-CELL_TEMP_RANGE_C = (-60.0, 120.0)
 
 
 def _condition_array(system: System, value, name: str, attr: str, valid: tuple[float, float], unit: str):

@@ -9,21 +9,21 @@ linear view explains the numbers; where they part, the array's curvature does.
 
 Variables (``--over``):
 
-==================  ==========================================================
-``load-resistance`` a resistor load [ohm]; with a bank, the resistor takes
-                    the place of the controller and bank (said so)
-``bank-voltage``    the bank's resting voltage (EMF) [V]: with a bank, held at
-                    each value behind the system's own controller; without,
-                    the battery load's EMF (any other load is replaced by a
-                    battery with the system's resistance, said so)
-``bank-class``      the bank's cells in series for nominal 12, 24, 48 V ...,
-                    at the same stored energy, with the system's controller
-``soc``             the bank's state of charge [-]
-``modules``         modules per string, every group [-]
-``size:RUN``        the conductor size of the run named RUN, along its series
-``irradiance``      every group [W/m2]
-``cell-temp``       every group [degC]
-==================  ==========================================================
+=======================  =====================================================
+``load_resistance_ohm``  a resistor load [ohm]
+``bank_emf_v``           a bank wired straight to the array, its EMF swept [V];
+                         its resistance is the system's bank or battery load's
+``bank_class_v``         the bank's cells in series for nominal 12, 24, 48 V,
+                         at the same stored energy, with the system's controller
+``soc``                  the bank's state of charge [-]
+``modules_per_string``   modules per string, every group [-]
+``size:RUN``             the conductor size of the run named RUN, along its series
+``irradiance_w_m2``      every group [W/m2]
+``cell_temp_c``          every group [degC]
+=======================  =====================================================
+
+Names are spelt like the system file's keys and ``explore --vary``'s; a hyphen
+may stand for an underscore, and the earlier names (:data:`ALIASES`) still work.
 """
 
 from __future__ import annotations
@@ -37,16 +37,25 @@ from pvsource import bank as bank_model
 from pvsource import conductors
 from pvsource.errors import InputError
 from pvsource.linear import linear_transfer
+from pvsource.names import canonical
 from pvsource.operating import operating_points
 from pvsource.runs import resize_run
 from pvsource.system import Load, System
 
-VARIABLES = ("load-resistance", "bank-voltage", "bank-class", "soc", "modules", "size:RUN", "irradiance",
-             "cell-temp")
+VARIABLES = ("load_resistance_ohm", "bank_emf_v", "bank_class_v", "soc", "modules_per_string", "size:RUN",
+             "irradiance_w_m2", "cell_temp_c")
+# Earlier names, hyphens read as underscores.
+ALIASES = {"load_resistance": "load_resistance_ohm", "bank_voltage": "bank_emf_v", "bank_class": "bank_class_v",
+           "modules": "modules_per_string", "irradiance": "irradiance_w_m2", "cell_temp": "cell_temp_c"}
 MAX_STEPS = 2000
 NOMINAL_CLASSES_V = (12.0, 24.0, 48.0)
 ROW_KEYS = ("value", "delivered_w", "efficiency", "matching_ratio", "charge_current_a", "v", "i", "p",
             "generated_w", "linear_p_w", "linear_efficiency")
+
+
+def variable_name(text: str) -> str:
+    """The canonical name of a sweep variable (see the module's table), or an InputError naming ``--over``."""
+    return canonical(text, VARIABLES, ALIASES, "--over")
 
 
 def _number(text: str, option: str) -> float:
@@ -61,6 +70,7 @@ def _number(text: str, option: str) -> float:
 
 def sweep_values(system: System, variable: str, start: str, stop: str, steps: int):
     """The values a sweep visits, and their unit, checked against the system."""
+    variable = variable_name(variable)
     if not 2 <= steps <= MAX_STEPS:
         raise InputError("--steps", None, f"expected 2 to {MAX_STEPS} steps, got {steps}")
     if variable.startswith("size:"):
@@ -79,21 +89,21 @@ def sweep_values(system: System, variable: str, start: str, stop: str, steps: in
             raise InputError("--from", None, f"no standard size between {lo.label} and {hi.label}")
         return sizes, "size"
     a, b = _number(start, "--from"), _number(stop, "--to")
-    if variable == "bank-class":
+    if variable == "bank_class_v":
         if system.bank is None:
-            raise InputError("--over", None, "bank-class needs a system with a [bank]")
+            raise InputError("--over", None, "bank_class_v needs a system with a [bank]")
         classes = [c for c in NOMINAL_CLASSES_V if min(a, b) <= c <= max(a, b)]
         if not classes:
             raise InputError("--from", None, f"no nominal class ({', '.join(f'{c:g}' for c in NOMINAL_CLASSES_V)} V) "
                                              f"between {a:g} and {b:g} V")
         return classes, "V"
-    if variable == "modules":
+    if variable == "modules_per_string":
         lo, hi = int(round(min(a, b))), int(round(max(a, b)))
         if lo < 1 or hi > 200:
             raise InputError("--from", None, f"expected modules per string from 1 to 200, got {a:g} to {b:g}")
         return list(range(lo, hi + 1)), "modules"
-    limits = {"load-resistance": (1e-6, 1e9, "ohm"), "bank-voltage": (0.1, 2000.0, "V"), "soc": (0.0, 1.0, "-"),
-              "irradiance": (0.0, 2000.0, "W/m2"), "cell-temp": (-60.0, 120.0, "degC")}
+    limits = {"load_resistance_ohm": (1e-6, 1e9, "ohm"), "bank_emf_v": (0.1, 2000.0, "V"), "soc": (0.0, 1.0, "-"),
+              "irradiance_w_m2": (0.0, 2000.0, "W/m2"), "cell_temp_c": (-60.0, 120.0, "degC")}
     if variable not in limits:
         raise InputError("--over", None, f"expected one of {', '.join(VARIABLES)}, got {variable!r}")
     lo, hi, unit = limits[variable]
@@ -102,7 +112,7 @@ def sweep_values(system: System, variable: str, start: str, stop: str, steps: in
             raise InputError(option, None, f"expected {lo:g} to {hi:g} {unit} for {variable}, got {value:g}")
     if variable == "soc" and system.bank is None:
         raise InputError("--over", None, "soc needs a system with a [bank]")
-    if variable == "load-resistance":
+    if variable == "load_resistance_ohm":
         # Resistances matter by ratio: step them geometrically.
         return list(np.geomspace(a, b, steps)), unit
     return list(np.linspace(a, b, steps)), unit
@@ -131,7 +141,7 @@ def what_changes(system: System, variable: str) -> tuple[str, str | None]:
         The part of the system the sweep cannot keep, in words; None when the
         sweep runs through the system as it is.
     """
-    if variable == "load-resistance":
+    if variable == "load_resistance_ohm":
         if system.bank is not None:
             kind = {"mppt": "tracking (MPPT) ", "pwm": "PWM ", "direct": "direct "}.get(
                 system.controller.kind if system.controller is not None else None, "")
@@ -142,7 +152,7 @@ def what_changes(system: System, variable: str) -> tuple[str, str | None]:
             return ("a resistor at the end of the feeder takes each value",
                     f"the {LOAD_WORDS[system.load.kind]} is replaced by a resistor")
         return "the resistor load takes each value", None
-    if variable == "bank-voltage":
+    if variable == "bank_emf_v":
         if system.bank is not None:
             return ("the bank's resting voltage is held at each value behind the system's own controller; its "
                     "resistance, charge voltages and state of charge stay the file's"), None
@@ -151,9 +161,9 @@ def what_changes(system: System, variable: str) -> tuple[str, str | None]:
                     f"the {LOAD_WORDS[system.load.kind]} is replaced by a battery with "
                     f"{_bank_resistance(system):g} ohm internal resistance")
         return "the battery load's EMF takes each value", None
-    words = {"bank-class": "the bank is rebuilt for each nominal class at the same stored energy",
-             "soc": "the bank's state of charge takes each value", "modules": "every group's modules per string",
-             "irradiance": "every group's irradiance", "cell-temp": "every group's cell temperature"}
+    words = {"bank_class_v": "the bank is rebuilt for each nominal class at the same stored energy",
+             "soc": "the bank's state of charge takes each value", "modules_per_string": "every group's modules per string",
+             "irradiance_w_m2": "every group's irradiance", "cell_temp_c": "every group's cell temperature"}
     if variable.startswith("size:"):
         return f"the conductor size of the run {variable[5:]!r}", None
     return words.get(variable, variable), None
@@ -169,24 +179,24 @@ def _held_emf(bank: bank_model.Bank, emf_v: float) -> bank_model.Bank:
 def design_value(system: System, variable: str, irradiance_w_m2=None, cell_temp_c=None):
     """The value of the swept variable in the unchanged system, or None where it has none."""
     b = system.bank
-    if variable == "load-resistance":
+    if variable == "load_resistance_ohm":
         return system.load.resistance_ohm if b is None and system.load.kind == "resistor" else None
-    if variable == "bank-voltage":
+    if variable == "bank_emf_v":
         if b is not None:
             return float(bank_model.open_circuit_v(b))
         return system.load.emf_v if system.load.kind == "battery" else None
-    if variable == "bank-class" and b is not None:
+    if variable == "bank_class_v" and b is not None:
         classes = bank_model.NOMINAL_CLASS_CELLS.get(b.chemistry.key, {})
         return next((v for v, cells in classes.items() if cells == b.cells_in_series), None)
     if variable == "soc":
         return None if b is None else b.soc
-    if variable == "modules":
+    if variable == "modules_per_string":
         counts = {g.modules_per_string for g in system.groups}
         return counts.pop() if len(counts) == 1 else None
     if variable.startswith("size:"):
         run = next((r for r in system.cables if r.name == variable[5:]), None)
         return run.size.label if run is not None and run.size is not None else None
-    given = {"irradiance": (irradiance_w_m2, "irradiance_w_m2"), "cell-temp": (cell_temp_c, "cell_temp_c")}
+    given = {"irradiance_w_m2": (irradiance_w_m2, "irradiance_w_m2"), "cell_temp_c": (cell_temp_c, "cell_temp_c")}
     if variable in given:
         value, attr = given[variable]
         if value is None:
@@ -198,15 +208,15 @@ def design_value(system: System, variable: str, irradiance_w_m2=None, cell_temp_
 
 def _variant(system: System, variable: str, value) -> System:
     """The system with one thing changed (see :func:`what_changes`)."""
-    if variable == "load-resistance":
+    if variable == "load_resistance_ohm":
         return replace(system, load=Load("resistor", resistance_ohm=float(value)), bank=None)
-    if variable == "bank-voltage":
+    if variable == "bank_emf_v":
         if system.bank is not None:
             return replace(system, bank=_held_emf(system.bank, value))
         return replace(system, load=Load("battery", emf_v=float(value), resistance_ohm=_bank_resistance(system)))
-    if variable == "bank-class":
+    if variable == "bank_class_v":
         return replace(system, bank=bank_model.with_nominal_class(system.bank, value))
-    if variable == "modules":
+    if variable == "modules_per_string":
         return replace(system, groups=tuple(replace(g, modules_per_string=int(value)) for g in system.groups))
     if variable.startswith("size:"):
         return resize_run(system, variable[5:], value)
@@ -229,20 +239,21 @@ def run_sweep(system: System, variable: str, start: str, stop: str, steps: int, 
         ``changes``, what the sweep varies, and ``replaced``, the part of the
         system it had to replace (None when it runs through the system as it is).
     """
+    variable = variable_name(variable)
     values, unit = sweep_values(system, variable, start, stop, steps)
     g = irradiance_w_m2
     t = cell_temp_c
     base = operating_points(system, g, t).iloc[0]
     e, r = float(base["thevenin_e_v"]), float(base["thevenin_r_ohm"])
     frames = []
-    if variable in ("irradiance", "cell-temp", "soc"):
+    if variable in ("irradiance_w_m2", "cell_temp_c", "soc"):
         arr = np.asarray(values, float)
-        kwargs = {"irradiance": dict(irradiance_w_m2=arr, cell_temp_c=t if t is not None else None),
-                  "cell-temp": dict(irradiance_w_m2=g, cell_temp_c=arr),
+        kwargs = {"irradiance_w_m2": dict(irradiance_w_m2=arr, cell_temp_c=t if t is not None else None),
+                  "cell_temp_c": dict(irradiance_w_m2=g, cell_temp_c=arr),
                   "soc": dict(irradiance_w_m2=g, cell_temp_c=t, soc=arr)}[variable]
-        if variable == "irradiance" and t is None:
+        if variable == "irradiance_w_m2" and t is None:
             kwargs["cell_temp_c"] = None
-        if variable == "cell-temp" and g is None:
+        if variable == "cell_temp_c" and g is None:
             kwargs["irradiance_w_m2"] = None
         frame = operating_points(system, **_broadcast(kwargs, len(arr), system))
         frames.append(frame)

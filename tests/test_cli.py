@@ -8,6 +8,7 @@ import sys
 import pytest
 
 import pvsource
+import pvsource.cli as cli
 from pvsource.cli import parse_condition
 from pvsource.errors import InputError
 
@@ -21,7 +22,7 @@ run = run_cli
 
 
 def test_point_json_has_the_documented_keys_in_si_units(capsys):
-    code, out, err = run(capsys, "point", EXAMPLE, "--irradiance", "800", "--cell-temp", "45", "--json")
+    code, out, err = run(capsys, "point", EXAMPLE, "--irradiance-w-m2", "800", "--cell-temp-c", "45", "--json")
     assert code == 0 and err == ""
     rec = json.loads(out)
     assert set(rec["source"]) == {"v_oc", "i_sc", "v_mp", "i_mp", "p_mp"}
@@ -46,8 +47,8 @@ def test_point_table_shows_the_linearised_view_and_the_cautions(capsys):
 
 
 def test_point_takes_per_group_conditions(capsys):
-    code, out, _ = run(capsys, "point", TWO_FACES, "--irradiance", "west=900", "--irradiance", "400",
-                       "--cell-temp", "30", "--json")
+    code, out, _ = run(capsys, "point", TWO_FACES, "--irradiance-w-m2", "west=900", "--irradiance-w-m2", "400",
+                       "--cell-temp-c", "30", "--json")
     assert code == 0
     groups = {g["name"]: g for g in json.loads(out)["groups"]}
     assert groups["west"]["irradiance_w_m2"] == 900.0
@@ -192,7 +193,7 @@ def test_wire_on_a_system_file_reports_every_run(capsys):
 
 
 def test_wire_table_names_the_budget_and_the_cautions(capsys):
-    code, out, _ = run(capsys, "wire", TWO_FACES, "--budget-pct", "2", "--irradiance", "800", "--cell-temp", "40")
+    code, out, _ = run(capsys, "wire", TWO_FACES, "--budget-pct", "2", "--irradiance-w-m2", "800", "--cell-temp-c", "40")
     assert code == 0
     assert "Total" in out and "worst path" in out and "licensed practitioners" in out
     # Cautions fit the command: a wiring result carries the conductor ones, not the arc one.
@@ -220,9 +221,10 @@ def test_wire_one_run_json(capsys):
     (["wire", "--current", "20", "--length-m", "15"], "--size"),
     (["wire", EXAMPLE, "--current", "20"], "--current"),
     (["wire", EXAMPLE, "--budget-pct", "140"], "--budget-pct"),
-    (["check", EXAMPLE, "--max-temp", "40"], "--min-temp"),
-    (["check", EXAMPLE, "--min-temp", "30", "--max-temp", "20"], "--min-temp"),
-    (["check", EXAMPLE, "--min-temp", "nan", "--max-temp", "20"], "--min-temp"),
+    (["check", EXAMPLE, "--max-air-c", "40"], "--min-air-c"),
+    (["check", EXAMPLE, "--min-air-c", "30", "--max-air-c", "20"], "--min-air-c"),
+    # The earlier spellings still work, and messages give the current one.
+    (["check", EXAMPLE, "--min-temp", "nan", "--max-temp", "20"], "--min-air-c"),
 ])
 def test_bad_wiring_and_check_inputs_exit_2_with_one_line(capsys, args, words):
     code, out, err = run(capsys, *args)
@@ -231,7 +233,7 @@ def test_bad_wiring_and_check_inputs_exit_2_with_one_line(capsys, args, words):
 
 
 def test_check_json_lists_the_checks_with_their_basis(capsys):
-    code, out, _ = run(capsys, "check", EXAMPLE, "--min-temp", "-15", "--max-temp", "38", "--json")
+    code, out, _ = run(capsys, "check", EXAMPLE, "--min-air-c", "-15", "--max-air-c", "38", "--json")
     rec = json.loads(out)
     assert code == 1  # a check fails below, so the command says so
     names = [c["name"] for c in rec["checks"]]
@@ -291,7 +293,7 @@ def test_check_without_a_load_or_controller_still_runs(capsys, tmp_path):
     path = tmp_path / "bare.toml"
     path.write_text(text.replace('file = "modules/ashgrove-ag300.toml"',
                                  f'file = "{(DATA / "modules" / "ashgrove-ag300.toml").as_posix()}"'))
-    code, out, _ = run(capsys, "check", str(path), "--min-temp", "-10", "--max-temp", "35", "--json")
+    code, out, _ = run(capsys, "check", str(path), "--min-air-c", "-10", "--max-air-c", "35", "--json")
     rec = json.loads(out)
     assert code == (1 if rec["all_passed"] is False else 0)
     assert rec["checks"][0]["limit"] is None and rec["checks"][0]["passed"] is None
@@ -320,12 +322,12 @@ def test_nested_module_files_resolve_from_their_own_folder(capsys, tmp_path):
 
 
 def test_an_unexpected_failure_is_still_one_line(capsys, monkeypatch):
-    import pvsource.cli as cli
+    import pvsource.config
 
     def boom(*args, **kwargs):
         raise ZeroDivisionError("synthetic")
 
-    monkeypatch.setattr(cli, "load_module", boom)
+    monkeypatch.setattr(pvsource.config, "load_module", boom)
     code, _, err = run(capsys, "fit", "anything.toml")
     assert code == 1 and err.count("\n") == 1 and "internal error" in err and "Traceback" not in err
 
@@ -510,3 +512,129 @@ def test_help_keeps_the_units_in_brackets(capsys, command):
     assert code == 0 and "Insulation temperature rating [degC]" in flat and "the runs [degC]" in flat
     if command == "wire":
         assert "conductor circuit [m]" in flat and "Design cell temperature [degC]" in flat
+
+
+def _commands():
+    """The click command behind every pvsource subcommand, by name."""
+    import typer
+
+    from pvsource.cli import app
+
+    return typer.main.get_command(app).commands
+
+
+def _flat(text: str) -> str:
+    # Help wraps lines at spaces and after hyphens; neither loses a word.
+    return re.sub(r"-\s+", "-", " ".join(text.split()))
+
+
+@pytest.mark.parametrize("name", sorted(_commands()))
+def test_every_help_keeps_its_words_lists_its_choices_and_shows_no_bool_value(capsys, name):
+    # Help text is read as written: "[degC]" or "[site]" is a unit or a table name, not markup to drop.
+    command = _commands()[name]
+    code, out, _ = run(capsys, name, "--help")
+    assert code == 0
+    shown = _flat(out)
+    assert _flat(command.help.split("\n\n")[0]) in shown
+    for param in command.params:
+        if param.help:
+            assert _flat(param.help) in shown, (param.name, param.help)
+        if getattr(param, "metavar", None):
+            assert param.metavar in shown
+        # Click keeps a choice on the parameter's type; Typer 0.26+ on its type descriptor.
+        choices = (getattr(getattr(param, "type", None), "choices", None)
+                   or getattr(getattr(param, "type_descriptor", None), "choices", None))
+        if choices:  # a fixed set of values is listed as the set
+            assert "|".join(str(getattr(c, "value", c)) for c in choices) in shown
+    # On/off switches take no value.
+    assert "<bool>" not in out and "BOOLEAN" not in out
+
+
+def test_the_top_level_help_lists_every_command(capsys):
+    code, out, _ = run(capsys, "--help")
+    assert code == 0 and "[OPTIONS]" in out
+    for name in _commands():
+        assert name in out
+
+
+def test_a_fixed_set_of_values_is_listed_and_enforced(capsys):
+    code, out, _ = run(capsys, "season", "--help")
+    assert "<fail|fill|skip>" in out and "<perez|haydavies|isotropic>" in out
+    code, out, err = run(capsys, "wire", "--current", "20", "--length-m", "15", "--size", "10 AWG",
+                         "--material", "aluminium", "--json")
+    assert code == 0 and json.loads(out)["material"] == "aluminium"
+
+
+def test_the_command_lines_fixed_sets_are_the_librarys():
+    # The CLI lists these without importing the library; they must not drift apart.
+    from pvsource import ampacity, conductors, sky, weather
+
+    assert cli.TRANSPOSITIONS == sky.TRANSPOSITION_MODELS
+    assert {m.value for m in cli.BadRows} == set(weather.POLICIES)
+    assert {m.value for m in cli.ResistanceBasis} == set(conductors.RESISTANCE_BASES)
+    assert tuple(m.value for m in cli.Install) == ampacity.INSTALLS
+    assert set(cli.TIME_LABELS) == set(weather.TIME_LABELS)
+    assert {conductors.material_properties(m.value).name for m in cli.Material} == {"copper", "aluminium"}
+
+
+def test_temperature_options_are_named_in_degc():
+    # One rule for every command: an option that takes a temperature ends in -c.
+    for name, command in _commands().items():
+        for param in command.params:
+            if param.help and "[degC]" in param.help:
+                assert all(opt.endswith("-c") for opt in param.opts), (name, param.opts)
+
+
+def test_every_option_named_in_a_message_exists():
+    # A hint such as "use --bad-rows fill" must name an option the tool has.
+    known = set(cli.OPTION_ALIASES) | {"--help", "--version"}
+    for command in _commands().values():
+        for param in command.params:
+            known.update(opt for opt in param.opts if opt.startswith("--"))
+    for path in sorted((ROOT / "pvsource").glob("*.py")):
+        if path.name == "report_page.py":  # HTML and CSS (custom properties are --name too), no messages
+            continue
+        for option in re.findall(r"(?<![\w-])--[a-z][a-z0-9-]*", path.read_text()):
+            assert option in known, (path.name, option)
+
+
+def test_importing_the_command_line_loads_no_numerical_library():
+    # --version and --help answer at once because these load only inside the commands
+    # (bench/bench_startup.py measures the times).
+    code = ("import sys\nfrom pvsource.cli import main\n"
+            "for args in (['--version'], ['--help'], ['season', '--help'], ['wire', '--help']):\n"
+            "    try:\n        main(args)\n    except SystemExit:\n        pass\n"
+            "heavy = ('pandas', 'pvlib', 'scipy', 'matplotlib', 'numba', 'pyarrow', 'numpy', 'rich')\n"
+            "sys.stderr.write(repr(sorted(m for m in heavy if m in sys.modules)))\n")
+    proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, cwd=ROOT)
+    assert proc.returncode == 0 and proc.stderr == "[]", proc.stderr
+    # The library's names still load on first use.
+    proc = subprocess.run([sys.executable, "-c", "import pvsource; print(pvsource.load_system.__module__)"],
+                          capture_output=True, text=True, cwd=ROOT)
+    assert proc.stdout.strip() == "pvsource.config"
+
+
+@pytest.mark.parametrize("typed, name", [
+    ("bank-voltage", "bank_emf_v"), ("bank_emf_v", "bank-emf-v"), ("cell-temp", "cell_temp_c"),
+    ("irradiance", "irradiance_w_m2"), ("modules", "modules_per_string"), ("load-resistance", "load_resistance_ohm"),
+    ("bank-class", "bank_class_v"), ("size:array to bank", "size:array to bank"),
+])
+def test_sweep_variables_take_one_spelling_and_the_earlier_names(typed, name):
+    from pvsource.sweep import variable_name
+
+    assert variable_name(typed) == variable_name(name)
+    assert variable_name(name) in ("size:array to bank", *__import__("pvsource.sweep").sweep.VARIABLES)
+
+
+def test_sweep_and_explore_spell_their_shared_variables_alike():
+    from pvsource.explore import VARY_KEYS
+    from pvsource.sweep import VARIABLES
+
+    assert {"modules_per_string", "bank_class_v", "size:RUN"} <= set(VARY_KEYS) & set(VARIABLES)
+    for names in (VARY_KEYS, VARIABLES):
+        assert all(n == n.lower() and "-" not in n for n in names if n != "size:RUN")
+
+
+def test_a_misspelt_variable_suggests_the_nearest(capsys):
+    code, out, err = run(capsys, "sweep", EXAMPLE, "--over", "bank_emv_v", "--from", "20", "--to", "30")
+    assert code == 2 and err.count("\n") == 1 and "--over" in err and "did you mean 'bank_emf_v'" in err
