@@ -32,6 +32,7 @@ from pathlib import Path
 import numpy as np
 
 from pvsource.errors import InputError
+from pvsource.names import did_you_mean
 
 _DATA = Path(__file__).parent / "data" / "chemistries"
 
@@ -237,7 +238,8 @@ def make_bank(chemistry_key: str, cells_in_series: int, strings: int, capacity_a
         raise InputError(where, "overrides", "a table of preset names and values")
     for n in overrides:
         if n not in PRESET_NAMES:
-            raise InputError(where, f"overrides.{n}", f"unknown preset; expected one of {', '.join(PRESET_NAMES)}")
+            raise InputError(where, f"overrides.{n}", f"unknown preset{did_you_mean(n, PRESET_NAMES)}; "
+                                                      f"expected one of {', '.join(PRESET_NAMES)}")
     chemistry = preset
     if overrides:
         values = {n: getattr(preset, n) for n in PRESET_NAMES} | overrides

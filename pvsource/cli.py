@@ -17,6 +17,7 @@ of the JSON output is spelt like that key, with hyphens (``--cell-temp-c``,
 from __future__ import annotations
 
 import json
+import logging
 import math
 import sys
 import warnings
@@ -37,7 +38,7 @@ _EXITS = tuple({typer.Exit, getattr(_cli_errors, "Exit", typer.Exit)})
 _ABORTS = tuple({typer.Abort, getattr(_cli_errors, "Abort", typer.Abort), KeyboardInterrupt})
 
 from pvsource import __version__, cautions
-from pvsource.errors import ConvergenceError, InputError, PhysicsGuardError
+from pvsource.errors import NOTES, ConvergenceError, InputError, PhysicsGuardError, note
 from pvsource.units import (
     CELL_TEMP_RANGE_C, IRRADIANCE_RANGE_W_M2, design_irradiance_note, irradiance_hint,
     temperature_hint, with_hint,
@@ -170,14 +171,8 @@ def _conditions_for(system, parsed, option: str, default=None):
             raise InputError(option, None, with_hint(f"expected {lo:g} to {hi:g} {unit} for group {g.name!r}, "
                                                      f"got {value:g}", hint))
         if attr == "irradiance_w_m2" and parsed is not None and value != getattr(g, attr):
-            _note(option, design_irradiance_note(value))
+            note(option, None, design_irradiance_note(value))
     return values
-
-
-def _note(where: str, text: str | None) -> None:
-    """A remark on stderr that does not stop the command (an implausible but possible value)."""
-    if text:
-        sys.stderr.write(f"pvsource: note: {where}: {text}\n")
 
 
 @app.command()
@@ -730,8 +725,18 @@ def _fail(message: str, code: int) -> None:
     sys.exit(code)
 
 
+class _NoteLines(logging.Handler):
+    """Each note of the library as one line on the stderr of the moment (tests swap it)."""
+
+    def emit(self, record: logging.LogRecord) -> None:
+        sys.stderr.write("pvsource: note: " + " ".join(record.getMessage().split()) + "\n")
+
+
 def main(argv: list[str] | None = None) -> None:
     """Console entry point: run the app and map every failure to one line and an exit code."""
+    handler = _NoteLines()
+    NOTES.addHandler(handler)
+    NOTES.propagate = False
     try:
         with warnings.catch_warnings():
             # Numerical warnings are not messages for a user: results that
@@ -761,6 +766,9 @@ def main(argv: list[str] | None = None) -> None:
         sys.exit(0)
     except Exception as exc:  # noqa: BLE001 - the last line of defence: one line, never a traceback
         _fail(f"internal error ({type(exc).__name__}: {exc}); please report it with the input that caused it", 1)
+    finally:
+        NOTES.removeHandler(handler)
+        NOTES.propagate = True
 
 
 if __name__ == "__main__":

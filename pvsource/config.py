@@ -2,7 +2,12 @@
 
 Every problem is an :class:`~pvsource.errors.InputError` naming the file and
 the field, e.g. ``system.toml: [load].emf_v: expected a number, got 'abc'``.
-Unknown keys are errors too, so a typo never passes silently.
+Unknown keys are errors too, so a typo never passes silently: a misspelt key
+or value is answered with the nearest known one. A value impossible in its
+unit is refused with the unit it was probably typed in (degF, kelvin, lux);
+one that is possible but unlikely (a design point of 0.7 W/m2, kW/m2 typed
+as W/m2) is let through with a note (:func:`pvsource.errors.note`). Runs and
+groups are named in messages by their ``name``.
 """
 
 from __future__ import annotations
@@ -17,9 +22,13 @@ from pvsource.array import StringGroup
 from pvsource.bank import CHEMISTRIES, Bank, make_bank
 from pvsource.bank import charge_voltages_v as bank_charge_voltages
 from pvsource.controller import DEFAULT_EFFICIENCY_CURVE, KINDS, Controller
-from pvsource.errors import InputError
+from pvsource.errors import InputError, note
 from pvsource.module import Datasheet, DiodeParameters, Module, fit_datasheet, module_from_parameters
+from pvsource.names import did_you_mean, nearest
 from pvsource.system import LOAD_KINDS, Load, Site, System
+from pvsource.units import (
+    CELL_TEMP_RANGE_C, IRRADIANCE_RANGE_W_M2, design_irradiance_note, irradiance_hint, temperature_hint, with_hint,
+)
 from pvsource.wiring import GROUP_ROLES, ROLES, CableRun
 
 DATASHEET_KEYS = ("v_oc", "i_sc", "v_mp", "i_mp", "isc_temp_coeff_pct", "voc_temp_coeff_pct", "cells_in_series")
@@ -31,8 +40,8 @@ PARAMETER_OPTIONAL = ("eg_ref_ev", "degdt_per_c", "adjust_pct")
 MAX_MODULES_PER_STRING = 200
 MAX_STRINGS = 10_000
 MAX_LENGTH_M = 10_000.0
-MAX_IRRADIANCE_W_M2 = 2000.0
-CELL_TEMP_RANGE_C = (-60.0, 120.0)
+BANK_TEMP_RANGE_C = (-40.0, 70.0)
+CONDUCTOR_TEMP_RANGE_C = (-60.0, 250.0)
 MATERIAL_NAMES = ("copper", "aluminium", "aluminum", "cu", "al")
 
 
@@ -52,10 +61,12 @@ class Table:
         return key in self.data
 
     def number(self, key, default=None, *, positive=False, minimum=None, maximum=None, integer=False,
-               allow_zero=True):
+               allow_zero=True, hint=None):
+        """A number; ``hint(value)`` may name the unit a value out of [minimum, maximum] was typed in."""
         self.used.add(key)
         if key not in self.data:
             if default is None:
+                self._misspelt(key)
                 raise InputError(self.where, self.field(key), "is missing (expected a number)")
             return default
         value = self.data[key]
@@ -70,29 +81,40 @@ class Table:
         if not allow_zero and value == 0:
             raise InputError(self.where, self.field(key), "must not be zero")
         if minimum is not None and value < minimum:
-            raise InputError(self.where, self.field(key), f"must be at least {minimum:g}, got {value!r}")
+            raise InputError(self.where, self.field(key), with_hint(f"must be at least {minimum:g}, got {value!r}",
+                                                                    hint and hint(value)))
         if maximum is not None and value > maximum:
-            raise InputError(self.where, self.field(key), f"must be at most {maximum:g}, got {value!r}")
+            raise InputError(self.where, self.field(key), with_hint(f"must be at most {maximum:g}, got {value!r}",
+                                                                    hint and hint(value)))
         return int(value) if integer else float(value)
 
     def text(self, key, default=None, choices=None):
         self.used.add(key)
         if key not in self.data:
             if default is None:
+                self._misspelt(key)
                 raise InputError(self.where, self.field(key), "is missing (expected text)")
             return default
         value = self.data[key]
         if not isinstance(value, str):
             raise InputError(self.where, self.field(key), f"expected text, got {value!r}")
         if choices is not None and value not in choices:
-            raise InputError(self.where, self.field(key), f"expected one of {', '.join(choices)}, got {value!r}")
+            raise InputError(self.where, self.field(key), f"expected one of {', '.join(choices)}, got {value!r}"
+                                                          f"{did_you_mean(value, choices)}")
         return value
+
+    def _misspelt(self, key):
+        """Before calling a required key missing: is it there under a misspelling?"""
+        typo = nearest(key, set(self.data) - self.used)
+        if typo is not None:
+            raise InputError(self.where, self.field(typo), f"unknown key; did you mean {key!r}?")
 
     def finish(self):
         unknown = sorted(set(self.data) - self.used)
         if unknown:
             raise InputError(self.where, self.field(unknown[0]),
-                             "unknown key (check the spelling; README.md describes the file format)")
+                             f"unknown key{did_you_mean(unknown[0], self.used)} "
+                             "(README.md describes the file format)")
 
 
 def read_toml(path) -> tuple[dict, str]:
@@ -132,7 +154,8 @@ def parse_module(table: Table, base_dir: Path, _seen: frozenset = frozenset()) -
             raise InputError(ref_where, "[module]", "is missing (expected the module's datasheet values)")
         extra = sorted(set(data) - {"module"})
         if extra:
-            raise InputError(ref_where, extra[0], "unknown section (a module file holds only [module])")
+            raise InputError(ref_where, extra[0], f"unknown section{did_you_mean(extra[0], ['module'])} "
+                                                  "(a module file holds only [module])")
         return parse_module(Table(ref_where, "[module]", data["module"]), path.parent, _seen | {path})
     name = table.text("name", "")
     has_ds = any(table.has(k) for k in (*DATASHEET_KEYS, *DATASHEET_OPTIONAL) if k != "cells_in_series")
@@ -152,9 +175,17 @@ def parse_module(table: Table, base_dir: Path, _seen: frozenset = frozenset()) -
 
 
 def _conditions(table: Table):
-    g = table.number("irradiance_w_m2", float("nan"), minimum=0.0, maximum=MAX_IRRADIANCE_W_M2)
-    t = table.number("cell_temp_c", float("nan"), minimum=CELL_TEMP_RANGE_C[0], maximum=CELL_TEMP_RANGE_C[1])
+    g = table.number("irradiance_w_m2", float("nan"), minimum=IRRADIANCE_RANGE_W_M2[0],
+                     maximum=IRRADIANCE_RANGE_W_M2[1], hint=irradiance_hint)
+    t = table.number("cell_temp_c", float("nan"), minimum=CELL_TEMP_RANGE_C[0], maximum=CELL_TEMP_RANGE_C[1],
+                     hint=_temperature_hint(CELL_TEMP_RANGE_C))
+    if not math.isnan(g):
+        note(table.where, table.field("irradiance_w_m2"), design_irradiance_note(g))
     return (None if math.isnan(g) else g), (None if math.isnan(t) else t)
+
+
+def _temperature_hint(valid_c):
+    return lambda value: temperature_hint(value, *valid_c)
 
 
 def parse_group(table: Table, default_name: str) -> StringGroup:
@@ -167,9 +198,16 @@ def parse_group(table: Table, default_name: str) -> StringGroup:
     group = StringGroup(name, n_s, n_p, g, t,
                         tilt_deg=table.number("tilt_deg", 0.0, minimum=0.0, maximum=90.0),
                         azimuth_deg=table.number("azimuth_deg", 180.0, minimum=0.0, maximum=360.0),
-                        mounting=table.text("mounting", "open_rack"))
+                        mounting=table.text("mounting", "open_rack", choices=_mountings()))
     table.finish()
     return group
+
+
+def _mountings() -> tuple[str, ...]:
+    """The cell-temperature presets a group may name (the sky model's table, read when needed)."""
+    from pvsource.sky import MOUNTING_PRESETS
+
+    return tuple(MOUNTING_PRESETS)
 
 
 def parse_site(table: Table) -> Site:
@@ -212,7 +250,8 @@ def parse_cable(table: Table, index: int, group_names) -> CableRun:
     if material.lower() not in MATERIAL_NAMES:
         raise InputError(where, table.field("material"), f"expected one of copper, aluminium, got {material!r}")
     material = conductors.material_properties(material.lower()).name
-    temp_c = table.number("temp_c", conductors.DEFAULT_CONDUCTOR_TEMP_C, minimum=-60.0, maximum=250.0)
+    temp_c = table.number("temp_c", conductors.DEFAULT_CONDUCTOR_TEMP_C, minimum=CONDUCTOR_TEMP_RANGE_C[0],
+                          maximum=CONDUCTOR_TEMP_RANGE_C[1], hint=_temperature_hint(CONDUCTOR_TEMP_RANGE_C))
     conductor_class = int(table.number("conductor_class", 2, integer=True))
     if conductor_class not in conductors.STRANDING_FACTORS:
         raise InputError(where, table.field("conductor_class"),
@@ -334,7 +373,8 @@ def parse_bank(table: Table) -> Bank:
         strings=table.number("strings", integer=True, positive=True, maximum=1000),
         capacity_ah=table.number("capacity_ah", positive=True, maximum=1.0e6),
         soc=table.number("soc", minimum=0.0, maximum=1.0),
-        temp_c=table.number("temp_c", 25.0, minimum=-40.0, maximum=70.0),
+        temp_c=table.number("temp_c", 25.0, minimum=BANK_TEMP_RANGE_C[0], maximum=BANK_TEMP_RANGE_C[1],
+                            hint=_temperature_hint(BANK_TEMP_RANGE_C)),
     )
     table.finish()
     try:
@@ -359,6 +399,14 @@ def parse_load(table: Table) -> Load:
     return load
 
 
+def _item_label(kind: str, index: int, data) -> str:
+    """``[[cable]] "array to bank"`` for a named table in a list, ``[[cable]] #3`` for an unnamed one."""
+    name = data.get("name") if isinstance(data, dict) else None
+    if isinstance(name, str) and name.strip():
+        return f'[[{kind}]] "{name}"'
+    return f"[[{kind}]] #{index + 1}"
+
+
 def parse_system(data: dict, where: str, base_dir: Path) -> System:
     """Build a :class:`System` from parsed TOML; errors name ``where`` and the field."""
     top = Table(where, "", data)
@@ -366,7 +414,8 @@ def parse_system(data: dict, where: str, base_dir: Path) -> System:
     top.used.update({"module", "array", "group", "cable", "load", "controller", "bank", "site"})
     unknown = sorted(set(data) - top.used)
     if unknown:
-        raise InputError(where, f"[{unknown[0]}]", "unknown section or key (check the spelling)")
+        raise InputError(where, f"[{unknown[0]}]",
+                         f"unknown section or key{did_you_mean(unknown[0], top.used)} (check the spelling)")
     if "module" not in data:
         raise InputError(where, "[module]", "is missing (expected the module's datasheet values)")
     module = parse_module(Table(where, "[module]", data["module"]), base_dir)
@@ -379,7 +428,7 @@ def parse_system(data: dict, where: str, base_dir: Path) -> System:
         raw = data["group"]
         if not isinstance(raw, list) or not raw:
             raise InputError(where, "[[group]]", "expected one or more [[group]] tables")
-        groups = [parse_group(Table(where, f"[[group]] #{k + 1}", g), f"group {k + 1}") for k, g in enumerate(raw)]
+        groups = [parse_group(Table(where, _item_label("group", k, g), g), f"group {k + 1}") for k, g in enumerate(raw)]
         names = [g.name for g in groups]
         dup = sorted({n for n in names if names.count(n) > 1})
         if dup:
@@ -391,7 +440,7 @@ def parse_system(data: dict, where: str, base_dir: Path) -> System:
     raw_cables = data.get("cable", [])
     if not isinstance(raw_cables, list):
         raise InputError(where, "[[cable]]", "expected a list of [[cable]] tables")
-    cables = [parse_cable(Table(where, f"[[cable]] #{k + 1}", c), k, group_names) for k, c in enumerate(raw_cables)]
+    cables = [parse_cable(Table(where, _item_label("cable", k, c), c), k, group_names) for k, c in enumerate(raw_cables)]
     load = parse_load(Table(where, "[load]", data["load"])) if "load" in data else Load("mpp")
     controller = parse_controller(Table(where, "[controller]", data["controller"])) if "controller" in data else None
     bank = parse_bank(Table(where, "[bank]", data["bank"])) if "bank" in data else None
@@ -437,6 +486,7 @@ def load_module(path) -> Module:
         raise InputError(where, "[module]", "is missing (expected the module's datasheet values)")
     extra = sorted(set(data) - {"module"})
     if extra:
-        raise InputError(where, extra[0], "unknown section (a datasheet file holds only [module])")
+        raise InputError(where, extra[0], f"unknown section{did_you_mean(extra[0], ['module'])} "
+                                          "(a datasheet file holds only [module])")
     return parse_module(Table(where, "[module]", data["module"]), Path(path).parent,
                         frozenset({Path(path).resolve()}))

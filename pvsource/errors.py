@@ -3,9 +3,17 @@
 `InputError` is the one type for bad input: it carries where the problem is
 (a file, and a field or row inside it) and what was expected. The CLI prints
 it as one line on stderr and exits with code 2.
+
+:func:`note` is the gentler sibling: a value that is possible but unlikely
+(kW/m2 typed as W/m2) is let through and remarked on, through the
+``pvsource`` logger; the CLI prints each note as one line on stderr.
 """
 
 from __future__ import annotations
+
+import logging
+
+NOTES = logging.getLogger("pvsource")
 
 
 class InputError(ValueError):
@@ -31,6 +39,20 @@ class InputError(ValueError):
         parts = [p for p in (self.where, self.field) if p]
         text = ": ".join(parts + [self.expected])
         return " ".join(text.split())
+
+
+def note(where: str, field: str | None, text: str | None) -> None:
+    """Remark on an unlikely input without refusing it; nothing when ``text`` is None.
+
+    Parameters
+    ----------
+    where, field : str
+        As for :class:`InputError`.
+    text : str or None
+        What is unlikely and what was probably meant.
+    """
+    if text:
+        NOTES.warning(" ".join(": ".join(p for p in (where, field, text) if p).split()))
 
 
 class ConvergenceError(RuntimeError):

@@ -106,7 +106,7 @@ GOOD = (DATA / "example-system.toml").read_text().replace('file = "modules/ashgr
 @pytest.mark.parametrize("edit, field", [
     (("strings = 3\n", ""), "[array].strings"),
     (("strings = 3", "strings = 3\ncolour = 2"), "[array].colour"),
-    (("length_m = 12", "length_m = -1"), "[[cable]] #1.length_m"),
+    (("length_m = 12", "length_m = -1"), '[[cable]] "array to bank".length_m'),
     (("v_mp = 33.0", "v_mp = 45.0"), "[module].v_mp"),
     (("emf_v = 26.4", 'emf_v = "twenty"'), "[load].emf_v"),
     (("pmax_temp_coeff_pct = -0.37", "pmax_temp_coeff_pct = 0.37"), "[module].pmax_temp_coeff_pct"),
@@ -638,3 +638,13 @@ def test_sweep_and_explore_spell_their_shared_variables_alike():
 def test_a_misspelt_variable_suggests_the_nearest(capsys):
     code, out, err = run(capsys, "sweep", EXAMPLE, "--over", "bank_emv_v", "--from", "20", "--to", "30")
     assert code == 2 and err.count("\n") == 1 and "--over" in err and "did you mean 'bank_emf_v'" in err
+
+
+def test_an_unlikely_value_runs_with_a_one_line_note(capsys, tmp_path):
+    # kW/m2 typed as W/m2: possible (dusk light), so the command runs, and says what was probably meant.
+    code, out, err = run(capsys, "point", EXAMPLE, "--irradiance-w-m2", "1.0", "--json")
+    assert code == 0 and json.loads(out)["groups"][0]["irradiance_w_m2"] == 1.0
+    assert err.count("\n") == 1 and err.startswith("pvsource: note: --irradiance-w-m2: ") and "1000 W/m2" in err
+    path = _bad_file(tmp_path, GOOD.replace("irradiance_w_m2 = 800", "irradiance_w_m2 = 0.7"))
+    code, out, err = run(capsys, "point", path, "--json")
+    assert code == 0 and err.startswith(f"pvsource: note: {path}: [array].irradiance_w_m2: ") and "700 W/m2" in err

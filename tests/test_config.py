@@ -256,3 +256,82 @@ def test_a_run_carries_its_installation_and_protection(tmp_path):
     assert (run.fuse_a, run.fuse_interrupting_a) == (30.0, 10000.0)
     # NEC 310.16 90 degC 40 A x 310.15(B)(1) 0.87 (41-45 degC) x 310.15(C)(1) 0.80 = 27.84 A.
     assert run_ampacity(run).corrected_a == pytest.approx(27.84)
+
+
+# --- Units, typos and names in messages -------------------------------------------------------------
+
+
+def _edited(tmp_path, old, new, text=GOOD):
+    assert old in text
+    return write(tmp_path, text.replace(old, new, 1))
+
+
+def test_kw_per_m2_typed_as_w_per_m2_is_loaded_with_a_note(tmp_path, caplog):
+    path = _edited(tmp_path, "strings = 2\n", "strings = 2\nirradiance_w_m2 = 0.7\n")
+    with caplog.at_level("WARNING", logger="pvsource"):
+        system = load_system(path)
+    assert system.groups[0].irradiance_w_m2 == 0.7  # possible (dusk), so loaded as written
+    (message,) = [r.getMessage() for r in caplog.records]
+    assert str(path) in message and "[array].irradiance_w_m2" in message
+    assert "kW/m2" in message and "700 W/m2" in message  # 0.7 kW/m2 = 700 W/m2
+    caplog.clear()
+    with caplog.at_level("WARNING", logger="pvsource"):
+        load_system(_edited(tmp_path, "strings = 2\n", "strings = 2\nirradiance_w_m2 = 800\n"))
+    assert not caplog.records  # a sunny design point needs no remark
+
+
+@pytest.mark.parametrize("value, words", [
+    (150, ["degF", "65.6 degC"]),   # (150 - 32) x 5/9 = 65.6 (the Fahrenheit scale's definition)
+    (318, ["kelvin", "44.9 degC"]),  # 318 - 273.15 = 44.85 (the kelvin's definition)
+    (-100, []),                      # neither: no guess offered
+])
+def test_a_temperature_impossible_in_degc_names_the_likely_unit(tmp_path, value, words):
+    path = _edited(tmp_path, "strings = 2\n", f"strings = 2\ncell_temp_c = {value}\n")
+    with pytest.raises(InputError, match=r"\[array\]\.cell_temp_c") as exc:
+        load_system(path)
+    for word in words:
+        assert word in str(exc.value)
+    if not words:
+        assert "degF" not in str(exc.value) and "kelvin" not in str(exc.value)
+
+
+def test_an_illuminance_in_lux_is_refused_as_such(tmp_path):
+    with pytest.raises(InputError, match="lux"):
+        load_system(_edited(tmp_path, "strings = 2\n", "strings = 2\nirradiance_w_m2 = 95000\n"))
+
+
+def test_every_mounting_preset_loads_and_others_are_refused_when_the_file_loads(tmp_path):
+    from pvsource.sky import MOUNTING_PRESETS
+
+    for mounting in MOUNTING_PRESETS:
+        system = load_system(_edited(tmp_path, "strings = 2\n", f'strings = 2\nmounting = "{mounting}"\n'))
+        assert system.groups[0].mounting == mounting
+    path = _edited(tmp_path, "strings = 2\n", 'strings = 2\nmounting = "roof"\n')
+    with pytest.raises(InputError) as exc:
+        load_system(path)
+    assert str(path) in str(exc.value) and "[array].mounting" in str(exc.value) and "close_roof" in str(exc.value)
+
+
+@pytest.mark.parametrize("old, new, words", [
+    ("length_m = 12", "lenght_m = 12", ["[[cable]] #1.lenght_m", "unknown key", "did you mean 'length_m'"]),
+    ("strings = 2\n", "strings = 2\ntilt_dge = 30\n", ["[array].tilt_dge", "did you mean 'tilt_deg'"]),
+    ("[load]", "[laod]", ["[laod]", "did you mean 'load'"]),
+    ('kind = "battery"', 'kind = "batery"', ["[load].kind", "did you mean 'battery'"]),
+    ("strings = 2\n", "strings = 2\ncolour = 2\n", ["[array].colour", "unknown key"]),
+])
+def test_a_misspelt_key_or_value_suggests_the_nearest(tmp_path, old, new, words):
+    with pytest.raises(InputError) as exc:
+        load_system(_edited(tmp_path, old, new))
+    for word in words:
+        assert word in str(exc.value)
+    if "colour" in new:
+        assert "did you mean" not in str(exc.value)  # nothing near: no guess
+
+
+def test_runs_and_groups_are_named_by_their_name(tmp_path):
+    named = GOOD.replace("[[cable]]\n", '[[cable]]\nname = "array to bank"\n')
+    with pytest.raises(InputError, match=r'\[\[cable\]\] "array to bank"\.length_m: must be greater than zero'):
+        load_system(_edited(tmp_path, "length_m = 12", "length_m = -1", named))
+    groups = GOOD.replace("[array]\n", '[[group]]\nname = "east"\n')
+    with pytest.raises(InputError, match=r'\[\[group\]\] "east"\.strings'):
+        load_system(_edited(tmp_path, "strings = 2", "strings = 0", groups))

@@ -37,6 +37,18 @@ CASES = {
     "nonsense size": ("point {c}/nonsense-size.toml", ["size", "garden hose"]),
     "positive Voc coefficient": ("point {c}/negative-temp-coefficient-sign.toml", ["voc_temp_coeff_pct"]),
     "missing file": ("point {c}/no-such-file.toml", ["no-such-file.toml", "cannot be read"]),
+    # enumerated keys are checked when the file loads; typos get the nearest name
+    "unknown mounting": ("check {c}/unknown-mounting.toml --min-air-c -10 --max-air-c 40",
+                         ["unknown-mounting.toml", "[array].mounting", "open_rack", "'roof'"]),
+    "misspelt cable key": ("point {c}/misspelt-cable-key.toml",
+                           ['[[cable]] "array to controller".lenght_m', "unknown key", "did you mean 'length_m'"]),
+    "misspelt section": ("point {c}/misspelt-section.toml", ["[controler]", "did you mean 'controller'"]),
+    "misspelt role": ("point {c}/misspelt-role.toml", ['"controller to bank".role', "did you mean 'bank'"]),
+    # a value impossible in its unit names the unit it was probably typed in
+    "cell temperature in degF": ("point {c}/cell-temp-in-fahrenheit.toml", ["[array].cell_temp_c", "degF", "65.6"]),
+    "cell temperature in kelvin": ("point {c}/cell-temp-in-kelvin.toml", ["[array].cell_temp_c", "kelvin", "44.9"]),
+    "irradiance in lux": ("point {c}/irradiance-in-lux.toml", ["[array].irradiance_w_m2", "lux"]),
+    "bank temperature in degF": ("point {c}/bank-temp-in-fahrenheit.toml", ["[bank].temp_c", "degF", "35.0"]),
     # datasheets
     "empty datasheet": ("fit {c}/ds-empty.toml", ["ds-empty.toml", "empty"]),
     "datasheet vmp above voc": ("fit {c}/ds-vmp-above-voc.toml", ["[module].v_mp"]),
@@ -87,6 +99,9 @@ CASES = {
         "--energy-value 1 --bad-rows maybe", ["--bad-rows"]),
     "fleet with an unknown transposition": ("fleet {c} --out {out} --transposition klucher", ["--transposition"]),
     "check without temperatures": ("check {c}/good-system.toml", ["--min-air-c"]),
+    "cell temperature option in kelvin": ("point {c}/good-system.toml --cell-temp-c 300", ["--cell-temp-c", "kelvin"]),
+    "air temperature option in degF": ("check {c}/good-system.toml --min-air-c -10 --max-air-c 100",
+                                       ["--max-air-c", "degF", "37.8"]),
 }
 
 
