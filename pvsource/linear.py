@@ -81,12 +81,16 @@ def linearise(v, i, conductance_s) -> Equivalent:
 def matching_ratio(v, i, r_th_ohm):
     """Load static resistance over source dynamic resistance, (V/I) / R_th [-].
 
-    1 at maximum power transfer; NaN where no current flows.
+    1 at maximum power transfer; NaN where no current flows. A current whose
+    drop across R_th is below 1e-9 of the terminal voltage counts as none: it
+    is the solver's residual at open circuit (a tracker resting at Voc in
+    float), not a current, and V/I there would read as about 1e15.
     """
     v, i, r = (np.asarray(a, float) for a in (v, i, r_th_ohm))
-    with np.errstate(divide="ignore", invalid="ignore"):
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         m = v / (i * r)
-    return np.where(i == 0.0, np.nan, m)
+    no_current = (i == 0.0) | (np.abs(i * r) <= 1e-9 * np.abs(v))
+    return np.where(no_current, np.nan, m)
 
 
 def linear_transfer(e_v, r_source_ohm, r_load_ohm):

@@ -88,3 +88,19 @@ def test_superposition_with_a_stiff_load_stays_finite():
     assert shares[0] == pytest.approx(10.0)
     assert load_share == pytest.approx(-6.0)
     assert total == pytest.approx(4.0)
+
+
+def test_matching_ratio_at_pvlibs_open_circuit_is_undefined(demo_module):
+    # Reference: pvlib's Voc and its i_from_v there (tests/reference.py). At Voc the
+    # current is only the solver's residual (about 1e-14 A, either sign), so V/I is no
+    # load resistance; just below Voc a real, small current gives a large finite m.
+    diode = ref.diode_at(demo_module.parameters, 800.0, 45.0)
+    groups = [ref.group(diode, 1, 1)]
+    v_oc = float(ref.key_points(diode)["v_oc"])
+    r_th = 1.0 / ref.conductance(groups, v_oc)
+    for residual in (-1e-14, 0.0, 1e-14):
+        assert np.isnan(linear.matching_ratio(v_oc, residual, r_th))
+    v = 0.995 * v_oc
+    i = ref.array_current(groups, v)
+    m = float(linear.matching_ratio(v, i, 1.0 / ref.conductance(groups, v)))
+    assert i > 1e-3 and 1.0 < m < 1e4
