@@ -38,7 +38,9 @@ _EXITS = tuple({typer.Exit, getattr(_cli_errors, "Exit", typer.Exit)})
 _ABORTS = tuple({typer.Abort, getattr(_cli_errors, "Abort", typer.Abort), KeyboardInterrupt})
 
 from pvsource import __version__, cautions
-from pvsource.errors import NOTES, ConvergenceError, InputError, PhysicsGuardError, note
+from pvsource.errors import NOTES, ConvergenceError, EnvironmentFailure, InputError, PhysicsGuardError, note
+from pvsource.inputs import MAX_WEATHER_MB, recording
+from pvsource.outfolder import environment_reason, open_run
 from pvsource.units import (
     CELL_TEMP_RANGE_C, IRRADIANCE_RANGE_W_M2, design_irradiance_note, irradiance_hint,
     temperature_hint, with_hint,
@@ -421,15 +423,30 @@ def _progress(label: str):
     return report
 
 
-def _season_outputs(system, weather, out: Path, force: bool, transposition: str, as_json: bool, inputs=(),
-                    steps_csv: bool = False) -> None:
-    from pvsource.report import prepare_folder, write_report
+def _options(params: dict) -> dict:
+    """A command's parameters as the run manifest records them."""
+    return {k: (str(v) if isinstance(v, Path) else v) for k, v in params.items()}
+
+
+MAX_WEATHER_HELP = f"Largest weather file accepted [MB]; default {MAX_WEATHER_MB}."
+
+
+def _max_weather(value: float) -> float:
+    if not math.isfinite(value) or not 0 < value <= 1e6:
+        raise InputError("--max-weather-mb", None, f"expected a size above 0 and at most 1000000 MB, got {value!r}")
+    return value
+
+
+def _season_outputs(system, weather, out: Path, force: bool, transposition: str, as_json: bool,
+                    command: str, options: dict, inputs=(), steps_csv: bool = False) -> None:
+    from pvsource.report import OUTPUT_NAMES, write_report
     from pvsource.season import run_season
     from pvsource.terminal import render_season
 
-    folder = prepare_folder(out, force, inputs)
-    result = run_season(system, weather, transposition=transposition, progress=_progress("season"))
-    write_report(folder, system, result, weather, steps_csv=steps_csv)
+    with open_run(out, force, command, options, inputs, OUTPUT_NAMES) as run:
+        folder = run.path
+        result = run_season(system, weather, transposition=transposition, progress=_progress("season"))
+        run.finish(write_report(folder, system, result, weather, steps_csv=steps_csv))
     if as_json:
         summary = {k: v for k, v in result.summary.items()}
         summary["out"] = str(folder)
@@ -458,7 +475,7 @@ TimeFormatOption = Annotated[Optional[str], typer.Option(
     help="strftime pattern of the CSV timestamps, e.g. '%d.%m.%Y %H:%M' (default: ISO 8601).")]
 
 
-def _weather_reader(column, tz, policy, transposition, time_label, time_format):
+def _weather_reader(column, tz, policy, transposition, time_label, time_format, max_weather_mb=MAX_WEATHER_MB):
     """Check the weather options once; return a function that reads one weather file with them."""
     policy, transposition = str(policy), str(transposition)
     time_label = None if time_label is None else str(time_label)
@@ -468,6 +485,7 @@ def _weather_reader(column, tz, policy, transposition, time_label, time_format):
         raise InputError("--bad-rows", None, f"expected fail, fill or skip, got {policy!r}")
     if time_label is not None and time_label not in TIME_LABELS:
         raise InputError("--time-label", None, f"expected one of {', '.join(TIME_LABELS)}, got {time_label!r}")
+    max_mb = _max_weather(max_weather_mb)
     columns = {}
     for text in column or []:
         name, sep, csv_name = text.partition("=")
@@ -479,7 +497,7 @@ def _weather_reader(column, tz, policy, transposition, time_label, time_format):
         from pvsource.weather import read_weather
 
         return read_weather(path, columns=columns or None, tz=tz, policy=policy, time_label=time_label,
-                            time_format=time_format)
+                            time_format=time_format, max_mb=max_mb)
     return read
 
 
@@ -498,15 +516,18 @@ def season(
                                                                 "one-minute steps; steps.parquet always has them).")] = False,
     force: Annotated[bool, typer.Option("--force", help="Write into a folder that already holds files.")] = False,
     as_json: Annotated[bool, typer.Option("--json", help="Print the summary as one JSON object.")] = False,
+    max_weather_mb: Annotated[float, typer.Option("--max-weather-mb", help=MAX_WEATHER_HELP)] = MAX_WEATHER_MB,
 ):
     """A season of weather through the whole system: energy, losses, stages, state of charge; tables, figures, report."""
+    options = _options(locals())
     from pvsource.config import load_system
 
-    read = _weather_reader(column, tz, policy, transposition, time_label, time_format)
+    read = _weather_reader(column, tz, policy, transposition, time_label, time_format, max_weather_mb)
     transposition = str(transposition)
-    system = load_system(system_file)
-    weather = read(weather_file)
-    _season_outputs(system, weather, out, force, transposition, as_json, (system_file, weather_file), steps_csv)
+    with recording() as inputs:
+        system = load_system(system_file)
+        weather = read(weather_file)
+    _season_outputs(system, weather, out, force, transposition, as_json, "season", options, inputs, steps_csv)
 
 
 @app.command()
@@ -521,6 +542,7 @@ def demo(
         "--days", metavar="N", help="Study only the first N days of the year (1 to 365), for a quick look.")] = None,
 ):
     """The whole season study on the built-in invented cabin and a synthetic, reproducible weather year."""
+    options = _options(locals())
     if days is not None and not 1 <= days <= 365:
         raise InputError("--days", None, f"expected a whole number of days from 1 to 365, got {days}")
     from pvsource.demo import demo_system, synthetic_weather
@@ -531,7 +553,7 @@ def demo(
         import pandas as pd
 
         weather = weather[weather.index < weather.index[0] + pd.Timedelta(days=days)]
-    _season_outputs(system, weather, out, force, "perez", as_json, steps_csv=steps_csv)
+    _season_outputs(system, weather, out, force, "perez", as_json, "demo", options, steps_csv=steps_csv)
 
 
 @app.command()
@@ -564,38 +586,47 @@ def explore(
         "--scheduler", metavar="ADDRESS", help="A running dask scheduler, e.g. tcp://10.0.0.5:8786.")] = None,
     force: Annotated[bool, typer.Option("--force", help="Write into a folder that already holds files.")] = False,
     as_json: Annotated[bool, typer.Option("--json", help="Print the ranked rows as JSON.")] = False,
+    max_weather_mb: Annotated[float, typer.Option("--max-weather-mb", help=MAX_WEATHER_HELP)] = MAX_WEATHER_MB,
 ):
     """Every combination of design choices over a weather year, checked, ranked, with the cost-energy front."""
+    options = _options(locals())
     for name, value, lo, hi in (("--price-per-kg", price_per_kg, 0.0, 1e4), ("--energy-value", energy_value, 0.0, 1e4),
                                 ("--years", years, 0.1, 100.0)):
         if not math.isfinite(value) or not lo <= value <= hi:
             raise InputError(name, None, f"expected {lo:g} to {hi:g}, got {value!r}")
-    read = _weather_reader(column, tz, policy, transposition, time_label, time_format)
+    read = _weather_reader(column, tz, policy, transposition, time_label, time_format, max_weather_mb)
     from pvsource.config import load_system
+    from pvsource.explore import EXPLORE_OUTPUTS, PARTS, RESUME_RECORD, parse_vary
     from pvsource.explore import explore as run_explore
-    from pvsource.explore import parse_vary
-    from pvsource.report import json_ready, prepare_folder
+    from pvsource.report import json_ready
     from pvsource.terminal import render_explore
 
+    with recording() as inputs:
+        system = load_system(system_file)
+
     engine, transposition = str(engine), str(transposition)
-    system = load_system(system_file)
     if workers is not None and not 1 <= workers <= 1024:
         raise InputError("--workers", None, f"expected 1 to 1024, got {workers}")
     if scheduler is not None and engine != "dask":
         raise InputError("--scheduler", None, "goes with --engine dask")
     choices = parse_vary(vary, system)
-    weather = read(weather_file)
-    folder = prepare_folder(out, force or resume, (system_file, weather_file))
-    ranked = run_explore(system, weather, choices, folder,
-                         {"price_per_kg": price_per_kg, "energy_value": energy_value, "years": years,
-                          "budget_fraction": _budget_fraction(budget_pct)},
-                         resume=resume, progress=_progress("explore"), engine=engine, workers=workers,
-                         scheduler=scheduler, transposition=transposition)
-    table = ranked.copy()
-    _atomic_frame(folder / "results.parquet", table)
-    if (~ranked["excluded"]).any():
-        from pvsource.plots import pareto_figure
-        pareto_figure(ranked, folder / "pareto.png")
+    with recording() as more:
+        weather = read(weather_file)
+    inputs += more
+    prices = {"price_per_kg": price_per_kg, "energy_value": energy_value, "years": years,
+              "budget_fraction": _budget_fraction(budget_pct)}
+    with open_run(out, force or resume, "explore", options, inputs, EXPLORE_OUTPUTS) as run:
+        folder = run.path
+        ranked = run_explore(system, weather, choices, folder, prices, resume=resume, progress=_progress("explore"),
+                             engine=engine, workers=workers, scheduler=scheduler, transposition=transposition,
+                             fingerprint=_fingerprint(inputs, options), force=force)
+        written = [*(folder / PARTS / f"{i}.parquet" for i in ranked["id"]), folder / RESUME_RECORD,
+                   folder / "results.parquet"]
+        _atomic_frame(folder / "results.parquet", ranked)
+        if (~ranked["excluded"]).any():
+            from pvsource.plots import pareto_figure
+            written.append(pareto_figure(ranked, folder / "pareto.png"))
+        run.finish(written)
     rows = json_ready(ranked.to_dict(orient="records"))
     if as_json:
         _emit_json({"rows": rows, "out": str(folder)})
@@ -616,29 +647,40 @@ def fleet(
     time_format: TimeFormatOption = None,
     force: Annotated[bool, typer.Option("--force", help="Write into a folder that already holds files.")] = False,
     as_json: Annotated[bool, typer.Option("--json", help="Print the table as JSON rows.")] = False,
+    max_weather_mb: Annotated[float, typer.Option("--max-weather-mb", help=MAX_WEATHER_HELP)] = MAX_WEATHER_MB,
 ):
     """The season study over many systems and weather files, with one summary table across them."""
+    options = _options(locals())
     from pvsource.config import load_system
     from pvsource.explore import fleet_table, read_fleet
-    from pvsource.report import json_ready, prepare_folder
+    from pvsource.report import json_ready
     from pvsource.season import run_season
 
-    read = _weather_reader(column, tz, policy, transposition, time_label, time_format)
     transposition = str(transposition)
-    members = read_fleet(source)
-    folder = prepare_folder(out, force, [p for _, s_, w in members for p in (s_, w)])
-    report = _progress("fleet")
-    results = []
-    for k, (name, system_file, weather_file) in enumerate(members):
-        system = load_system(system_file)
-        result = run_season(system, read(weather_file), transposition=transposition)
-        results.append((name, result.summary))
-        if report:
-            report(k + 1, len(members))
-    table = fleet_table(results)
-    _atomic_frame(folder / "fleet.parquet", table)
     from pvsource.files import write_text
-    write_text(folder / "fleet.csv", table.to_csv(index=False))
+
+    read = _weather_reader(column, tz, policy, transposition, time_label, time_format, max_weather_mb)
+    with recording() as inputs:
+        members = read_fleet(source)
+        # Systems (and their module files) are read before the folder is opened,
+        # so every input can be checked against the outputs; weather is read one
+        # member at a time.
+        systems = [load_system(system_file) for _, system_file, _ in members]
+    with open_run(out, force, "fleet", options, inputs, ("fleet.parquet", "fleet.csv"),
+                  extra_paths=[w for _, _, w in members]) as run:
+        folder = run.path
+        report = _progress("fleet")
+        results = []
+        with recording() as weathers:
+            for k, ((name, _, weather_file), system) in enumerate(zip(members, systems)):
+                result = run_season(system, read(weather_file), transposition=transposition)
+                results.append((name, result.summary))
+                if report:
+                    report(k + 1, len(members))
+        table = fleet_table(results)
+        _atomic_frame(folder / "fleet.parquet", table)
+        write_text(folder / "fleet.csv", table.to_csv(index=False))
+        run.finish([folder / "fleet.parquet", folder / "fleet.csv"], weathers)
     if as_json:
         _emit_json({"rows": json_ready(table.to_dict(orient="records")), "out": str(folder)})
     else:
@@ -650,6 +692,23 @@ def _atomic_frame(path: Path, frame) -> None:
     from pvsource.files import atomic_write
 
     atomic_write(path, lambda tmp: frame.to_parquet(tmp))
+
+
+# What an explore result depends on besides the combination itself: a resume
+# reuses finished combinations only when all of these are unchanged.
+RESULT_OPTIONS = ("price_per_kg", "energy_value", "years", "tz")
+
+
+def _fingerprint(inputs, options: dict) -> dict:
+    """Input hashes and the options that shape each explore result."""
+    kinds: dict[str, int] = {}
+    found = {}
+    for r in inputs:
+        kinds[r.kind] = kinds.get(r.kind, 0) + 1
+        label = r.kind if kinds[r.kind] == 1 else f"{r.kind} {kinds[r.kind]}"
+        found[f"the {label} file's content"] = r.sha256
+    found.update({f"--{k.replace('_', '-')}": options[k] for k in RESULT_OPTIONS})
+    return found
 
 
 @app.command()
@@ -758,6 +817,8 @@ def main(argv: list[str] | None = None) -> None:
         _fail(exc.format_message(), 2)
     except (ConvergenceError, PhysicsGuardError) as exc:
         _fail(str(exc), 1)
+    except EnvironmentFailure as exc:
+        _fail(str(exc), 3)
     except _EXITS as exc:
         sys.exit(exc.exit_code)
     except _ABORTS:
@@ -765,6 +826,9 @@ def main(argv: list[str] | None = None) -> None:
     except BrokenPipeError:
         sys.exit(0)
     except Exception as exc:  # noqa: BLE001 - the last line of defence: one line, never a traceback
+        reason = environment_reason(exc)
+        if reason is not None:  # a full or read-only disk is not a bug
+            _fail(f"{getattr(exc, 'filename', None) or 'an output'}: {reason}", 3)
         _fail(f"internal error ({type(exc).__name__}: {exc}); please report it with the input that caused it", 1)
     finally:
         NOTES.removeHandler(handler)

@@ -23,6 +23,7 @@ from pvsource.bank import CHEMISTRIES, Bank, make_bank
 from pvsource.bank import charge_voltages_v as bank_charge_voltages
 from pvsource.controller import DEFAULT_EFFICIENCY_CURVE, KINDS, Controller
 from pvsource.errors import InputError, note
+from pvsource.inputs import MAX_TOML_BYTES, check_toml_shape, read_bounded
 from pvsource.module import Datasheet, DiodeParameters, Module, fit_datasheet, module_from_parameters
 from pvsource.names import did_you_mean, nearest
 from pvsource.system import LOAD_KINDS, Load, Site, System
@@ -117,20 +118,22 @@ class Table:
                              "(README.md describes the file format)")
 
 
-def read_toml(path) -> tuple[dict, str]:
-    """Parse a TOML file; any failure is an InputError naming the file."""
+def read_toml(path, kind: str = "system") -> tuple[dict, str]:
+    """Parse a TOML file; any failure is an InputError naming the file.
+
+    The file is read once within `inputs.MAX_TOML_BYTES`, and its shape is
+    checked before the parser runs (`inputs.check_toml_shape`).
+    """
     path = Path(path)
     where = str(path)
-    try:
-        raw = path.read_bytes()
-    except OSError as exc:
-        raise InputError(where, None, f"cannot be read ({exc.strerror or exc})") from None
+    raw = read_bounded(path, MAX_TOML_BYTES, kind)
     if not raw.strip():
         raise InputError(where, None, "is empty (expected a TOML system description)")
     try:
         text = raw.decode("utf-8-sig")
     except UnicodeDecodeError:
         raise InputError(where, None, "is not UTF-8 text (expected a TOML file)") from None
+    check_toml_shape(text, where)
     try:
         return tomllib.loads(text), where
     except tomllib.TOMLDecodeError as exc:
@@ -149,7 +152,7 @@ def parse_module(table: Table, base_dir: Path, _seen: frozenset = frozenset()) -
         path = (base_dir / ref).resolve()
         if path in _seen:
             raise InputError(where, table.field("file"), f"refers back to {ref!r}: module files form a loop")
-        data, ref_where = read_toml(base_dir / ref)
+        data, ref_where = read_toml(base_dir / ref, "module")
         if "module" not in data:
             raise InputError(ref_where, "[module]", "is missing (expected the module's datasheet values)")
         extra = sorted(set(data) - {"module"})
@@ -481,7 +484,7 @@ def load_system(path) -> System:
 
 def load_module(path) -> Module:
     """Read a datasheet file (a ``[module]`` table) and fit or accept its parameters."""
-    data, where = read_toml(path)
+    data, where = read_toml(path, "datasheet")
     if "module" not in data:
         raise InputError(where, "[module]", "is missing (expected the module's datasheet values)")
     extra = sorted(set(data) - {"module"})

@@ -61,3 +61,16 @@ class ConvergenceError(RuntimeError):
 
 class PhysicsGuardError(RuntimeError):
     """A computed result broke a physical law or bound and was not returned."""
+
+
+class EnvironmentFailure(OSError):
+    """The machine refused an output: a full disk, a read-only or unwritable folder, a missing permission.
+
+    Not a bug and not bad input: the CLI prints the path and the reason in
+    one line and exits with code 3.
+    """
+
+    def __init__(self, path, reason: str):
+        self.path = str(path)
+        self.reason = reason
+        super().__init__(f"{self.path}: {reason}")

@@ -19,11 +19,17 @@ interrupted search loses nothing finished, and ``resume`` skips what is done.
 
 from __future__ import annotations
 
+import ctypes
 import functools
 import hashlib
+import io
 import itertools
 import json
 import os
+import signal
+import sys
+import threading
+import time
 from dataclasses import replace
 from pathlib import Path
 
@@ -36,6 +42,7 @@ from pvsource.checks import design_checks
 from pvsource.errors import InputError
 from pvsource.files import atomic_write
 from pvsource.names import canonical
+from pvsource.inputs import MAX_TOML_BYTES, read_bounded
 from pvsource.runs import drop_budget_reasons, resize_run
 from pvsource.season import run_season
 from pvsource.system import System
@@ -197,6 +204,46 @@ def _write_part(folder: Path, row: dict) -> None:
 
 
 ENGINES = ("local", "dask")
+PARTS = "parts"
+# What the finished parts were made from (input hashes and result-shaping options).
+RESUME_RECORD = "resume.json"
+EXPLORE_OUTPUTS = ("results.parquet", "pareto.png", RESUME_RECORD, PARTS)
+
+
+def _start_parts(out: Path, fingerprint: dict | None, resume: bool, force: bool) -> Path:
+    """The parts folder, holding only parts made from these inputs.
+
+    A fresh run starts from no parts. A resume keeps them only when the
+    recorded inputs equal ``fingerprint``; otherwise it stops naming what
+    changed, or with ``force`` starts afresh.
+    """
+    parts = Path(out) / PARTS
+    parts.mkdir(parents=True, exist_ok=True)
+    record = Path(out) / RESUME_RECORD
+    existing = sorted(parts.glob("*.parquet"))
+    if resume and existing and fingerprint is not None:
+        try:
+            old = json.loads(record.read_text(encoding="utf-8"))
+        except (OSError, ValueError):
+            old = None
+        if old is None:
+            changed = f"no readable {RESUME_RECORD} says which inputs made them"
+        else:
+            diff = [k for k in (*fingerprint, *old) if old.get(k) != fingerprint.get(k)]
+            changed = None if not diff else f"{diff[0]} changed" + (
+                f" ({old.get(diff[0])!r} then, {fingerprint.get(diff[0])!r} now)" if not diff[0].startswith("the ")
+                else "")
+        if changed and not force:
+            raise InputError("--resume", None, f"the finished combinations in {str(out)!r} were made from other "
+                                               f"inputs: {changed}; give --force to recompute them")
+        resume = not changed
+    if not resume:
+        for p in existing:
+            os.remove(p)
+    if fingerprint is not None:
+        from pvsource.files import write_text
+        write_text(record, json.dumps(fingerprint, indent=2))
+    return parts
 
 
 def _run_local(task, system, weather, todo, prices, parts: Path, workers: int | None, report) -> None:
@@ -209,11 +256,53 @@ def _run_local(task, system, weather, todo, prices, parts: Path, workers: int | 
         return
     from concurrent.futures import ProcessPoolExecutor, as_completed
 
-    with ProcessPoolExecutor(max_workers=min(workers, len(todo))) as pool:
+    pool = ProcessPoolExecutor(max_workers=min(workers, len(todo)), initializer=die_with_parent,
+                               initargs=(os.getpid(),))
+    try:
         futures = [pool.submit(task, system, weather, combo, prices) for combo in todo]
         for future in as_completed(futures):
             _write_part(parts, future.result())
             report()
+    except BaseException:
+        # Ctrl-C or a failed task: stop the workers now rather than let the
+        # pool finish every queued combination first.
+        workers_now = list((getattr(pool, "_processes", None) or {}).values())
+        pool.shutdown(wait=False, cancel_futures=True)
+        for process in workers_now:
+            process.terminate()
+        raise
+    pool.shutdown()
+
+
+PR_SET_PDEATHSIG = 1  # linux/prctl.h
+
+
+def die_with_parent(parent_pid: int, poll_s: float = 1.0) -> None:
+    """Pool initializer: end this worker when the process that started it ends.
+
+    On Linux the kernel is asked to SIGKILL the worker when its parent dies
+    (``prctl(PR_SET_PDEATHSIG)``); everywhere, a thread also watches the
+    parent's process id and exits when the worker has been orphaned. So a
+    killed ``explore`` (SIGKILL, SIGTERM) leaves no worker behind.
+    """
+    if sys.platform.startswith("linux"):
+        try:
+            ctypes.CDLL(None, use_errno=True).prctl(PR_SET_PDEATHSIG, signal.SIGKILL)
+        except (OSError, AttributeError):
+            pass
+
+    def orphaned() -> bool:
+        return os.getppid() != parent_pid
+
+    if orphaned():  # the parent died before the request was made
+        os._exit(1)
+
+    def watch():
+        while not orphaned():
+            time.sleep(poll_s)
+        os._exit(1)
+
+    threading.Thread(target=watch, name="pvsource-parent-watch", daemon=True).start()
 
 
 def _run_dask(task, system, weather, todo, prices, parts: Path, workers: int | None, scheduler: str | None,
@@ -247,7 +336,8 @@ def _run_dask(task, system, weather, todo, prices, parts: Path, workers: int | N
 
 def explore(system: System, weather: pd.DataFrame, vary: dict, out: Path, prices: dict,
             resume: bool = False, progress=None, engine: str = "local", workers: int | None = None,
-            scheduler: str | None = None, transposition: str = "perez") -> pd.DataFrame:
+            scheduler: str | None = None, transposition: str = "perez", fingerprint: dict | None = None,
+            force: bool = False) -> pd.DataFrame:
     """Run every combination (skipping finished ones when resuming) and rank them.
 
     Parameters
@@ -258,6 +348,11 @@ def explore(system: System, weather: pd.DataFrame, vary: dict, out: Path, prices
         ``local``: in this process, or a process pool over ``workers`` cores
         (default: all). ``dask``: dask.distributed, on the ``scheduler``
         address given, or a LocalCluster of ``workers`` processes.
+    fingerprint : dict, optional
+        What the results depend on besides the combination (input hashes,
+        prices), kept in ``resume.json``. A resume with another fingerprint
+        raises an InputError naming the first difference, or with ``force``
+        recomputes every combination.
 
     Returns
     -------
@@ -268,8 +363,7 @@ def explore(system: System, weather: pd.DataFrame, vary: dict, out: Path, prices
     """
     if engine not in ENGINES:
         raise InputError("--engine", None, f"expected one of {', '.join(ENGINES)}, got {engine!r}")
-    parts = Path(out) / "parts"
-    parts.mkdir(parents=True, exist_ok=True)
+    parts = _start_parts(out, fingerprint, resume, force)
     keys = list(vary)
     combos = [dict(zip(keys, values)) for values in itertools.product(*(vary[k] for k in keys))]
     done = {p.stem for p in parts.glob("*.parquet")} if resume else set()
@@ -321,8 +415,9 @@ def read_fleet(source) -> list[tuple[str, Path, Path]]:
         if not pairs:
             raise InputError(str(source), None, "holds no system files (*.toml)")
         return pairs
+    data = read_bounded(source, MAX_TOML_BYTES, "fleet manifest")
     try:
-        manifest = pd.read_csv(source, dtype=str, keep_default_na=False)
+        manifest = pd.read_csv(io.BytesIO(data), dtype=str, keep_default_na=False)
     except (OSError, ValueError, UnicodeDecodeError) as exc:
         raise InputError(str(source), None, f"cannot be read as a manifest CSV ({exc})") from None
     missing = [c for c in ("name", "system", "weather") if c not in manifest.columns]

@@ -1,8 +1,8 @@
 """Writing a season study to a folder: tables, summary, figures and one HTML report.
 
 Every file is written under a temporary name and renamed into place, so an
-interrupted run never leaves a half-written file under a real name. A folder
-that already holds files is only written into with ``force``.
+interrupted run never leaves a half-written file under a real name. The folder
+itself (lock, clash checks, run.json) is :mod:`pvsource.outfolder`'s job.
 """
 
 from __future__ import annotations
@@ -16,7 +16,6 @@ import numpy as np
 from pvsource import plots
 from pvsource.checks import design_checks
 from pvsource.curves import array_curves, thevenin_at
-from pvsource.errors import InputError
 from pvsource.files import atomic_write, write_text
 from pvsource.report_page import render_page
 from pvsource.season import SeasonResult, clock_ns, hourly_table
@@ -44,19 +43,6 @@ def json_ready(obj):
 OUTPUT_NAMES = ("steps.parquet", "steps.csv", "hourly.csv", "summary.json", "monthly.csv", "report.html", *FIGURES)
 
 
-def prepare_folder(out: Path, force: bool, inputs=()) -> Path:
-    """Create ``out`` if needed; refuse a non-empty folder unless ``force``,
-    and any folder where an output would replace one of the ``inputs``."""
-    out = Path(out)
-    for path in inputs:
-        if Path(path).resolve() in {(out / name).resolve() for name in OUTPUT_NAMES}:
-            raise InputError("--out", None, f"would overwrite the input {str(path)!r}; choose another folder")
-    if out.exists() and not out.is_dir():
-        raise InputError("--out", None, f"{str(out)!r} is a file, not a folder")
-    if out.exists() and any(out.iterdir()) and not force:
-        raise InputError("--out", None, f"{str(out)!r} is not empty; give --force to write into it")
-    out.mkdir(parents=True, exist_ok=True)
-    return out
 
 
 def telling_hours(steps, count: int = 4) -> list[tuple[int, str]]:

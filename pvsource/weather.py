@@ -27,6 +27,7 @@ import pandas as pd
 from pvlib import iotools
 
 from pvsource.errors import InputError
+from pvsource.inputs import MAX_WEATHER_MB, MB, read_bounded
 
 NAMES = ("timestamp", "ghi", "dni", "dhi", "poa_global", "temp_air", "wind_speed", "load_w")
 IRRADIANCE = ("ghi", "dni", "dhi", "poa_global")
@@ -45,9 +46,15 @@ FILL_LIMIT = 3
 # Non-leap, so a typical year's 8760 hours (from several source years) become
 # one increasing series without a gap.
 TYPICAL_YEAR = 1990
+# Above the highest gust ever measured at a weather station (113 m/s, Barrow
+# Island 1996; from memory): a logger fault, not wind.
+WIND_MAX_M_S = 120.0
+# 10 MW from a battery bank is far beyond any system pvsource models; above it
+# a load column is a unit or logger fault (and 1e308 or inf would poison sums).
+LOAD_MAX_W = 1.0e7
 # Beyond these SI bounds a value is a fault, not weather.
 BOUNDS = dict.fromkeys(IRRADIANCE, (-5.0, 1500.0)) | {
-    "temp_air": (-60.0, 70.0), "wind_speed": (0.0, np.inf), "load_w": (0.0, np.inf)}
+    "temp_air": (-60.0, 70.0), "wind_speed": (0.0, WIND_MAX_M_S), "load_w": (0.0, LOAD_MAX_W)}
 SI_LABEL = dict.fromkeys(IRRADIANCE, "W/m2") | {"temp_air": "degC", "wind_speed": "m/s", "load_w": "W"}
 _F, _K = (5 / 9, -160 / 9), (1.0, -273.15)
 # unit text in a header cell -> (scale, offset): si = value * scale + offset
@@ -63,7 +70,7 @@ _OFFSET = r"\d:\d\d(?::\d\d(?:\.\d+)?)?\s*(?:Z|[+-]\d\d(?::?\d\d)?)$"
 
 def read_weather(path, *, columns: dict | None = None, tz: str | None = None,
                  policy: str = "fail", time_label: str | None = None,
-                 time_format: str | None = None) -> pd.DataFrame:
+                 time_format: str | None = None, max_mb: float = MAX_WEATHER_MB) -> pd.DataFrame:
     """Read an EPW, TMY3 or plain CSV weather file.
 
     ``.epw`` goes to :func:`pvlib.iotools.read_epw`; a file whose first line is
@@ -82,6 +89,9 @@ def read_weather(path, *, columns: dict | None = None, tz: str | None = None,
         plain CSV only, ``time_label`` may only confirm ``"end"`` for EPW and
         TMY3, and ``tz`` converts an EPW/TMY3 index (which carries the file's
         offset).
+    max_mb : float
+        Largest file accepted [MB] (``--max-weather-mb``). The file is read
+        once, so a pipe or FIFO works, and ``/dev/zero`` is refused.
 
     Returns
     -------
@@ -91,10 +101,11 @@ def read_weather(path, *, columns: dict | None = None, tz: str | None = None,
     """
     path, where = Path(path), str(path)
     _check_policy(policy)
-    kind = "EPW" if path.suffix.lower() == ".epw" else ("TMY3" if _is_tmy3(path) else None)
+    data = read_bounded(path, int(max_mb * MB), "weather", "--max-weather-mb")
+    kind = "EPW" if path.suffix.lower() == ".epw" else ("TMY3" if _is_tmy3(data) else None)
     if kind is None:
         return read_weather_csv(path, columns=columns, tz=tz, policy=policy, time_label=time_label,
-                                time_format=time_format)
+                                time_format=time_format, data=data)
     for option, value in (("--column", columns), ("--time-format", time_format)):
         if value:
             raise InputError(option, None, f"applies to plain CSV files only; {where} is {kind}")
@@ -103,9 +114,10 @@ def read_weather(path, *, columns: dict | None = None, tz: str | None = None,
                          "hour ending at each label by definition; leave --time-label out")
     try:
         if kind == "EPW":
-            data, meta = iotools.read_epw(str(path), coerce_year=TYPICAL_YEAR)
+            data, meta = iotools.read_epw(io.StringIO(data.decode("latin-1")), coerce_year=TYPICAL_YEAR)
         else:
-            data, meta = iotools.read_tmy3(str(path), coerce_year=TYPICAL_YEAR, map_variables=True)
+            data, meta = iotools.read_tmy3(io.StringIO(data.decode("latin-1")), coerce_year=TYPICAL_YEAR,
+                                           map_variables=True)
     except Exception as exc:  # the readers raise many types on malformed files
         raise InputError(where, None, f"cannot be read as {kind} ({exc})") from None
     times = data.index.tz_convert(_zone(tz)) if tz else data.index
@@ -189,7 +201,7 @@ def _standard_time(index: pd.DatetimeIndex, notes: list) -> pd.DatetimeIndex:
 
 def read_weather_csv(path, *, columns: dict | None = None, tz: str | None = None,
                      policy: str = "fail", time_label: str | None = None,
-                     time_format: str | None = None) -> pd.DataFrame:
+                     time_format: str | None = None, data: bytes | None = None) -> pd.DataFrame:
     """Read a weather CSV into SI units on a time-zone-aware index.
 
     Required columns: ``timestamp``, ``temp_air`` and ``ghi`` or ``poa_global``;
@@ -225,6 +237,8 @@ def read_weather_csv(path, *, columns: dict | None = None, tz: str | None = None
     time_format : str, optional
         A strftime pattern for the timestamps (``--time-format``), e.g.
         ``"%d.%m.%Y %H:%M"`` for day-first dates; default ISO 8601.
+    data : bytes, optional
+        The file's content, already read (`read_weather` reads once).
 
     Returns
     -------
@@ -244,7 +258,9 @@ def read_weather_csv(path, *, columns: dict | None = None, tz: str | None = None
     _check_policy(policy)
     if time_label is not None and time_label not in TIME_LABELS:
         raise InputError("--time-label", time_label, f"unknown; expected one of {', '.join(TIME_LABELS)}")
-    table, rows, sep = _read_table(path)
+    if data is None:
+        data = read_bounded(path, MAX_WEATHER_MB * MB, "weather", "--max-weather-mb")
+    table, rows, sep = _read_table(path, data)
     found = _match_columns(where, list(table.columns), columns or {})
     cells = {name: cell for name, (cell, _) in found.items()}
     notes = []
@@ -270,12 +286,8 @@ def _check_policy(policy):
         raise InputError("--bad-rows", policy, f"unknown; expected one of {', '.join(POLICIES)}")
 
 
-def _read_table(path: Path):
+def _read_table(path: Path, data: bytes):
     where = str(path)
-    try:
-        data = path.read_bytes()
-    except OSError as exc:
-        raise InputError(where, None, f"cannot be read ({exc.strerror or exc})") from None
     text = encoding = None
     for encoding in ("utf-16",) if data[:2] in (b"\xff\xfe", b"\xfe\xff") else ("utf-8-sig", "cp1252"):
         try:
@@ -643,13 +655,12 @@ def _long_runs(mask: np.ndarray, limit: int) -> np.ndarray:
     return mask & (length > limit)
 
 
-def _is_tmy3(path: Path) -> bool:
+def _is_tmy3(data: bytes) -> bool:
     try:
-        with open(path, "rb") as f:
-            first = f.readline(4096).decode("latin-1")
+        first = data[:4096].split(b"\n", 1)[0].decode("latin-1")
         fields = next(csv.reader([first]))
         [float(x) for x in fields[3:7]]
-    except (OSError, StopIteration, ValueError):
+    except (StopIteration, ValueError):
         return False
     return len(fields) == 7 and fields[0].strip().isdigit()
 

@@ -221,3 +221,65 @@ def test_a_drop_budget_excludes_by_circuit_and_says_so(short_year):
     assert out["excluded"] and "drop budget: the pv circuit" in out["reason"]
     shown = float(re.search(r"pv circuit drops ([0-9.]+) %", out["reason"]).group(1))
     assert shown == pytest.approx(pv_pct, abs=0.006)
+
+
+def test_explore_resumes_only_what_the_same_inputs_made(capsys, tmp_path):
+    # Issue 14: a resume with --price-per-kg 1000 returned the ranking made with 12.
+    system_file = demo_system_file(tmp_path)
+    weather = write_weather_csv(synthetic_weather(demo_system()).iloc[: 24 * 4], tmp_path / "w.csv")
+    out = tmp_path / "out"
+
+    def explore(*extra, price="12"):
+        return run_cli(capsys, "explore", str(system_file), str(weather), "--vary", "tilt_deg=20,40", "--out",
+                       str(out), "--price-per-kg", price, "--energy-value", "0.3", "--workers", "1", "--json",
+                       *extra)
+
+    code, text, err = explore()
+    assert code == 0, err
+    cheap = json.loads(text)["rows"]
+    code, _, err = explore("--resume", price="1000")
+    assert code == 2 and "--price-per-kg changed (12.0 then, 1000.0 now)" in err and err.count("\n") == 1
+    weather.write_text(weather.read_text() + "\n")  # the same numbers, but not the same file
+    code, _, err = explore("--resume")
+    assert code == 2 and "the weather file's content changed" in err
+    code, text, err = explore("--resume", "--force", price="1000")
+    assert code == 0, err
+    dear = json.loads(text)["rows"]
+    # Recomputed: the metal cost 1000/kg now, so each cost rose by mass x (1000 - 12).
+    by_id = {r["id"]: r for r in cheap}
+    for r in dear:
+        assert r["lifetime_cost"] > by_id[r["id"]]["lifetime_cost"] + 900 * r["conductor_mass_kg"]
+    manifest = json.loads((out / "run.json").read_text())
+    assert manifest["options"]["price_per_kg"] == 1000.0
+    assert {"results.parquet", "resume.json"} <= set(manifest["outputs"])
+    assert sum(name.startswith("parts/") for name in manifest["outputs"]) == 2
+
+
+def test_a_killed_explore_leaves_no_worker_behind(tmp_path, short_year):
+    # Issue 14: after SIGKILL or SIGTERM of explore the pool's workers lived on.
+    # Each signal hits only the parent, while both workers are busy.
+    import os
+    import subprocess
+    import sys
+
+    from conftest import ROOT
+
+    system, weather = short_year
+    csv = write_weather_csv(weather, tmp_path / "w.csv")
+    system_file = demo_system_file(tmp_path)
+    signals = ("SIGKILL", "SIGTERM", "SIGINT")
+    markers = [tmp_path / f"m-{sig}" for sig in signals]
+    for m in markers:
+        m.mkdir()
+    argv = ["explore", str(system_file), str(csv), "--vary", "tilt_deg=10,20,30", "--out", str(tmp_path / "out"),
+            "--price-per-kg", "12", "--energy-value", "0.3", "--workers", "2", "--force"]
+    spec = {"argv": argv, "workers": 2, "kill_workers": [[s, str(m)] for s, m in zip(signals, markers)]}
+    done = subprocess.run([sys.executable, str(ROOT / "tests" / "faults_driver.py"), json.dumps(spec)],
+                          capture_output=True, text=True, timeout=600,
+                          env={**os.environ, "PYTHONPATH": f"{ROOT}{os.pathsep}{ROOT / 'tests'}"})
+    ended = [json.loads(line) for line in done.stdout.splitlines()]
+    assert [e["signal"] for e in ended] == list(signals), done.stderr
+    for e in ended:
+        assert e["workers"] == 2 and e["left"] == 0, e
+    assert ended[2]["exit"] == 130  # Ctrl-C: the workers are stopped and the run says so
+

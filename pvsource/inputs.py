@@ -1,0 +1,174 @@
+"""Reading input files once, within a size limit, and remembering what was read.
+
+Every input (system file, module file, weather, fleet manifest) goes through
+`read_bounded`: it reads at most ``limit + 1`` bytes, so ``/dev/zero`` or a
+runaway pipe is refused with bounded memory, and a stream or FIFO
+(``<(cat w.csv)``) is read exactly once and then parsed from memory. The
+content hash of each file read is kept for the run manifest (`run.json`).
+
+The TOML parser is quadratic in the parts of a dotted key and recursive in the
+depth of nested arrays; `check_toml_shape` refuses such files with a cheap scan
+before the parser sees them.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import hashlib
+import os
+import stat
+from dataclasses import dataclass
+from pathlib import Path
+
+from pvsource.errors import InputError
+
+MB = 1 << 20
+# A system file or datasheet is a few kilobytes; 1 MB is far beyond any real one.
+MAX_TOML_BYTES = 1 * MB
+# A one-minute year as CSV is about 40 MB; two years of it fit with room to spare.
+# ``--max-weather-mb`` raises it for longer files.
+MAX_WEATHER_MB = 256
+# TOML shape limits, checked before parsing (see `check_toml_shape`).
+MAX_TOML_DEPTH = 32
+MAX_KEY_PARTS = 32
+MAX_KEY_CHARS = 1024
+
+
+@dataclass(frozen=True)
+class Read:
+    """One input file as read: its name as given, role, content hash and size."""
+
+    path: str
+    kind: str
+    sha256: str
+    bytes: int
+
+
+_RECORDERS: list[list[Read]] = []
+
+
+@contextlib.contextmanager
+def recording():
+    """Collect every file read through `read_bounded` inside the block (in order)."""
+    seen: list[Read] = []
+    _RECORDERS.append(seen)
+    try:
+        yield seen
+    finally:
+        _RECORDERS.remove(seen)
+
+
+def read_bounded(path, limit_bytes: int, kind: str, option: str | None = None) -> bytes:
+    """The whole content of ``path``, refused beyond ``limit_bytes``.
+
+    Parameters
+    ----------
+    path : str or Path
+        A regular file, a FIFO or a stream (``/dev/stdin``, ``/dev/fd/N``).
+    limit_bytes : int
+        Largest accepted size [bytes].
+    kind : str
+        What the file is, for messages and the manifest (``"system"``,
+        ``"weather"``, ...).
+    option : str, optional
+        The option that raises the limit, named in the message.
+
+    Raises
+    ------
+    InputError
+        When the file cannot be read, is a device, or is larger than the limit.
+    """
+    where = str(path)
+    too_big = InputError(where, None, f"is larger than the {_size(limit_bytes)} limit for a {kind} file"
+                         + (f"; raise it with {option}" if option else ""))
+    try:
+        with open(path, "rb") as f:
+            info = os.fstat(f.fileno())
+            if stat.S_ISCHR(info.st_mode) or stat.S_ISBLK(info.st_mode):
+                raise InputError(where, None, f"is a device, not a {kind} file")
+            if stat.S_ISREG(info.st_mode) and info.st_size > limit_bytes:
+                raise too_big
+            # A stream's size is unknown: read one byte past the limit to tell.
+            data = f.read(limit_bytes + 1)
+    except IsADirectoryError:
+        raise InputError(where, None, f"is a folder, not a {kind} file") from None
+    except OSError as exc:
+        raise InputError(where, None, f"cannot be read ({exc.strerror or exc})") from None
+    if len(data) > limit_bytes:
+        raise too_big
+    record = Read(where, kind, hashlib.sha256(data).hexdigest(), len(data))
+    for seen in _RECORDERS:
+        seen.append(record)
+    return data
+
+
+def _size(n: int) -> str:
+    return f"{n / MB:g} MB" if n >= MB else f"{n} bytes"
+
+
+def check_toml_shape(text: str, where: str) -> None:
+    """Refuse TOML whose shape would make the parser slow or recurse deeply.
+
+    A linear scan outside strings and comments: bracket depth (arrays, inline
+    tables, table headers) at most `MAX_TOML_DEPTH`; a key (a run of bare-key
+    characters, dots and quoted parts) at most `MAX_KEY_PARTS` dotted parts and
+    `MAX_KEY_CHARS` characters. Real system files are far inside all three.
+    """
+    depth = parts = run = 0
+    line = 1
+    i, n = 0, len(text)
+    while i < n:
+        c = text[i]
+        if c in "\"'":
+            triple = text.startswith(c * 3, i)
+            end_mark = c * 3 if triple else c
+            j = i + len(end_mark)
+            while j < n:
+                if c == '"' and text[j] == "\\":
+                    j += 2
+                    continue
+                if text.startswith(end_mark, j):
+                    break
+                if text[j] == "\n" and not triple:
+                    break
+                j += 1
+            # A quoted key part is one part, whatever its length.
+            line += text.count("\n", i, j)
+            i = j + len(end_mark)
+        elif c == "#":
+            j = text.find("\n", i)
+            i = n if j < 0 else j
+        elif c in "[{":
+            depth += 1
+            if depth > MAX_TOML_DEPTH:
+                raise InputError(where, f"line {line}", f"nests arrays or tables deeper than {MAX_TOML_DEPTH} levels")
+            parts = run = 0
+            i += 1
+        elif c in "]}":
+            depth = max(depth - 1, 0)
+            parts = run = 0
+            i += 1
+        else:
+            if c == ".":
+                parts += 1
+            elif c.isalnum() or c in "_- \t":
+                run += 1
+            else:
+                if c == "\n":
+                    line += 1
+                parts = run = 0
+            if parts >= MAX_KEY_PARTS or run > MAX_KEY_CHARS:
+                raise InputError(where, f"line {line}", f"has a key longer than {MAX_KEY_PARTS} dotted parts or "
+                                                        f"{MAX_KEY_CHARS} characters")
+            i += 1
+
+
+def digest_file(path) -> Read:
+    """The hash and size of a file on disk, read in blocks (for outputs)."""
+    h = hashlib.sha256()
+    size = 0
+    with open(path, "rb") as f:
+        for block in iter(lambda: f.read(MB), b""):
+            h.update(block)
+            size += len(block)
+    return Read(str(path), "output", h.hexdigest(), size)
