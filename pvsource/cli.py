@@ -694,9 +694,11 @@ def _atomic_frame(path: Path, frame) -> None:
     atomic_write(path, lambda tmp: frame.to_parquet(tmp))
 
 
-# What an explore result depends on besides the combination itself: a resume
-# reuses finished combinations only when all of these are unchanged.
-RESULT_OPTIONS = ("price_per_kg", "energy_value", "years", "tz")
+# Options that do not change an explore result. Every other option does, and
+# a resume reuses finished combinations only when all of those are unchanged
+# (the files are compared by content; --vary picks combinations by their id).
+NOT_RESULT_OPTIONS = frozenset({"system_file", "weather_file", "vary", "out", "resume", "engine", "workers",
+                                "scheduler", "force", "as_json", "max_weather_mb"})
 
 
 def _fingerprint(inputs, options: dict) -> dict:
@@ -707,7 +709,7 @@ def _fingerprint(inputs, options: dict) -> dict:
         kinds[r.kind] = kinds.get(r.kind, 0) + 1
         label = r.kind if kinds[r.kind] == 1 else f"{r.kind} {kinds[r.kind]}"
         found[f"the {label} file's content"] = r.sha256
-    found.update({f"--{k.replace('_', '-')}": options[k] for k in RESULT_OPTIONS})
+    found.update({f"--{k.replace('_', '-')}": v for k, v in options.items() if k not in NOT_RESULT_OPTIONS})
     return found
 
 
