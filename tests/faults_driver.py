@@ -7,7 +7,8 @@ being written) or the n-th rename is about to happen (``replace``: a file is
 whole under its temporary name). ``pause`` instead writes a marker file and
 waits there to be killed from outside. Prints one JSON line per child: how it
 ended. ``kill_workers`` kills an explore whose pool workers are busy, and
-reports whether any worker outlived it.
+``kill_tree`` one whose dask LocalCluster has started; each reports whether
+any worker outlived it.
 """
 
 import json
@@ -101,9 +102,57 @@ def kill_with_workers(argv, sig, marker_dir, workers):
             "exit": os.WEXITSTATUS(status) if os.WIFEXITED(status) else -os.WTERMSIG(status)}
 
 
+def _children(pid: int) -> list[int]:
+    found = []
+    for name in os.listdir("/proc"):
+        if name.isdigit():
+            try:
+                with open(f"/proc/{name}/stat") as f:
+                    if int(f.read().rsplit(")", 1)[1].split()[1]) == pid:
+                        found.append(int(name))
+            except (OSError, IndexError, ValueError):
+                pass
+    return found
+
+
+def kill_tree(argv, workers):
+    """SIGKILL a run once it has started ``workers`` child processes; report which outlive it."""
+    pid = os.fork()
+    if pid == 0:
+        from pvsource.cli import main
+        try:
+            main(argv)
+        except SystemExit as exc:
+            os._exit(exc.code if isinstance(exc.code, int) else 1)
+        os._exit(0)
+    deadline = time.monotonic() + 240
+    found = []
+    while time.monotonic() < deadline:
+        found = [c for c in _children(pid) if _alive(c)]
+        if len(found) >= workers:
+            break
+        if os.waitpid(pid, os.WNOHANG)[0]:
+            return {"failed": "the run ended before its workers started"}
+        time.sleep(0.1)
+    time.sleep(1.0)
+    found = [c for c in _children(pid) if _alive(c)]
+    os.kill(pid, signal.SIGKILL)
+    os.waitpid(pid, 0)
+    deadline = time.monotonic() + 30
+    while any(map(_alive, found)) and time.monotonic() < deadline:
+        time.sleep(0.1)
+    left = [p for p in found if _alive(p)]
+    for p in left:
+        os.kill(p, signal.SIGKILL)
+    return {"signal": "SIGKILL", "children": len(found), "left": len(left)}
+
+
 def main():
     spec = json.loads(sys.argv[1])
     import pvsource.cli  # noqa: F401 - imported once, before the forks
+
+    if "kill_tree" in spec:
+        print(json.dumps(kill_tree(spec["kill_tree"], spec["workers"])), flush=True)
 
     for sig, marker_dir in spec.get("kill_workers", []):
         print(json.dumps(kill_with_workers(spec["argv"], sig, marker_dir, spec["workers"])), flush=True)

@@ -257,7 +257,8 @@ def test_explore_resumes_only_what_the_same_inputs_made(capsys, tmp_path):
 
 def test_a_killed_explore_leaves_no_worker_behind(tmp_path, short_year):
     # Issue 14: after SIGKILL or SIGTERM of explore the pool's workers lived on.
-    # Each signal hits only the parent, while both workers are busy.
+    # Each signal hits only the parent, while both workers are busy. A dask
+    # LocalCluster's workers are children too: SIGKILL the parent once they run.
     import os
     import subprocess
     import sys
@@ -273,11 +274,16 @@ def test_a_killed_explore_leaves_no_worker_behind(tmp_path, short_year):
         m.mkdir()
     argv = ["explore", str(system_file), str(csv), "--vary", "tilt_deg=10,20,30", "--out", str(tmp_path / "out"),
             "--price-per-kg", "12", "--energy-value", "0.3", "--workers", "2", "--force"]
-    spec = {"argv": argv, "workers": 2, "kill_workers": [[s, str(m)] for s, m in zip(signals, markers)]}
+    dask = argv[:argv.index("--out") + 1] + [str(tmp_path / "dask"), *argv[argv.index("--out") + 2:],
+                                             "--engine", "dask"]
+    spec = {"argv": argv, "workers": 2, "kill_workers": [[s, str(m)] for s, m in zip(signals, markers)],
+            "kill_tree": dask}
     done = subprocess.run([sys.executable, str(ROOT / "tests" / "faults_driver.py"), json.dumps(spec)],
                           capture_output=True, text=True, timeout=600,
                           env={**os.environ, "PYTHONPATH": f"{ROOT}{os.pathsep}{ROOT / 'tests'}"})
     ended = [json.loads(line) for line in done.stdout.splitlines()]
+    cluster = ended.pop(0)  # a LocalCluster's worker processes, and its resource tracker
+    assert cluster["children"] >= 2 and cluster["left"] == 0, (cluster, done.stderr)
     assert [e["signal"] for e in ended] == list(signals), done.stderr
     for e in ended:
         assert e["workers"] == 2 and e["left"] == 0, e
