@@ -18,9 +18,8 @@ import sys
 import time
 
 
-def run_child(argv, sig, hook, n, marker):
-    from pvsource.cli import main
-
+def arm(sig, hook, n, marker):
+    """Make this process send itself ``sig`` at the ``n``-th ``hook`` (see the module's docstring)."""
     count = [0]
     import pvsource.files as files
 
@@ -49,7 +48,6 @@ def run_child(argv, sig, hook, n, marker):
         files._create_temporary = mkstemp
     else:
         os.replace = replace
-    main(argv)
 
 
 def _alive(pid: int) -> bool:
@@ -69,21 +67,43 @@ def busy(*args, **kwargs):
     time.sleep(600)
 
 
-def kill_with_workers(argv, sig, marker_dir, workers):
-    """Kill an explore whose pool workers are all busy; report which workers outlive it."""
+def _fork_cli(argv, prepare=None) -> int:
+    """A forked child running the command line (after ``prepare``); its pid."""
     pid = os.fork()
     if pid == 0:
-        import pvsource.explore as ex
         from pvsource.cli import main
 
-        global MARKERS
-        MARKERS = marker_dir
-        ex.evaluate = busy  # the forked workers inherit it
+        if prepare:
+            prepare()
         try:
             main(argv)
         except SystemExit as exc:
             os._exit(exc.code if isinstance(exc.code, int) else 1)
         os._exit(0)
+    return pid
+
+
+def _survivors(pids, wait_s=30.0) -> int:
+    """How many of ``pids`` are still alive after ``wait_s``; those are then killed."""
+    deadline = time.monotonic() + wait_s
+    while any(map(_alive, pids)) and time.monotonic() < deadline:
+        time.sleep(0.1)
+    left = [p for p in pids if _alive(p)]
+    for p in left:
+        os.kill(p, signal.SIGKILL)
+    return len(left)
+
+
+def kill_with_workers(argv, sig, marker_dir, workers):
+    """Kill an explore whose pool workers are all busy; report which workers outlive it."""
+    def stand_in():
+        import pvsource.explore as ex
+
+        global MARKERS
+        MARKERS = marker_dir
+        ex.evaluate = busy  # the forked workers inherit it
+
+    pid = _fork_cli(argv, stand_in)
     deadline = time.monotonic() + 240
     while len(os.listdir(marker_dir)) < workers and time.monotonic() < deadline:
         if os.waitpid(pid, os.WNOHANG)[0]:
@@ -92,13 +112,7 @@ def kill_with_workers(argv, sig, marker_dir, workers):
     found = [int(name) for name in os.listdir(marker_dir)]
     os.kill(pid, getattr(signal, sig))
     _, status = os.waitpid(pid, 0)
-    deadline = time.monotonic() + 20
-    while any(map(_alive, found)) and time.monotonic() < deadline:
-        time.sleep(0.1)
-    left = [p for p in found if _alive(p)]
-    for p in left:
-        os.kill(p, signal.SIGKILL)
-    return {"signal": sig, "workers": len(found), "left": len(left),
+    return {"signal": sig, "workers": len(found), "left": _survivors(found),
             "exit": os.WEXITSTATUS(status) if os.WIFEXITED(status) else -os.WTERMSIG(status)}
 
 
@@ -117,14 +131,7 @@ def _children(pid: int) -> list[int]:
 
 def kill_tree(argv, workers):
     """SIGKILL a run once it has started ``workers`` child processes; report which outlive it."""
-    pid = os.fork()
-    if pid == 0:
-        from pvsource.cli import main
-        try:
-            main(argv)
-        except SystemExit as exc:
-            os._exit(exc.code if isinstance(exc.code, int) else 1)
-        os._exit(0)
+    pid = _fork_cli(argv)
     deadline = time.monotonic() + 240
     found = []
     while time.monotonic() < deadline:
@@ -138,13 +145,7 @@ def kill_tree(argv, workers):
     found = [c for c in _children(pid) if _alive(c)]
     os.kill(pid, signal.SIGKILL)
     os.waitpid(pid, 0)
-    deadline = time.monotonic() + 30
-    while any(map(_alive, found)) and time.monotonic() < deadline:
-        time.sleep(0.1)
-    left = [p for p in found if _alive(p)]
-    for p in left:
-        os.kill(p, signal.SIGKILL)
-    return {"signal": "SIGKILL", "children": len(found), "left": len(left)}
+    return {"signal": "SIGKILL", "children": len(found), "left": _survivors(found)}
 
 
 def main():
@@ -159,13 +160,7 @@ def main():
 
     for run in spec.get("runs", []):
         sig, hook, n = run["point"]
-        pid = os.fork()
-        if pid == 0:
-            try:
-                run_child(run["argv"], sig, hook, n, spec.get("marker"))
-            except SystemExit as exc:
-                os._exit(exc.code if isinstance(exc.code, int) else 1)
-            os._exit(0)
+        pid = _fork_cli(run["argv"], lambda: arm(sig, hook, n, spec.get("marker")))
         _, status = os.waitpid(pid, 0)
         ended = {"signal": os.WTERMSIG(status)} if os.WIFSIGNALED(status) else {"exit": os.WEXITSTATUS(status)}
         print(json.dumps({"point": [sig, hook, n], **ended}), flush=True)
