@@ -88,18 +88,34 @@ def read_bounded(path, limit_bytes: int, kind: str, option: str | None = None) -
                 raise InputError(where, None, f"is a device, not a {kind} file")
             if stat.S_ISREG(info.st_mode) and info.st_size > limit_bytes:
                 raise too_big
-            # A stream's size is unknown: read one byte past the limit to tell.
-            data = f.read(limit_bytes + 1)
+            # Streams have no size, and a file may grow while read: count as we go.
+            data = _read_stream(f, limit_bytes)
     except IsADirectoryError:
         raise InputError(where, None, f"is a folder, not a {kind} file") from None
     except OSError as exc:
         raise InputError(where, None, f"cannot be read ({exc.strerror or exc})") from None
-    if len(data) > limit_bytes:
+    if data is None or len(data) > limit_bytes:
         raise too_big
     record = Read(where, kind, hashlib.sha256(data).hexdigest(), len(data))
     for seen in _RECORDERS:
         seen.append(record)
     return data
+
+
+def _read_stream(f, limit_bytes: int) -> bytes | None:
+    """A file, pipe or FIFO to its end; None once it runs past the limit.
+
+    Read in blocks and joined only when within the limit, so refusing an
+    endless stream costs the limit in memory, not twice it.
+    """
+    blocks, total = [], 0
+    while total <= limit_bytes:
+        block = f.read1(min(MB, limit_bytes + 1 - total))
+        if not block:
+            return b"".join(blocks)
+        blocks.append(block)
+        total += len(block)
+    return None
 
 
 def _size(n: int) -> str:

@@ -77,7 +77,7 @@ class RunFolder:
     options: dict
     inputs: list[Read]
     outputs: tuple[str, ...]
-    created: bool
+    created: tuple[Path, ...]
     _fd: int = -1
     written: list[Path] = field(default_factory=list)
 
@@ -185,13 +185,16 @@ class open_run:
         check_clashes(out, [r.path for r in inputs] + self.extra_paths, outputs)
         if out.exists() and not out.is_dir():
             raise InputError("--out", None, f"{str(out)!r} is a file, not a folder")
-        created = not out.exists()
+        created, p = [], out.absolute()
+        while not p.exists():  # the folders this run makes, innermost first
+            created.append(p)
+            p = p.parent
         try:
             out.mkdir(parents=True, exist_ok=True)
             fd = os.open(out, os.O_RDONLY | os.O_DIRECTORY)
         except OSError as exc:
             raise EnvironmentFailure(out, f"cannot create or open the folder ({environment_reason(exc) or exc.strerror})") from None
-        run = RunFolder(out, command, options, inputs, outputs, created, fd)
+        run = RunFolder(out, command, options, inputs, outputs, tuple(created), fd)
         self.run = run
         try:
             try:
@@ -234,8 +237,9 @@ class open_run:
                 _remove_stale(run.path, set(run.outputs) | {MANIFEST})
                 with contextlib.suppress(OSError):
                     (run.path / PARTS).rmdir()
-                with contextlib.suppress(OSError):
-                    run.path.rmdir()
+                for folder in run.created:
+                    with contextlib.suppress(OSError):
+                        folder.rmdir()
         finally:
             os.close(run._fd)
         reason = environment_reason(exc) if exc is not None else None

@@ -148,7 +148,7 @@ def test_a_late_input_error_leaves_no_empty_folder(capsys, tmp_path, inputs):
     out = tmp_path / "deep" / "out"
     code, _, err = run_cli(capsys, "fleet", str(fl), "--out", str(out))
     assert code == 2 and "b.csv" in err and "row 6" in err
-    assert not out.exists()
+    assert not (tmp_path / "deep").exists()
 
 
 def test_a_rerun_killed_midway_leaves_no_manifest_beside_mixed_files(capsys, tmp_path, inputs, monkeypatch):
