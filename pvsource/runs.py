@@ -15,7 +15,9 @@ import numpy as np
 from pvsource import conductors
 from pvsource.errors import InputError
 from pvsource.system import System
-from pvsource.ampacity import CONTINUOUS_FACTOR, Installation, check_installation, smallest_size_for_current
+from pvsource.ampacity import (
+    CONTINUOUS_FACTOR, Installation, check_installation, check_series, smallest_size_for_current,
+)
 from pvsource.checks import design_currents
 from pvsource.wiring import CableRun, run_ampacity, run_installation, sized_ohm_per_km
 
@@ -379,8 +381,13 @@ def quick_record(current_a: float, length_m: float, size_text: str, material: st
         raise InputError("--volts", None, f"expected a circuit voltage from 0.1 to 100000 V, got {volts!r}")
     if not 1 <= conductors_in_parallel <= 100:
         raise InputError("--parallel", None, f"expected 1 to 100 conductors, got {conductors_in_parallel!r}")
-    check_installation(installation, "wire", {"insulation_c": "--insulation-c", "ambient_c": "--ambient-c",
-                                              "conductors_together": "--conductors-together", "install": "--install"})
+    names = {"insulation_c": "--insulation-c", "ambient_c": "--ambient-c",
+             "conductors_together": "--conductors-together", "install": "--install"}
+    check_installation(installation, "wire", names)
+    # One run of one known size: an installation its standard has no table for is
+    # a typing slip, refused here rather than left without an ampacity.
+    check_series(size.series, {"install": installation.install, "insulation_c": installation.insulation_c},
+                 "wire", names)
     if budget_fraction is not None:
         if not (np.isfinite(budget_fraction) and 1e-4 <= budget_fraction < 1):
             raise InputError("--budget-pct", None, f"expected a percentage between 0 and 100, "

@@ -127,3 +127,33 @@ def test_one_run_rejects_bad_values_naming_the_option(kwargs, where):
     with pytest.raises(InputError) as exc:
         quick_record(**args)
     assert exc.value.where == where
+
+
+@pytest.mark.parametrize("size, installation, option", [
+    ("10 AWG", {"install": "B1"}, "--install"),          # B1 is an IEC 60364-5-52 method, not an NEC 310.16/310.17 one
+    ("10 AWG", {"insulation_c": 70.0}, "--insulation-c"),  # NEC 310.16 has 60, 75 and 90 degC columns
+    ("6 mm2", {"insulation_c": 75.0}, "--insulation-c"),   # IEC 60364-5-52 tabulates 70 (PVC) and 90 (XLPE) degC
+])
+def test_quick_wire_refuses_an_installation_the_sizes_standard_does_not_tabulate(size, installation, option, capsys):
+    from conftest import run_cli
+    from pvsource.ampacity import Installation
+
+    with pytest.raises(InputError) as exc:
+        quick_record(20.0, 15.0, size, installation=Installation(**installation))
+    assert exc.value.field == option
+    args = ["wire", "--current", "20", "--length-m", "15", "--size", size,
+            option, str(next(iter(installation.values())))]
+    code, out, err = run_cli(capsys, *args)
+    assert code == 2 and out == "" and option in err and len(err.strip().splitlines()) == 1
+
+
+def test_quick_wire_takes_each_standards_own_installations():
+    # Each size takes its own standard's installations, and gets that standard's table value.
+    from pvsource.ampacity import Installation
+
+    awg = quick_record(20.0, 15.0, "10 AWG", installation=Installation(install="raceway", insulation_c=90.0))
+    metric = quick_record(20.0, 15.0, "6 mm2", installation=Installation(install="B1", insulation_c=90.0))
+    # NEC 310.16 (from memory): 10 AWG copper, 90 degC column 40 A; 110.14(C) holds it to the 75 degC column, 35 A.
+    assert awg["ampacity_a"] == pytest.approx(40.0) and awg["ampacity_limit_a"] == pytest.approx(35.0)
+    # IEC 60364-5-52 Table B.52.5 (from memory): 6 mm2 copper, XLPE, method B1, two loaded conductors, 54 A.
+    assert metric["ampacity_a"] == pytest.approx(54.0)
