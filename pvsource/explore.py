@@ -41,7 +41,7 @@ from pvsource import conductors
 from pvsource.checks import design_checks
 from pvsource.errors import InputError
 from pvsource.files import atomic_write
-from pvsource.names import canonical
+from pvsource.names import VARIABLE_ALIASES, canonical
 from pvsource.inputs import MAX_TOML_BYTES, read_bounded
 from pvsource.runs import drop_budget_reasons, resize_run
 from pvsource.season import run_season
@@ -49,8 +49,6 @@ from pvsource.system import System
 
 VARY_KEYS = ("modules_per_string", "strings", "size:RUN", "bank_class_v", "bank_capacity_ah", "controller",
              "tilt_deg")
-# Earlier names, hyphens read as underscores; the keys are spelt like sweep's variables.
-VARY_ALIASES = {"bank_voltage": "bank_class_v", "bank_class": "bank_class_v", "modules": "modules_per_string"}
 MAX_COMBINATIONS = 5000
 
 
@@ -62,7 +60,7 @@ def parse_vary(texts, system: System) -> dict:
         items = [v.strip() for v in values.split(",") if v.strip()]
         if not sep or not items:
             raise InputError("--vary", None, f"expected KEY=V1,V2,..., got {text!r}")
-        key = canonical(key, VARY_KEYS, VARY_ALIASES, "--vary", "key")
+        key = canonical(key, VARY_KEYS, VARIABLE_ALIASES, "--vary", "key")
         if key in vary:
             raise InputError("--vary", None, f"{key!r} is given twice")
         vary[key] = [_value(key, item, system) for item in items]

@@ -57,10 +57,11 @@ def _marked_line(ax, x, label: str, colour: str, style: str, right: bool) -> Non
             bbox={"facecolor": "white", "edgecolor": "none", "alpha": 0.8, "pad": 0.5})
 
 
-SWEEP_AXIS_WORDS = {"load-resistance": "load resistance [ohm]", "bank-voltage": "bank resting voltage (EMF) [V]",
-                    "bank-class": "nominal bank voltage [V]", "soc": "state of charge [-]",
-                    "modules": "modules per string", "irradiance": "irradiance [W/m²]",
-                    "cell-temp": "cell temperature [°C]"}
+# Keyed by the canonical variable names (pvsource.names), the ones a sweep's design record carries.
+SWEEP_AXIS_WORDS = {"load_resistance_ohm": "load resistance [ohm]", "bank_emf_v": "bank resting voltage (EMF) [V]",
+                    "bank_class_v": "nominal bank voltage [V]", "soc": "state of charge [-]",
+                    "modules_per_string": "modules per string", "irradiance_w_m2": "irradiance [W/m²]",
+                    "cell_temp_c": "cell temperature [°C]"}
 
 
 def sweep_axes(rows, design: dict, title: str = ""):
@@ -94,7 +95,7 @@ def sweep_axes(rows, design: dict, title: str = ""):
         ax_v.set_xticks(x, [str(v).replace("mm2", "mm²") for v in values], rotation=30 if crowded else 0,
                         ha="right" if crowded else "center")
     else:
-        log = design.get("variable") == "load-resistance"
+        log = design.get("variable") == "load_resistance_ohm"
         if log:
             ax_v.set_xscale("log")
         _plain_axis(ax_v.xaxis, log, np.log10(np.nanmax(x) / np.nanmin(x)) if log else 1.0)

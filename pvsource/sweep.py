@@ -23,7 +23,8 @@ Variables (``--over``):
 =======================  =====================================================
 
 Names are spelt like the system file's keys and ``explore --vary``'s; a hyphen
-may stand for an underscore, and the earlier names (:data:`ALIASES`) still work.
+may stand for an underscore, and the earlier names (:data:`pvsource.names.VARIABLE_ALIASES`, one table for
+both commands) still work.
 """
 
 from __future__ import annotations
@@ -37,16 +38,13 @@ from pvsource import bank as bank_model
 from pvsource import conductors
 from pvsource.errors import InputError
 from pvsource.linear import linear_transfer
-from pvsource.names import canonical
+from pvsource.names import VARIABLE_ALIASES, canonical
 from pvsource.operating import operating_points
 from pvsource.runs import resize_run
 from pvsource.system import Load, System
 
 VARIABLES = ("load_resistance_ohm", "bank_emf_v", "bank_class_v", "soc", "modules_per_string", "size:RUN",
              "irradiance_w_m2", "cell_temp_c")
-# Earlier names, hyphens read as underscores.
-ALIASES = {"load_resistance": "load_resistance_ohm", "bank_voltage": "bank_emf_v", "bank_class": "bank_class_v",
-           "modules": "modules_per_string", "irradiance": "irradiance_w_m2", "cell_temp": "cell_temp_c"}
 MAX_STEPS = 2000
 NOMINAL_CLASSES_V = (12.0, 24.0, 48.0)
 ROW_KEYS = ("value", "delivered_w", "efficiency", "matching_ratio", "charge_current_a", "v", "i", "p",
@@ -55,7 +53,7 @@ ROW_KEYS = ("value", "delivered_w", "efficiency", "matching_ratio", "charge_curr
 
 def variable_name(text: str) -> str:
     """The canonical name of a sweep variable (see the module's table), or an InputError naming ``--over``."""
-    return canonical(text, VARIABLES, ALIASES, "--over")
+    return canonical(text, VARIABLES, VARIABLE_ALIASES, "--over")
 
 
 def _number(text: str, option: str) -> float:

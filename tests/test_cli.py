@@ -15,6 +15,7 @@ from pvsource.errors import InputError
 from conftest import DATA, ROOT, run_cli
 
 EXAMPLE = str(DATA / "example-system.toml")
+CABIN = str(DATA / "example-cabin-mppt.toml")
 TWO_FACES = str(DATA / "example-two-faces.toml")
 
 
@@ -633,6 +634,34 @@ def test_sweep_and_explore_spell_their_shared_variables_alike():
     assert {"modules_per_string", "bank_class_v", "size:RUN"} <= set(VARY_KEYS) & set(VARIABLES)
     for names in (VARY_KEYS, VARIABLES):
         assert all(n == n.lower() and "-" not in n for n in names if n != "size:RUN")
+
+
+@pytest.mark.parametrize("typed", ["bank_class_v", "bank-class-v", "bank-class", "bank_class"])
+def test_sweep_over_and_explore_vary_read_one_spelling_alike_and_say_the_canonical_one(capsys, typed):
+    # Issue 12 §7: a variable is spelt the same in both commands, and both show the canonical name.
+    from pvsource.config import load_system
+    from pvsource.explore import parse_vary
+
+    code, out, err = run(capsys, "sweep", CABIN, "--over", typed, "--from", "12", "--to", "48", "--json")
+    assert code == 0, err
+    assert json.loads(out)["variable"] == "bank_class_v"
+    code, out, err = run(capsys, "sweep", CABIN, "--over", typed, "--from", "12", "--to", "48")
+    assert code == 0 and out.startswith("pvsource sweep over bank_class_v:"), err
+    assert list(parse_vary([f"{typed}=12,48"], load_system(CABIN))) == ["bank_class_v"]
+
+
+def test_a_name_means_one_thing_in_both_commands(capsys):
+    # "bank-voltage" was the resting voltage in sweep and the nominal class in explore. It is now the
+    # resting voltage everywhere; explore, which cannot vary it, says how it read the name, in one line.
+    from pvsource.names import VARIABLE_ALIASES
+    from pvsource.sweep import variable_name
+
+    assert variable_name("bank-voltage") == VARIABLE_ALIASES["bank_voltage"] == "bank_emf_v"
+    code, _, err = run(capsys, "explore", CABIN, "w.csv", "--vary", "bank-voltage=12,24", "--out", "nowhere",
+                       "--price-per-kg", "12", "--energy-value", "0.3")
+    assert code == 2 and err.count("\n") == 1
+    assert "--vary: unknown key 'bank-voltage' (read as 'bank_emf_v', which --vary does not take)" in err
+    assert "bank_class_v" in err
 
 
 def test_a_misspelt_variable_suggests_the_nearest(capsys):

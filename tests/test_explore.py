@@ -59,7 +59,7 @@ def test_search_ranks_excludes_and_resumes(short_year, tmp_path, monkeypatch):
     (["wind=1,2"], "unknown key"),
     (["modules_per_string=two"], "number"),
     (["size:nowhere=6 mm2"], "no cable run"),
-    (["bank_voltage=36"], "nominal class"),
+    (["bank_class_v=36"], "nominal class"),
     (["modules_per_string=1", "modules_per_string=2"], "twice"),
 ])
 def test_bad_choices(short_year, texts, match):

@@ -189,6 +189,8 @@ def test_the_figure_has_two_panels_labels_at_their_lines_and_plain_ticks():
     panels = [ax for ax in fig.axes if ax.get_title(loc="left")]
     assert [ax.get_title(loc="left") for ax in panels] == ["against the swept value", "against the matching ratio"]
     by_value, by_m = panels
+    # The earlier name is read as the canonical one, and the axis says what it is in words.
+    assert design["variable"] == "bank_emf_v" and by_value.get_xlabel() == "bank resting voltage (EMF) [V]"
     # Each label stands on its own line.
     assert _texts(by_m)["m = 1"] == 1.0
     assert _texts(by_m)["design point"] == pytest.approx(design["matching_ratio"])
@@ -220,3 +222,12 @@ def test_plot_formats(capsys, tmp_path, suffix, head):
                        "--steps", "4", "--plot", str(path))
     assert code == 0, err
     assert path.read_bytes()[:len(head)] == head
+
+
+def test_a_load_resistance_sweep_is_drawn_on_a_logarithmic_axis_in_words():
+    # The figure knows the variable by its canonical name (it once keyed its words by earlier spellings).
+    from pvsource.plots import sweep_axes
+
+    rows, design = run_sweep(load_system(EXAMPLE), "load-resistance", "0.5", "20", 5)
+    by_value = sweep_axes(rows, design).axes[0]
+    assert by_value.get_xlabel() == "load resistance [ohm]" and by_value.get_xscale() == "log"
