@@ -164,7 +164,7 @@ def evaluate(system: System, weather: pd.DataFrame, combo: dict, prices: dict, t
     if failed:
         return {**row, "excluded": True, "reason": "; ".join(failed)}
     try:
-        summary = run_season(variant, weather, transposition=transposition).summary
+        summary = run_season(variant, weather, transposition=transposition, keep="summary").summary
     except InputError as exc:
         return {**row, "excluded": True, "reason": exc.expected}
     years = span_years(summary)

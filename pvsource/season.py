@@ -223,9 +223,70 @@ def charge_grid_a(system: System, g, t, done=lambda k: None, chunk_size: int = C
     return charge, emf
 
 
+#: Rows a chunk of the season study aims at: whole calendar months are joined
+#: up to this many steps, and a longer month is cut at clock-hour boundaries.
+#: Memory then follows the chunk, not the span (about 1.6 kB per step in flight).
+CHUNK_ROWS = 50_000
+
+#: Per-step columns a season study drops from the steps it keeps for its
+#: summary and figures when ``keep="summary"``: the linear views, residuals
+#: and per-group detail. Everything else (every power, current, state, stage
+#: and limit; each group's irradiance and cell temperature) is kept.
+DETAIL_PREFIXES = ("drift_", "share_", "thevenin_", "norton_", "superposition_", "load_side_", "source_",
+                   "kvl_", "kcl_", "energy_balance_", "matching_ratio")
+_GROUP_KEPT = ("_irradiance_w_m2", "_cell_temp_c")
+
+
+def summary_columns(columns) -> list[str]:
+    """The columns of a steps table that the summary, the hourly table's figures and the report read."""
+    return [c for c in columns if not str(c).startswith(DETAIL_PREFIXES)
+            and not (str(c).startswith("group_") and not str(c).endswith(_GROUP_KEPT))]
+
+
+def chunk_bounds(index: pd.DatetimeIndex, rows: int = CHUNK_ROWS) -> list[tuple[int, int]]:
+    """Row ranges [start, stop) that cut the span into chunks of whole months, each near ``rows`` steps.
+
+    Months of the weather's own clock are joined while they fit in ``rows``;
+    only a month longer than that is cut, where a clock hour starts (as
+    :func:`hourly_table` starts its rows), so every hour lies within one chunk.
+    """
+    n = len(index)
+    if n == 0:
+        return []
+    wall_ns, offset_ns = clock_ns(index)
+    local = index.tz_localize(None) if index.tz is not None else index
+    month = local.year.to_numpy() * 12 + local.month.to_numpy()
+    hour_start = np.concatenate([[True], (np.diff(wall_ns // _HOUR_NS) != 0) | (np.diff(offset_ns) != 0)])
+    month_start = np.concatenate([[True], np.diff(month) != 0])
+    month_ends = np.append(np.flatnonzero(month_start)[1:], n)
+    hours = np.flatnonzero(hour_start)
+    bounds, start, fits = [], 0, 0
+    for end in month_ends:
+        if end - start > rows:
+            if fits > start:  # close the chunk at the last month end that fitted
+                bounds.append((start, fits))
+                start = fits
+            while end - start > rows:  # a month too long on its own: cut it where hours start
+                cuts = hours[(hours > start) & (hours <= start + rows)]
+                later = hours[hours > start]
+                cut = int(cuts[-1]) if cuts.size else int(later[0]) if later.size else end
+                if cut >= end:
+                    break
+                bounds.append((start, cut))
+                start = cut
+        fits = int(end)
+    bounds.append((start, n))
+    return bounds
+
+
 def run_season(system: System, weather: pd.DataFrame, *, transposition: str = "perez",
-               soc0: float | None = None, progress=None) -> SeasonResult:
-    """Run the season study.
+               soc0: float | None = None, progress=None, each_chunk=None, keep: str = "all",
+               chunk_rows: int = CHUNK_ROWS) -> SeasonResult:
+    """Run the season study, a chunk of whole months at a time.
+
+    The weather is solved in chunks (:func:`chunk_bounds`); the time loop's
+    state (the bank's state of charge) is carried from each chunk into the
+    next, so the result does not depend on where the chunks are cut.
 
     Parameters
     ----------
@@ -237,15 +298,26 @@ def run_season(system: System, weather: pd.DataFrame, *, transposition: str = "p
     soc0 : float, optional
         State of charge at the start; default the system file's.
     progress : callable, optional
-        Called with (done, total) as the stages finish.
+        Called with (done, total) as the chunks finish.
+    each_chunk : callable, optional
+        Called with every chunk's complete steps table, in time order (a
+        writer streams them to disk).
+    keep : {"all", "summary"}
+        Which columns :attr:`SeasonResult.steps` keeps: every column, or only
+        :func:`summary_columns` (enough for the summary and the figures), so
+        memory grows by about 0.2 kB per step instead of 0.5 kB.
+    chunk_rows : int
+        Steps per chunk, about (:data:`CHUNK_ROWS`).
 
     Returns
     -------
     SeasonResult
     """
+    if keep not in ("all", "summary"):
+        raise ValueError(f"keep must be 'all' or 'summary', not {keep!r}")
     notes = list(weather.attrs.get("notes", []))
     notes.extend(model_notes(system.module))
-    step_h = float(weather.attrs.get("step_h") or _step_hours(weather.index))
+    step_h = step_hours(weather)
     time_label = weather.attrs.get("time_label")
     if time_label is None:
         from pvsource.weather import time_note
@@ -253,9 +325,6 @@ def run_season(system: System, weather: pd.DataFrame, *, transposition: str = "p
         time_label = "instant"
         notes.insert(0, time_note(time_label, step_h, "no convention came with the weather"))
     report = progress or (lambda done, total: None)
-    total = len(soc_grid(system)) + 3
-    g, t, poa = group_conditions(system, weather, transposition)
-    report(1, total)
     load_w = weather["load_w"].to_numpy(float) if "load_w" in weather else np.zeros(len(weather))
     if "load_w" not in weather and system.bank is not None:
         notes.append("no load_w column: the bank feeds no load")
@@ -267,31 +336,21 @@ def run_season(system: System, weather: pd.DataFrame, *, transposition: str = "p
                                       or abs(file_site["longitude"] - system.site.longitude) > 1.0):
         notes.append(f"the weather file's site ({file_site['latitude']:g}, {file_site['longitude']:g}) is more "
                      f"than a degree from [site] ({system.site.latitude:g}, {system.site.longitude:g})")
-    soc_path = unmet = None
-    if system.bank is not None:
-        b = system.bank
-        start = b.soc if soc0 is None else soc0
-        charge_grid, emf_grid = charge_grid_a(system, g, t, lambda k: report(2 + k, total))
-        from pvsource.charging import FLOAT_SOC
-
-        v_abs, v_float = bank_model.charge_voltages_v(b)
-        c = system.controller
-        limits = (c.max_output_a if c.max_output_a is not None else np.inf,
-                  float(bank_model.max_charge_current_a(b)), b.chemistry.absorption_start_soc,
-                  float(bank_model.internal_resistance_ohm(b)), float(v_abs), float(v_float), FLOAT_SOC)
-        soc_path, unmet, _, cap = integrate_soc(charge_grid, emf_grid, load_w, step_h, b.capacity_ah,
-                                                b.chemistry.coulombic_efficiency, start, soc_grid(system), limits,
-                                                c.kind)
-        steps = operating_points(system, g, t, soc=soc_path, charge_cap_a=cap, drift_check=False)
-    else:
-        steps = operating_points(system, g, t, drift_check=False)
-    report(total - 1, total)
-    steps.index = weather.index
-    steps["poa_global_w_m2"] = poa
-    steps["load_w"] = load_w
-    steps["unmet_load_w"] = unmet if unmet is not None else 0.0
-    if soc_path is not None:
-        steps["soc"] = soc_path
+    if system.site is None:
+        raise InputError(system.source, "[site]", "is missing: a season study needs latitude and longitude")
+    bounds = chunk_bounds(weather.index, chunk_rows)
+    state = None if system.bank is None else (system.bank.soc if soc0 is None else soc0)
+    kept = []
+    report(0, len(bounds))
+    for k, (a, b) in enumerate(bounds):
+        steps, state = _solve_span(system, weather.iloc[a:b], load_w[a:b], step_h, state, transposition)
+        if each_chunk is not None:
+            each_chunk(steps)
+        kept.append(steps if keep == "all" else steps[summary_columns(steps.columns)])
+        del steps
+        report(k + 1, len(bounds))
+    steps = kept[0] if len(kept) == 1 else pd.concat(kept)
+    del kept
     summary = summarise(system, steps, step_h)
     summary["time_label"] = time_label
     summary["notes"] = notes
@@ -301,8 +360,43 @@ def run_season(system: System, weather: pd.DataFrame, *, transposition: str = "p
         raise InputError(system.source, "[array]",
                          f"the array never charged the bank over the whole span (most often limited by: {why}); "
                          "check modules_per_string against the bank voltage and the controller's input window")
-    report(total, total)
     return SeasonResult(steps, summary, tuple(notes))
+
+
+def _solve_span(system: System, weather: pd.DataFrame, load_w: np.ndarray, step_h: float, state,
+                transposition: str):
+    """Every step of one chunk, and the time loop's state at its end (the state of charge; None without a bank)."""
+    g, t, poa = group_conditions(system, weather, transposition)
+    soc_path = unmet = None
+    if system.bank is not None:
+        b = system.bank
+        charge_grid, emf_grid = charge_grid_a(system, g, t)
+        from pvsource.charging import FLOAT_SOC
+
+        v_abs, v_float = bank_model.charge_voltages_v(b)
+        c = system.controller
+        limits = (c.max_output_a if c.max_output_a is not None else np.inf,
+                  float(bank_model.max_charge_current_a(b)), b.chemistry.absorption_start_soc,
+                  float(bank_model.internal_resistance_ohm(b)), float(v_abs), float(v_float), FLOAT_SOC)
+        soc_path, unmet, state, cap = integrate_soc(charge_grid, emf_grid, load_w, step_h, b.capacity_ah,
+                                                    b.chemistry.coulombic_efficiency, state, soc_grid(system),
+                                                    limits, c.kind)
+        del charge_grid, emf_grid
+        steps = operating_points(system, g, t, soc=soc_path, charge_cap_a=cap, drift_check=False)
+    else:
+        steps = operating_points(system, g, t, drift_check=False)
+    steps.index = weather.index
+    steps["poa_global_w_m2"] = poa
+    steps["load_w"] = load_w
+    steps["unmet_load_w"] = unmet if unmet is not None else 0.0
+    if soc_path is not None:
+        steps["soc"] = soc_path
+    return steps, state
+
+
+def step_hours(weather: pd.DataFrame) -> float:
+    """The weather's step [h]: as its reader measured it, else the median spacing of its stamps."""
+    return float(weather.attrs.get("step_h") or _step_hours(weather.index))
 
 
 def _step_hours(index) -> float:
