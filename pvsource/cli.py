@@ -439,14 +439,14 @@ def _max_weather(value: float) -> float:
 
 def _season_outputs(system, weather, out: Path, force: bool, transposition: str, as_json: bool,
                     command: str, options: dict, inputs=(), steps_csv: bool = False) -> None:
-    from pvsource.report import OUTPUT_NAMES, write_report
-    from pvsource.season import run_season
+    from pvsource.report import OUTPUT_NAMES, write_season
     from pvsource.terminal import render_season
 
     with open_run(out, force, command, options, inputs, OUTPUT_NAMES) as run:
         folder = run.path
-        result = run_season(system, weather, transposition=transposition, progress=_progress("season"))
-        run.finish(write_report(folder, system, result, weather, steps_csv=steps_csv))
+        result, written = write_season(folder, system, weather, transposition=transposition, steps_csv=steps_csv,
+                                       progress=_progress("season"))
+        run.finish(written)
     if as_json:
         summary = {k: v for k, v in result.summary.items()}
         summary["out"] = str(folder)
@@ -673,7 +673,7 @@ def fleet(
         results = []
         with recording() as weathers:
             for k, ((name, _, weather_file), system) in enumerate(zip(members, systems)):
-                result = run_season(system, read(weather_file), transposition=transposition)
+                result = run_season(system, read(weather_file), transposition=transposition, keep="summary")
                 results.append((name, result.summary))
                 if report:
                     report(k + 1, len(members))

@@ -14,7 +14,7 @@ import secrets
 from pathlib import Path
 
 
-def _create_temporary(path: Path, suffix: str) -> Path:
+def create_temporary(path: Path, suffix: str = "") -> Path:
     """A new empty hidden file beside ``path``, never one that already exists."""
     while True:
         tmp = path.parent / f".{path.name}.{secrets.token_hex(4)}{suffix}"
@@ -47,7 +47,7 @@ def atomic_write(path, write, suffix: str | None = None) -> Path:
         removed and ``path`` is left as it was.
     """
     path = Path(path)
-    tmp = _create_temporary(path, suffix or "")
+    tmp = create_temporary(path, suffix or "")
     try:
         write(str(tmp))
         os.replace(tmp, path)

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import json
 import math
+import os
 from pathlib import Path
 
 import numpy as np
@@ -16,9 +17,10 @@ import numpy as np
 from pvsource import plots
 from pvsource.checks import design_checks
 from pvsource.curves import array_curves, thevenin_at
+from pvsource import files
 from pvsource.files import atomic_write, write_text
 from pvsource.report_page import render_page
-from pvsource.season import SeasonResult, clock_ns, hourly_table
+from pvsource.season import SeasonResult, clock_ns, hourly_table, run_season, step_hours
 from pvsource.system import System
 
 FIGURES = ("monthly_energy.png", "wiring_loss_heatmap.png", "charge_duration.png", "state_of_charge.png",
@@ -104,6 +106,23 @@ def iso_stamps(index) -> np.ndarray:
     return np.char.add(text, offsets[pick])
 
 
+def _csv_table(frame):
+    """A time-indexed frame as an Arrow table for CSV: the index first, as ISO 8601 text with its offset."""
+    import pyarrow as pa
+
+    columns = {frame.index.name or "timestamp": pa.array(iso_stamps(frame.index))}
+    for name in frame.columns:
+        columns[str(name)] = pa.array(frame[name].to_numpy(), from_pandas=True)
+    return pa.table(columns)
+
+
+def _csv_options(table):
+    from pyarrow import csv as pa_csv
+
+    safe = all(c.isprintable() and not set(c) & set(',"') for c in table.column_names)
+    return pa_csv.WriteOptions(quoting_header="none" if safe else "needed")
+
+
 def write_csv(path, frame) -> None:
     """A time-indexed frame as CSV, through pyarrow's compiled writer.
 
@@ -111,37 +130,120 @@ def write_csv(path, frame) -> None:
     slower. The first column is the index as ISO 8601 text with its offset;
     numbers are written in their shortest round-trip form; NaN is an empty cell.
     """
-    import pyarrow as pa
     from pyarrow import csv as pa_csv
 
-    columns = {frame.index.name or "timestamp": pa.array(iso_stamps(frame.index))}
-    for name in frame.columns:
-        columns[str(name)] = pa.array(frame[name].to_numpy(), from_pandas=True)
-    safe = all(c.isprintable() and not set(c) & set(',"') for c in columns)
-    options = pa_csv.WriteOptions(quoting_header="none" if safe else "needed")
-    pa_csv.write_csv(pa.table(columns), path, write_options=options)
+    table = _csv_table(frame)
+    pa_csv.write_csv(table, path, write_options=_csv_options(table))
 
 
-def write_report(out: Path, system: System, result: SeasonResult, weather, steps_csv: bool = False) -> list[Path]:
+class StepsWriter:
+    """Streams a season's steps to disk a chunk at a time, under temporary names until :meth:`finish`.
+
+    ``steps.parquet`` gets one row group per chunk, ``steps.csv`` (only with
+    ``steps_csv``) grows by each chunk's rows, and each chunk's clock hours
+    (:func:`pvsource.season.hourly_table`) are kept for ``hourly.csv``, so no
+    more than one chunk of steps is ever held. Call the writer with each chunk
+    in time order; chunks cut at clock hours give the same hours as one table.
+    """
+
+    def __init__(self, out, step_h: float, steps_csv: bool = False):
+        self.out = Path(out)
+        self.step_h = step_h
+        names = ("steps.parquet", "steps.csv") if steps_csv else ("steps.parquet",)
+        self._tmp = {}
+        try:
+            for name in names:
+                self._tmp[name] = files.create_temporary(self.out / name)
+        except BaseException:
+            self.discard()
+            raise
+        self._parquet = self._csv = self._schema = None
+        self._hours = []
+
+    def __call__(self, steps) -> None:
+        import pyarrow as pa
+        import pyarrow.parquet as pq
+        from pyarrow import csv as pa_csv
+
+        table = pa.Table.from_pandas(steps.rename_axis("timestamp"), preserve_index=True)
+        if self._parquet is None:
+            # Dictionary encoding and statistics pay for themselves only on few
+            # distinct values: on a year of floats they cost most of the write
+            # and leave the file larger.
+            labels = [c for c in steps.columns if steps[c].dtype.kind not in "fb"]
+            self._schema = table.schema
+            self._parquet = pq.ParquetWriter(self._tmp["steps.parquet"], self._schema, use_dictionary=labels,
+                                             write_statistics=["timestamp"])
+        elif not table.schema.equals(self._schema, check_metadata=False):
+            table = table.cast(self._schema)  # e.g. a label column with no value in this chunk
+        self._parquet.write_table(table)
+        if "steps.csv" in self._tmp:
+            rows = _csv_table(steps.rename_axis("timestamp"))
+            if self._csv is None:
+                self._csv_schema = rows.schema
+                self._csv = pa_csv.CSVWriter(self._tmp["steps.csv"], rows.schema, write_options=_csv_options(rows))
+            elif not rows.schema.equals(self._csv_schema):
+                rows = rows.cast(self._csv_schema)
+            self._csv.write_table(rows)
+        self._hours.append(hourly_table(steps, self.step_h))
+
+    def hourly(self):
+        """The clock hours of every chunk written so far, as one table."""
+        import pandas as pd
+
+        return self._hours[0] if len(self._hours) == 1 else pd.concat(self._hours)
+
+    def _close(self) -> None:
+        for writer in (self._parquet, self._csv):
+            if writer is not None:
+                writer.close()
+        self._parquet = self._csv = None
+
+    def finish(self) -> list[Path]:
+        """Close the files and rename them into place; returns their final paths."""
+        if self._schema is None:
+            raise ValueError("no steps were written")
+        self._close()
+        done = []
+        for name, tmp in list(self._tmp.items()):
+            os.replace(tmp, self.out / name)
+            del self._tmp[name]
+            done.append(self.out / name)
+        return done
+
+    def discard(self) -> None:
+        """Close and remove the temporary files (after a failure); the final names are untouched."""
+        try:
+            self._close()
+        finally:
+            for tmp in self._tmp.values():
+                Path(tmp).unlink(missing_ok=True)
+            self._tmp = {}
+
+
+def write_report(out: Path, system: System, result: SeasonResult, weather, steps_csv: bool = False,
+                 streamed: StepsWriter | None = None) -> list[Path]:
     """Tables, summary, figures and the HTML report into ``out`` (already prepared).
 
     ``steps.parquet`` (every step) and ``hourly.csv`` (:func:`pvsource.season.hourly_table`)
     are always written; the per-step ``steps.csv``, large at short steps, only with ``steps_csv``.
+    The steps come from ``streamed``, the writer the study streamed them to
+    (:func:`write_season`); without it, ``result.steps`` is written whole.
     """
     out = Path(out)
-    steps, summary = result.steps, result.summary
-    written = []
-    table = steps.rename_axis("timestamp")
-    # Dictionary encoding and statistics pay for themselves only on few
-    # distinct values: on a year of floats they cost most of the write and
-    # leave the file larger.
-    labels = [c for c in table.columns if table[c].dtype.kind not in "fb"]
-    written.append(atomic_write(out / "steps.parquet", lambda tmp: table.to_parquet(
-        tmp, use_dictionary=labels, write_statistics=["timestamp"])))
-    hourly = hourly_table(steps, summary["step_h"])
+    summary = result.summary
+    if streamed is None:
+        streamed = StepsWriter(out, summary["step_h"], steps_csv)
+        try:
+            streamed(result.steps)
+        except BaseException:
+            streamed.discard()
+            raise
+    written = streamed.finish()
+    steps = result.steps
+    hourly = streamed.hourly()
     written.append(atomic_write(out / "hourly.csv", lambda tmp: write_csv(tmp, hourly)))
-    if steps_csv:
-        written.append(atomic_write(out / "steps.csv", lambda tmp: write_csv(tmp, table)))
+    del hourly
     written.append(write_text(out / "summary.json", json.dumps(json_ready(summary), indent=2, allow_nan=False)))
     monthly = json_ready(summary["monthly"])
     header = list(monthly[0]) if monthly else []
@@ -169,3 +271,26 @@ def write_report(out: Path, system: System, result: SeasonResult, weather, steps
                        [(name, (out / name).read_bytes()) for name in figures], t_min, t_max)
     written.append(write_text(out / "report.html", page))
     return written
+
+
+def write_season(out: Path, system: System, weather, *, transposition: str = "perez", steps_csv: bool = False,
+                 progress=None) -> tuple[SeasonResult, list[Path]]:
+    """Run the season study into ``out``, streaming its steps to disk a chunk at a time.
+
+    Memory follows the chunk (:data:`pvsource.season.CHUNK_ROWS`) and the
+    columns kept for the summary and figures, not the whole table of steps.
+    If the study fails, nothing is left under a final name.
+
+    Returns
+    -------
+    (SeasonResult, list of Path)
+        The result, whose ``steps`` hold only :func:`pvsource.season.summary_columns`, and the files written.
+    """
+    writer = StepsWriter(out, step_hours(weather), steps_csv)
+    try:
+        result = run_season(system, weather, transposition=transposition, progress=progress, each_chunk=writer,
+                            keep="summary")
+    except BaseException:
+        writer.discard()
+        raise
+    return result, write_report(out, system, result, weather, streamed=writer)

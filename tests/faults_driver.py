@@ -23,7 +23,7 @@ def arm(sig, hook, n, marker):
     count = [0]
     import pvsource.files as files
 
-    real = {"mkstemp": files._create_temporary, "replace": os.replace}
+    real = {"mkstemp": files.create_temporary, "replace": os.replace}
 
     def trip():
         count[0] += 1
@@ -45,7 +45,7 @@ def arm(sig, hook, n, marker):
         return real["replace"](*args, **kwargs)
 
     if hook == "mkstemp":
-        files._create_temporary = mkstemp
+        files.create_temporary = mkstemp
     else:
         os.replace = replace
 

@@ -264,3 +264,24 @@ def test_a_read_only_or_full_disk_is_one_line_and_exit_3(capsys, tmp_path, input
             assert not [p for p in out.iterdir() if p.name.startswith(".")]
     finally:
         subprocess.run(["umount", str(mount)], capture_output=True, timeout=20)
+
+
+def test_a_whole_season_reads_its_weather_from_a_shell_pipe(tmp_path, inputs):
+    # Issue 14 fault 10: `season system.toml <(cat w.csv)`, run by a real shell.
+    # The stream is read once; the manifest holds the hash of what was read,
+    # and the steps equal those of the same file read from disk.
+    import shutil
+
+    bash = shutil.which("bash")
+    if bash is None:
+        pytest.skip("no bash for process substitution")
+    system_file, weather = inputs
+    env = {**os.environ, "PYTHONPATH": str(ROOT)}
+    piped, plain = tmp_path / "piped", tmp_path / "plain"
+    script = (f'"{sys.executable}" -m pvsource season "{system_file}" <(cat "{weather}") --out "{piped}" && '
+              f'"{sys.executable}" -m pvsource season "{system_file}" "{weather}" --out "{plain}"')
+    done = subprocess.run([bash, "-c", script], capture_output=True, text=True, env=env, timeout=600)
+    assert done.returncode == 0, done.stderr
+    manifest = assert_consistent(piped)
+    assert [r["sha256"] for r in manifest["inputs"] if r["kind"] == "weather"] == [sha(weather)]
+    pd.testing.assert_frame_equal(pd.read_parquet(piped / "steps.parquet"), pd.read_parquet(plain / "steps.parquet"))

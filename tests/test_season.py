@@ -382,3 +382,95 @@ def test_csv_files_read_back_exactly_in_pandas(tmp_path):
     assert back.index[0] == "2025-10-26T00:00:00+02:00" and back.index[-1] == "2025-10-26T22:59:00+01:00"  # 1,440 minutes of a 25-hour day
     assert np.array_equal(back["stored_w"].to_numpy(), steps["stored_w"].to_numpy(), equal_nan=True)
     assert list(back["stage"].iloc[[0, 59]]) == ["bulk", "absorption"]
+
+
+# --- Streaming in chunks: the result must not depend on where the span is cut ---
+
+
+def test_chunk_bounds_keep_months_whole_and_cut_a_long_month_only_at_clock_hours():
+    # Law: chunks tile the span in order; a chunk boundary is a month start
+    # unless a month alone exceeds the chunk, and then a clock-hour start.
+    import pandas as pd
+
+    from pvsource.season import chunk_bounds
+
+    index = pd.date_range("2025-01-15", "2025-04-10", freq="10min", tz="Europe/Zurich")  # spring DST inside
+    bounds = chunk_bounds(index, rows=3000)
+    assert bounds[0][0] == 0 and bounds[-1][1] == len(index)
+    assert all(a < b for a, b in bounds) and all(b == c for (_, b), (c, _) in zip(bounds[:-1], bounds[1:]))
+    local = index.tz_localize(None)
+    for a, _ in bounds[1:]:
+        new_month = local[a].month != local[a - 1].month
+        new_hour = local[a].floor("h") != local[a - 1].floor("h")
+        assert new_month or new_hour
+    # February 2025 has 28 x 144 = 4032 steps, more than 3000: it is cut once, at an hour.
+    feb = [(a, b) for a, b in bounds if local[a].month == 2 or local[b - 1].month == 2]
+    assert len(feb) == 2 and all(b - a <= 3000 for a, b in feb)
+    # Hourly data for a year fit one chunk; one-minute data are cut at months.
+    assert chunk_bounds(pd.date_range("2025-01-01", periods=8760, freq="h"), rows=50_000) == [(0, 8760)]
+    minutes = pd.date_range("2025-01-01", periods=90 * 1440, freq="min")
+    assert [local_month for local_month in (minutes[a].month for a, _ in chunk_bounds(minutes, 50_000))] == [1, 2, 3]
+
+
+def test_a_study_cut_into_small_chunks_gives_the_same_steps_and_summary(demo_run):
+    # Law: the time loop's state is carried across chunk boundaries, so cutting
+    # the span (here ten weeks of the demo into chunks of at most 300 hours)
+    # changes no step and no total (rounding of the sums only).
+    system, weather, _ = demo_run
+    span = weather.iloc[24 * 40: 24 * 110]
+    whole = run_season(system, span)
+    parts = []
+    cut = run_season(system, span, chunk_rows=300, each_chunk=parts.append)
+    assert len(parts) >= 3 and max(len(p) for p in parts) <= 300
+    assert cut.steps.index.equals(whole.steps.index)
+    for col in ("soc", "charge_current_a", "stored_w", "unmet_load_w", "cable_loss_w"):
+        np.testing.assert_allclose(cut.steps[col].to_numpy(), whole.steps[col].to_numpy(), rtol=1e-12, atol=1e-12)
+    assert (cut.steps["stage"] == whole.steps["stage"]).all()
+    for key in ENERGY_KEYS + ("min_soc", "days_reaching_full", "p95_charge_current_a"):
+        assert cut.summary[key] == pytest.approx(whole.summary[key], rel=1e-12, abs=1e-12), key
+    assert cut.summary["hours_by_stage"] == pytest.approx(whole.summary["hours_by_stage"])
+
+
+def test_the_summary_columns_give_the_same_summary_as_every_column(demo_run):
+    # The columns kept while streaming must hold everything the summary reads:
+    # the summary of the kept columns equals the summary of all of them.
+    from pvsource.season import summarise, summary_columns
+
+    system, _, result = demo_run
+    kept = summary_columns(result.steps.columns)
+    assert len(kept) < len(result.steps.columns)
+    assert summarise(system, result.steps[kept], 1.0) == summarise(system, result.steps, 1.0)
+
+
+def test_streamed_files_equal_the_whole_table(demo_run, tmp_path):
+    # steps.parquet in row groups, steps.csv appended and hourly.csv from each
+    # chunk's hours read back equal to one table written at once.
+    import pandas as pd
+    import pyarrow.parquet as pq
+
+    from pvsource.report import StepsWriter
+    from pvsource.season import hourly_table
+
+    system, weather, _ = demo_run
+    span = weather.iloc[24 * 150: 24 * 220]
+    whole = run_season(system, span)
+    writer = StepsWriter(tmp_path, 1.0, steps_csv=True)
+    run_season(system, span, chunk_rows=400, each_chunk=writer, keep="summary")
+    written = writer.finish()
+    assert sorted(p.name for p in written) == ["steps.csv", "steps.parquet"]
+    assert not [p for p in tmp_path.iterdir() if p.name.startswith(".")]
+    assert pq.ParquetFile(tmp_path / "steps.parquet").num_row_groups >= 4
+    back = pd.read_parquet(tmp_path / "steps.parquet")
+    pd.testing.assert_frame_equal(back, whole.steps.rename_axis("timestamp"), check_freq=False)
+    assert len(pd.read_csv(tmp_path / "steps.csv")) == len(span)
+    pd.testing.assert_frame_equal(writer.hourly(), hourly_table(whole.steps, 1.0))
+
+
+def test_a_failed_stream_leaves_no_file(demo_run, tmp_path):
+    from pvsource.report import StepsWriter
+
+    system, weather, _ = demo_run
+    writer = StepsWriter(tmp_path, 1.0, steps_csv=True)
+    run_season(system, weather.iloc[:48], each_chunk=writer)
+    writer.discard()
+    assert list(tmp_path.iterdir()) == []
