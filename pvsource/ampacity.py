@@ -27,9 +27,19 @@ A conductor is adequate for a circuit whose maximum current is I_max when
 
 Together: 1.25 I_max ≤ min(termination value, 1.25 × corrected value), the
 :attr:`Ampacity.limit_a` every check and size choice here compares with.
-IEC 60364-5-52 has no termination rule of this kind, and IEC 60364-7-712
-asks I_z ≥ I_max (with I_max = 1.25 Isc for PV): the same comparison with no
-termination cap.
+
+A metric size is chosen with its overcurrent protection, IEC 60364-4-43
+433.1: I_B ≤ I_n ≤ I_z and I_2 ≤ 1.45 I_z, where I_n is the protective
+device's rated current and I_2 its conventional operating current (I_2 = k2
+I_n: 1.45 for gPV fuses of IEC 60269-6 and circuit-breakers of IEC 60898;
+1.6 to 2.1 for gG fuses of IEC 60269-1). The design current I_B is 1.25
+I_max, as for the NEC, and I_n is the next preferred rating at or above it
+(``iec_rated_currents.csv``): there is no rounding up past the conductor as
+NEC 240.4(B) allows. So the conductor's limit on 1.25 I_max is the largest
+preferred rating I_n with k2 I_n ≤ 1.45 I_z (:func:`largest_protection_a`):
+1.25 I_max fits under it exactly when the rating it needs does. A 20 A
+circuit needs a 25 A device, and 1.5 mm² (I_z = 23 A, XLPE, method B1) cannot
+sit behind it although 20 A ≤ 23 A.
 
 References
 ----------
@@ -38,6 +48,9 @@ References
 .. [2] IEC 60364-5-52:2009, Low-voltage electrical installations, Part 5-52:
    Wiring systems, Annex B (Tables B.52.2, B.52.4, B.52.10, B.52.12, B.52.14, B.52.17).
 .. [3] IEC 60364-7-712, Solar photovoltaic (PV) power supply systems.
+.. [4] IEC 60364-4-43:2008, Protection for safety, Protection against
+   overcurrent, 433.1 (coordination between conductors and overload
+   protective devices); IEC 60269-1 and 60269-6 (fuses), IEC 60898-1 (circuit-breakers).
 """
 
 from __future__ import annotations
@@ -68,6 +81,11 @@ DEFAULT_AMBIENT_C = 30.0
 DEFAULT_CONDUCTORS_TOGETHER = 2
 DEFAULT_INSTALL = "raceway"
 DEFAULT_TERMINATION_C = 75.0
+#: The overcurrent device assumed for a metric size: a gPV fuse (IEC 60269-6),
+#: whose I_2 = 1.45 I_n equals a circuit-breaker's (IEC 60898), so I_n ≤ I_z.
+DEFAULT_PROTECTION = "gpv"
+#: IEC 60364-4-43 433.1: the device's conventional operating current may be at most 1.45 I_z.
+IEC_I2_LIMIT = 1.45
 #: NEC 690.8(B)(1) and 215.2(A)(1): conductors carry 125 % of a continuous current.
 CONTINUOUS_FACTOR = 1.25
 
@@ -91,6 +109,16 @@ IEC_GROUPING = sorted((int(r["circuits_max"]), float(r["factor"])) for r in _rea
 SMALL_CONDUCTOR_MAX_A = {(r["size"], r["material"]): float(r["max_protection_a"]) for r in _read("nec_240_4_d.csv")}
 #: NEC 240.6(A) standard ampere ratings of fuses and inverse-time breakers [A].
 STANDARD_RATINGS_A = tuple(sorted(float(r["rating_a"]) for r in _read("nec_240_6_a.csv")))
+#: IEC preferred rated currents [A] by series: ``fuse`` (IEC 60269-1) and ``breaker`` (IEC 60898-1).
+IEC_RATINGS_A = {series: tuple(sorted(float(r["rating_a"]) for r in _read("iec_rated_currents.csv")
+                                      if r["series"] == series)) for series in ("fuse", "breaker")}
+#: The overcurrent devices of a metric circuit, and the rated series each comes in.
+PROTECTIONS = {"gpv": "fuse", "gg": "fuse", "breaker": "breaker"}
+#: Conventional operating current I_2 / I_n by device: (device, band conditions, factor).
+IEC_I2_FACTORS = [(r["device"], r["rated_current"].split(), float(r["i2_factor"]))
+                  for r in _read("iec_conventional_current.csv")]
+PROTECTION_WORDS = {"gpv": "gPV fuse (IEC 60269-6)", "gg": "gG fuse (IEC 60269-1)",
+                    "breaker": "circuit-breaker (IEC 60898)"}
 
 
 @dataclass(frozen=True)
@@ -109,6 +137,9 @@ class Installation:
         ``raceway`` or ``free-air``, or an IEC 60364-5-52 reference method for metric sizes.
     termination_c : float
         Temperature rating of the terminations [°C] (NEC 110.14(C)).
+    protection : str
+        The overcurrent device of a metric circuit, one of :data:`PROTECTIONS`
+        (IEC 60364-4-43 433.1); AWG sizes follow NEC 240.
     """
 
     insulation_c: float = DEFAULT_INSULATION_C
@@ -116,6 +147,7 @@ class Installation:
     conductors_together: int = DEFAULT_CONDUCTORS_TOGETHER
     install: str = DEFAULT_INSTALL
     termination_c: float = DEFAULT_TERMINATION_C
+    protection: str = DEFAULT_PROTECTION
 
 
 def check_installation(inst: Installation, where: str, names: dict | None = None) -> Installation:
@@ -131,6 +163,8 @@ def check_installation(inst: Installation, where: str, names: dict | None = None
         fail("insulation_c", f"expected 60, 75 or 90 (NEC) or 70 or 90 (IEC), got {inst.insulation_c!r}")
     if inst.termination_c not in (60.0, 75.0, 90.0):
         fail("termination_c", f"expected 60, 75 or 90, got {inst.termination_c!r}")
+    if inst.protection not in PROTECTIONS:
+        fail("protection", f"expected one of {', '.join(PROTECTIONS)}, got {inst.protection!r}")
     if not (math.isfinite(inst.ambient_c) and -50.0 <= inst.ambient_c <= 85.0):
         fail("ambient_c", f"expected -50 to 85 degC, got {inst.ambient_c!r}")
     n = inst.conductors_together
@@ -149,6 +183,9 @@ def check_series(series: str, given: dict, where: str, names: dict | None = None
         if given.get("insulation_c", 90.0) not in (60.0, 75.0, 90.0):
             raise InputError(where, names.get("insulation_c", "insulation_c"),
                              "NEC 310.16 has 60, 75 and 90 degC columns for an AWG size")
+        if "protection" in given:
+            raise InputError(where, names.get("protection", "protection"),
+                             "applies to metric sizes (IEC 60364-4-43); an AWG size's protection follows NEC 240")
     elif given.get("insulation_c", 90.0) not in (70.0, 90.0):
         raise InputError(where, names.get("insulation_c", "insulation_c"),
                          "IEC 60364-5-52 tabulates 70 (PVC) and 90 (XLPE) degC for a metric size")
@@ -171,6 +208,9 @@ class Ampacity:
         110.14(C)); infinite for metric sizes [A].
     basis : str
         The tables used, in words.
+    protection : str or None
+        For a metric size, the overcurrent device (:data:`PROTECTIONS`) the
+        conductor is coordinated with (IEC 60364-4-43 433.1); None for NEC sizes.
     """
 
     table_a: float
@@ -179,11 +219,25 @@ class Ampacity:
     corrected_a: float
     termination_a: float
     basis: str
+    protection: str | None = None
+
+    def limit_for(self, conductors_in_parallel: int = 1) -> float:
+        """The most that 1.25 × I_max may be with ``conductors_in_parallel`` such conductors [A].
+
+        min(termination value, 1.25 × corrected), and for a metric size the
+        largest preferred device rating that protects them together (433.1
+        applies to the sum of the parallel conductors' I_z, 433.4.1).
+        """
+        n = conductors_in_parallel
+        limit = n * min(self.termination_a, CONTINUOUS_FACTOR * self.corrected_a)
+        if self.protection is not None:
+            limit = min(limit, largest_protection_a(n * self.corrected_a, self.protection))
+        return limit
 
     @property
     def limit_a(self) -> float:
-        """The most that 1.25 × I_max may be: min(termination value, 1.25 × corrected) [A]."""
-        return min(self.termination_a, CONTINUOUS_FACTOR * self.corrected_a)
+        """The most that 1.25 × I_max may be for one conductor [A]; see :meth:`limit_for`."""
+        return self.limit_for(1)
 
     @property
     def max_circuit_current_a(self) -> float:
@@ -236,12 +290,11 @@ def ampacity(size: str | ConductorSize, material: str, inst: Installation = Inst
     ------
     InputError
         When the tables have no value for the size, metal, insulation or
-        installation (the message says which, and that ``ampacity_a`` may be given).
+        installation (the message says which; the caller says what the user can do).
     """
     s = parse_size(size, allow_nonstandard=True, where=where)
     mat = material_properties(material, where).name
     check_installation(inst, where)
-    give = "; give the run's ampacity_a instead"
     if s.series == "awg":
         if inst.install not in NEC_INSTALLS:
             raise InputError(where, "install", f"{inst.install!r} is an IEC method; an AWG size takes raceway or "
@@ -252,7 +305,7 @@ def ampacity(size: str | ConductorSize, material: str, inst: Installation = Inst
         key = (inst.install, s.label, mat, inst.insulation_c)
         if key not in NEC_TABLES:
             raise InputError(where, "size", f"NEC Table {table} has no {inst.insulation_c:g} degC {mat} value for "
-                                            f"{s.label}{give}")
+                                            f"{s.label}")
         col_t = min(inst.termination_c, inst.insulation_c)
         term = NEC_TABLES.get((inst.install, s.label, mat, col_t), 0.0)
         k_t = nec_ambient_factor(inst.insulation_c, inst.ambient_c)
@@ -263,19 +316,72 @@ def ampacity(size: str | ConductorSize, material: str, inst: Installation = Inst
         return Ampacity(NEC_TABLES[key], k_t, k_g, NEC_TABLES[key] * k_t * k_g, term, basis)
     method = IEC_FOR_GENERAL.get(inst.install, inst.install)
     if mat != "copper":
-        raise InputError(where, "material", f"pvsource holds IEC 60364-5-52's copper tables only, not {mat}{give}")
+        raise InputError(where, "material", f"pvsource holds IEC 60364-5-52's copper tables only, not {mat}")
     if inst.insulation_c not in (70.0, 90.0):
         raise InputError(where, "insulation_c", f"IEC 60364-5-52 tabulates 70 (PVC) and 90 (XLPE) degC, "
                                                 f"not {inst.insulation_c:g}")
     key = (method, inst.insulation_c, s.area_mm2)
     if key not in IEC_TABLES:
-        raise InputError(where, "size", f"IEC 60364-5-52 as held here runs from 1.5 to 300 mm2, not {s.label}{give}")
+        raise InputError(where, "size", f"IEC 60364-5-52 as held here runs from 1.5 to 300 mm2, not {s.label}")
     circuits = math.ceil(inst.conductors_together / 2)
     k_t = iec_ambient_factor(inst.insulation_c, inst.ambient_c)
     k_g = iec_grouping_factor(circuits)
     basis = (f"IEC 60364-5-52 method {method} ({'XLPE' if inst.insulation_c == 90 else 'PVC'}, two loaded "
-             f"conductors), Table B.52.14 ambient {inst.ambient_c:g} degC, Table B.52.17 for {circuits} circuit(s)")
-    return Ampacity(IEC_TABLES[key], k_t, k_g, IEC_TABLES[key] * k_t * k_g, math.inf, basis)
+             f"conductors), Table B.52.14 ambient {inst.ambient_c:g} degC, Table B.52.17 for {circuits} circuit(s); "
+             f"{protection_words(inst.protection)}")
+    return Ampacity(IEC_TABLES[key], k_t, k_g, IEC_TABLES[key] * k_t * k_g, math.inf, basis, inst.protection)
+
+
+def protection_words(protection: str) -> str:
+    """How a metric conductor is coordinated with its device, in words."""
+    return (f"protected by a {PROTECTION_WORDS[protection]}: I_n <= I_z and I_2 <= 1.45 I_z "
+            "(IEC 60364-4-43 433.1)")
+
+
+def conventional_factor(protection: str, rated_a: float) -> float:
+    """k2 = I_2 / I_n of a device of ``rated_a`` [-] (``iec_conventional_current.csv``)."""
+    ops = {">": float.__gt__, ">=": float.__ge__, "<": float.__lt__, "<=": float.__le__}
+    for device, conditions, factor in IEC_I2_FACTORS:
+        if device != protection:
+            continue
+        ok = True
+        for cond in conditions:
+            op = cond.rstrip("0123456789.")
+            ok = ok and ops[op](float(rated_a), float(cond[len(op):]))
+        if ok:
+            return factor
+    raise InputError("overcurrent protection", "protection", f"no conventional current for {protection!r} "
+                                                            f"at {rated_a:g} A")
+
+
+def largest_protection_a(capacity_a: float, protection: str = DEFAULT_PROTECTION) -> float:
+    """Largest preferred rating I_n of ``protection`` that protects a conductor of I_z = ``capacity_a`` [A].
+
+    IEC 60364-4-43 433.1: I_n ≤ I_z and k2 I_n ≤ 1.45 I_z. 0 when no
+    preferred rating does.
+    """
+    fits = [r for r in IEC_RATINGS_A[PROTECTIONS[protection]]
+            if r <= capacity_a * (1 + 1e-12)
+            and conventional_factor(protection, r) * r <= IEC_I2_LIMIT * capacity_a * (1 + 1e-12)]
+    return max(fits, default=0.0)
+
+
+def next_protection_a(design_current_a: float, protection: str = DEFAULT_PROTECTION) -> float:
+    """Smallest preferred rating I_n of ``protection`` at or above ``design_current_a`` (I_B ≤ I_n) [A]."""
+    ratings = IEC_RATINGS_A[PROTECTIONS[protection]]
+    for r in ratings:
+        if r >= design_current_a - 1e-9:
+            return r
+    raise InputError("overcurrent protection", None, f"{design_current_a:.0f} A is above the largest preferred "
+                                                     f"{PROTECTION_WORDS[protection]} rating, {ratings[-1]:g} A")
+
+
+def needed_protection_a(design_current_a: float, protection: str = DEFAULT_PROTECTION) -> float | None:
+    """:func:`next_protection_a`, or None when the design current is above the preferred series [A]."""
+    try:
+        return next_protection_a(design_current_a, protection)
+    except InputError:
+        return None
 
 
 def smallest_size_for_current(max_circuit_current_a: float, series: str, material: str,
@@ -285,7 +391,9 @@ def smallest_size_for_current(max_circuit_current_a: float, series: str, materia
 
     Each of ``conductors_in_parallel`` conductors carries an equal share.
     Sizes the tables lack are skipped, and so are small conductors whose NEC
-    240.4(D) protection limit is below the circuit's smallest fuse.
+    240.4(D) protection limit is below the circuit's smallest fuse, and
+    metric sizes whose I_z cannot be protected by the device rating the
+    circuit needs (IEC 60364-4-43 433.1, :meth:`Ampacity.limit_for`).
 
     Returns
     -------
@@ -311,7 +419,7 @@ def smallest_size_for_current(max_circuit_current_a: float, series: str, materia
         small = SMALL_CONDUCTOR_MAX_A.get((s.label, material))
         if small is not None and next_standard_rating(CONTINUOUS_FACTOR * share) > small:
             continue
-        if CONTINUOUS_FACTOR * share <= amp.limit_a:
+        if CONTINUOUS_FACTOR * max_circuit_current_a <= amp.limit_for(conductors_in_parallel):
             return s, amp
     biggest = f"the largest tabulated, {largest[0].label}, carries {largest[1].max_circuit_current_a:.0f} A" \
         if largest else "no size is tabulated for this installation"

@@ -315,9 +315,19 @@ def design_currents(system: System, defaults: amp.Installation = amp.Installatio
                     "circuit_current_a": circuit, "conductor_current_a": CONDUCTOR_CURRENT_FACTOR * circuit,
                     "current_basis": how,
                     "ampacity_a": None if a is None else n * a.corrected_a,
-                    "ampacity_limit_a": None if a is None else n * a.limit_a,
-                    "ampacity_basis": None if a is None else a.basis})
+                    "ampacity_limit_a": None if a is None else a.limit_for(n),
+                    "ampacity_basis": None if a is None else a.basis,
+                    "protection": None if a is None else a.protection,
+                    "protection_a": None if a is None or a.protection is None else
+                    amp.needed_protection_a(CONDUCTOR_CURRENT_FACTOR * circuit, a.protection)})
     return out
+
+
+#: The rules of the conductor check, in words, by the size's standard.
+AMPACITY_RULE = "ampacity: the conductor must carry 125 % of the circuit's maximum current"
+PROTECTION_RULE = ("overload protection: the conductor's current-carrying capacity must be at least the rating of "
+                   "the fuse or breaker the circuit needs (IEC 60364-4-43 433.1: I_B <= I_n <= I_z, "
+                   "I_2 <= 1.45 I_z)")
 
 
 def conductor_current_checks(system: System, defaults: amp.Installation = amp.Installation()) -> list[Check]:
@@ -328,15 +338,25 @@ def conductor_current_checks(system: System, defaults: amp.Installation = amp.In
         if d["ampacity_limit_a"] is None and run.size is None:
             continue
         limit = d["ampacity_limit_a"]
-        detail = (f"{d['current_basis']}, x 1.25 for the conductor; against "
-                  + (f"{d['ampacity_basis']}: min(termination value, 1.25 x corrected ampacity)"
-                     if limit is not None else "nothing: no table value for this run; give its ampacity_a"))
+        if limit is None:
+            against, rule = "nothing: no table value for this run; give its ampacity_a", AMPACITY_RULE
+        elif d["protection"] is None:
+            against, rule = f"{d['ampacity_basis']}: min(termination value, 1.25 x corrected ampacity)", AMPACITY_RULE
+        else:
+            needed = ("above the largest preferred rating" if d["protection_a"] is None else
+                      f"{d['protection_a']:g} A")
+            against = (f"{d['ampacity_basis']}; I_z {d['ampacity_a']:.1f} A; the circuit needs a device of at least "
+                       f"{d['conductor_current_a']:.1f} A, so {needed}, and the largest preferred rating I_z can "
+                       f"sit behind is {limit:g} A")
+            rule = PROTECTION_RULE
         checks.append(Check(
             f"conductor_current[{d['run']}]", d["conductor_current_a"], limit, "A",
             _compare(d["conductor_current_a"], limit, "max"),
-            "NEC 690.8(A) and 690.8(B), 110.14(C), 310.15, Table 310.16/310.17; IEC 60364-5-52 for metric sizes",
-            "max", detail, "ampacity: the conductor must carry 125 % of the circuit's maximum current",
-            {"circuit_current_a": d["circuit_current_a"], "ampacity_a": d["ampacity_a"]}))
+            "NEC 690.8(A) and 690.8(B), 110.14(C), 310.15, Table 310.16/310.17; IEC 60364-5-52 and "
+            "IEC 60364-4-43 433.1 for metric sizes",
+            "max", f"{d['current_basis']}, x 1.25 for the conductor; against {against}", rule,
+            {"circuit_current_a": d["circuit_current_a"], "ampacity_a": d["ampacity_a"],
+             "protection": d["protection"], "protection_a": d["protection_a"]}))
     return checks
 
 
@@ -438,8 +458,17 @@ def protection_checks(system: System, defaults: amp.Installation = amp.Installat
         if run.fuse_a is None:
             continue
         a = run_ampacity(run, defaults)
+        basis = "NEC 240.4, 240.4(B) and (D), 240.6(A)"
         if a is None:
             limit, how = None, "no ampacity for this run; give its ampacity_a"
+        elif a.protection is not None:
+            # IEC 60364-4-43 433.1: no rounding up past the conductor; I_2 = k2 I_n <= 1.45 I_z.
+            capacity = run.conductors_in_parallel * a.corrected_a
+            k2 = amp.conventional_factor(a.protection, run.fuse_a)
+            limit = min(capacity, amp.IEC_I2_LIMIT * capacity / k2)
+            how = (f"the conductor's I_z {capacity:.1f} A ({a.basis}); I_2 = {k2:g} x I_n for a "
+                   f"{amp.PROTECTION_WORDS[a.protection]}, so I_n <= min(I_z, 1.45 I_z / {k2:g})")
+            basis = "IEC 60364-4-43 433.1; IEC 60269-1, 60269-6, 60898 (conventional operating current)"
         else:
             usable = run.conductors_in_parallel * min(a.corrected_a, a.termination_a)
             std = any(abs(usable - r) < 1e-9 for r in amp.STANDARD_RATINGS_A)
@@ -451,7 +480,7 @@ def protection_checks(system: System, defaults: amp.Installation = amp.Installat
                 limit = small * run.conductors_in_parallel
                 how += f", but at most {small:g} A for {run.size.label} {run.material} (NEC 240.4(D))"
         out.append(Check(f"fuse_rating[{run.name}]", run.fuse_a, limit, "A", _compare(run.fuse_a, limit, "max"),
-                         "NEC 240.4, 240.4(B) and (D), 240.6(A)", "max", f"fuse_a {run.fuse_a:g} A against {how}",
+                         basis, "max", f"fuse_a {run.fuse_a:g} A against {how}",
                          "fuse: the fuse must protect the conductor it feeds"))
     return out
 

@@ -76,6 +76,7 @@ Material = _choices("Material", ("copper", "aluminium", "aluminum"))
 Engine = _choices("Engine", ("local", "dask"))
 ResistanceBasis = _choices("ResistanceBasis", ("table", "computed"))
 Install = _choices("Install", ("raceway", "free-air", "A1", "A2", "B1", "B2", "C", "E"))
+Protection = _choices("Protection", ("gpv", "gg", "breaker"))
 
 
 def _with_aliases(argv: list[str]) -> list[str]:
@@ -218,15 +219,19 @@ INSTALL_HELP = {
                            "B.52.17 counts them as circuits of two). Default 2 (one DC circuit).",
     "install": "raceway (NEC 310.16; IEC method B1) or free-air (NEC 310.17; IEC method E), or an IEC method A1, A2, "
                "B1, B2, C, E for metric sizes. Default raceway.",
+    "protection": "The fuse or breaker of a metric circuit, for IEC 60364-4-43 433.1 (I_n <= I_z, I_2 <= 1.45 I_z): "
+                  "gpv (gPV fuse, IEC 60269-6), gg (gG fuse, IEC 60269-1) or breaker (IEC 60898). Default gpv; "
+                  "AWG sizes follow NEC 240. A run's own protection wins.",
 }
 # The installation's defaults live with the ampacity tables; None here means "the default".
 InsulationOpt = Annotated[Optional[float], typer.Option("--insulation-c", help=INSTALL_HELP["insulation_c"])]
 AmbientOpt = Annotated[Optional[float], typer.Option("--ambient-c", help=INSTALL_HELP["ambient_c"])]
 TogetherOpt = Annotated[Optional[int], typer.Option("--conductors-together", help=INSTALL_HELP["conductors_together"])]
 InstallOpt = Annotated[Optional[Install], typer.Option("--install", help=INSTALL_HELP["install"])]
+ProtectionOpt = Annotated[Optional[Protection], typer.Option("--protection", help=INSTALL_HELP["protection"])]
 
 
-def _installation(insulation_c, ambient_c, together, install):
+def _installation(insulation_c, ambient_c, together, install, protection=None):
     """The command's installation (``ampacity.Installation``), defaults filled in and checked; errors name the option."""
     from pvsource import ampacity
     from pvsource.ampacity import Installation, check_installation
@@ -235,10 +240,13 @@ def _installation(insulation_c, ambient_c, together, install):
     ambient_c = ampacity.DEFAULT_AMBIENT_C if ambient_c is None else ambient_c
     together = ampacity.DEFAULT_CONDUCTORS_TOGETHER if together is None else together
     install = ampacity.DEFAULT_INSTALL if install is None else str(install)
-    inst = Installation(insulation_c=insulation_c, ambient_c=ambient_c, conductors_together=together, install=install)
+    protection = ampacity.DEFAULT_PROTECTION if protection is None else str(protection)
+    inst = Installation(insulation_c=insulation_c, ambient_c=ambient_c, conductors_together=together, install=install,
+                        protection=protection)
     try:
         return check_installation(inst, "", {"insulation_c": "--insulation-c", "ambient_c": "--ambient-c",
-                                             "conductors_together": "--conductors-together", "install": "--install"})
+                                             "conductors_together": "--conductors-together", "install": "--install",
+                                             "protection": "--protection"})
     except InputError as exc:
         raise InputError(exc.field, None, exc.expected) from None
 
@@ -285,6 +293,7 @@ def wire(
     ambient_c: AmbientOpt = None,
     conductors_together: TogetherOpt = None,
     install: InstallOpt = None,
+    protection: ProtectionOpt = None,
     as_json: Annotated[bool, typer.Option("--json", help="Print one JSON object instead of tables.")] = False,
 ):
     """Voltage drop, loss and ampacity of every cable run; the sizes by ampacity and by drop, and the larger."""
@@ -293,7 +302,7 @@ def wire(
 
     budget = _budget_fraction(budget_pct)
     material, resistance_basis = str(material), str(resistance_basis)
-    inst = _installation(insulation_c, ambient_c, conductors_together, install)
+    inst = _installation(insulation_c, ambient_c, conductors_together, install, protection)
     if length_ft is not None:
         if length_m is not None:
             raise InputError("--length-ft", None, "give --length-m or --length-ft, not both")
@@ -727,6 +736,7 @@ def check(
     ambient_c: AmbientOpt = None,
     conductors_together: TogetherOpt = None,
     install: InstallOpt = None,
+    protection: ProtectionOpt = None,
     as_json: Annotated[bool, typer.Option("--json", help="Print one JSON object instead of tables.")] = False,
 ):
     """Voltage, current, ampacity and protection checks; exit code 1 when any check fails, 0 when all pass."""
@@ -748,7 +758,7 @@ def check(
     from pvsource.module import model_notes
     from pvsource.terminal import render_checks
 
-    inst = _installation(insulation_c, ambient_c, conductors_together, install)
+    inst = _installation(insulation_c, ambient_c, conductors_together, install, protection)
     system = load_system(system_file)
     rise_c, rise_basis = cell_rise(system, cell_rise_c)
     checks = design_checks(system, min_temp, max_temp, cell_rise_c, inst)

@@ -279,6 +279,8 @@ def parse_cable(table: Table, index: int, group_names) -> CableRun:
         installed["conductors_together"] = table.number("conductors_together", integer=True, positive=True)
     if table.has("install"):
         installed["install"] = table.text("install", choices=ampacity_tables.INSTALLS)
+    if table.has("protection"):
+        installed["protection"] = table.text("protection", choices=tuple(ampacity_tables.PROTECTIONS))
     ampacity_tables.check_installation(ampacity_tables.Installation(**installed), where,
                                        {k: table.field(k) for k in installed})
     if size is not None:

@@ -16,7 +16,8 @@ from pvsource import conductors
 from pvsource.errors import InputError
 from pvsource.system import System
 from pvsource.ampacity import (
-    CONTINUOUS_FACTOR, Installation, check_installation, check_series, smallest_size_for_current,
+    CONTINUOUS_FACTOR, Installation, check_installation, check_series, needed_protection_a,
+    smallest_size_for_current,
 )
 from pvsource.checks import design_currents
 from pvsource.wiring import CableRun, run_ampacity, run_installation, sized_ohm_per_km
@@ -203,13 +204,21 @@ def _size_by_drop(flow: RunFlow, budget_fraction):
     return size, "" if size is not None else "no current flows at the design point"
 
 
-def _sizing(flow: RunFlow, budget_fraction, max_circuit_current_a: float, defaults: Installation) -> dict:
+#: What a user can do when the tables hold no value for a run, by where the run was described.
+REMEDY_FILE = "give the run's ampacity_a from the cable's own rating"
+REMEDY_QUICK = "choose a --size and --material the tables hold (IEC 60364-5-52: 1.5 to 300 mm2; NEC 310.16: 14 AWG up)"
+
+
+def _sizing(flow: RunFlow, budget_fraction, max_circuit_current_a: float, defaults: Installation,
+            remedy: str = REMEDY_FILE) -> dict:
     """Ampacity of the run's size, and the sizes by ampacity, by drop, and the larger of the two (JSON-ready).
 
     ``max_circuit_current_a`` is I_max; the conductor must carry 1.25 x it
     (:mod:`pvsource.ampacity`). Without a table value for the run's metal or
     installation the recommendation never goes below the chosen size, since
     voltage drop alone cannot show that a smaller conductor is safe.
+    ``remedy`` says what the user can do then, in the terms of the command
+    used (a file key, or an option).
     """
     run = flow.run
     by_drop, drop_note = _size_by_drop(flow, budget_fraction)
@@ -221,7 +230,7 @@ def _sizing(flow: RunFlow, budget_fraction, max_circuit_current_a: float, defaul
                                                   run_installation(run, defaults), run.conductors_in_parallel,
                                                   where=run.name)
         except InputError as exc:
-            amp_note = exc.expected
+            amp_note = f"{exc.expected}; {remedy}"
     candidates = [x for x in (by_drop, by_amp) if x is not None]
     note = "; ".join(n for n in (drop_note, amp_note) if n)
     if by_amp is None and run.size is not None:
@@ -234,8 +243,14 @@ def _sizing(flow: RunFlow, budget_fraction, max_circuit_current_a: float, defaul
     return {"max_circuit_current_a": max_circuit_current_a,
             "design_current_a": CONTINUOUS_FACTOR * max_circuit_current_a,
             "ampacity_a": None if a is None else n * a.corrected_a,
-            "ampacity_limit_a": None if a is None else n * a.limit_a,
+            "ampacity_limit_a": None if a is None else a.limit_for(n),
             "ampacity_basis": None if a is None else a.basis,
+            "ampacity_note": None if a is not None else
+            f"no table value for {run.size.label if run.size else 'a run without a size'} {run.material} "
+            f"in this installation; {remedy}",
+            "protection": None if a is None else a.protection,
+            "protection_a": None if a is None or a.protection is None else
+            needed_protection_a(CONTINUOUS_FACTOR * max_circuit_current_a, a.protection),
             "size_by_ampacity": by_amp.label if by_amp else None,
             "size_by_drop": by_drop.label if by_drop else None,
             "recommended_size": recommended.label if recommended else None,
@@ -424,7 +439,7 @@ def quick_record(current_a: float, length_m: float, size_text: str, material: st
         "mass_kg": float(conductors.conductor_mass_kg(length_m, size.area_mm2, mat, conductors_in_parallel,
                                                       stranded=conductor_class != 1)),
         "installation": asdict(installation),
-        **_sizing(flow, budget_fraction, current_a, installation),
+        **_sizing(flow, budget_fraction, current_a, installation, REMEDY_QUICK),
         "options": [_option_record(o) for o in size_options(flow)],
     }
     rec["budget_pct"] = None if budget_fraction is None else 100.0 * budget_fraction

@@ -9,6 +9,7 @@ from __future__ import annotations
 import math
 
 from pvsource import cautions
+from pvsource.ampacity import PROTECTION_WORDS
 from pvsource.module import Module, model_notes, temperature_coefficients
 from pvsource.system import System
 
@@ -153,8 +154,12 @@ def render_caution_list(items) -> str:
 
 
 def _sizes_line(r: dict) -> list[str]:
-    amp = "no ampacity (no table value; give ampacity_a)" if r["ampacity_a"] is None else \
+    amp = f"no ampacity ({r['ampacity_note']})" if r["ampacity_a"] is None else \
         f"ampacity {_num(r['ampacity_a'], 1, 'A')} after corrections"
+    if r.get("protection"):
+        needed = "none in the preferred series" if r["protection_a"] is None else f"{r['protection_a']:g} A"
+        amp += (f"; needs a {PROTECTION_WORDS[r['protection']]} of {needed}, and the conductor may sit behind "
+                f"{_num(r['ampacity_limit_a'], 0, 'A')} at most (IEC 60364-4-43 433.1)")
     lines = [f"  max current {_num(r['max_circuit_current_a'], 2, 'A')}, conductor design "
              f"{_num(r['design_current_a'], 2, 'A')} (x 1.25); {amp}",
              f"  size by ampacity {r['size_by_ampacity'] or '-'}   by drop {r['size_by_drop'] or '-'}   "
@@ -299,7 +304,9 @@ def render_quick_wire(rec: dict) -> str:
                  + f"   loss {rec['loss_w']:.2f} W   metal {rec['mass_kg']:.2f} kg")
     inst = rec["installation"]
     lines.append(f"  installed: {inst['install']}, {inst['insulation_c']:g} degC insulation, {inst['ambient_c']:g} degC "
-                 f"ambient, {inst['conductors_together']} conductors together, {inst['termination_c']:g} degC terminations"
+                 f"ambient, {inst['conductors_together']} conductors together, "
+                 + (f"{PROTECTION_WORDS[rec['protection']]}" if rec.get("protection") else
+                    f"{inst['termination_c']:g} degC terminations")
                  + (f"; drop budget {rec['budget_pct']:g} %" if rec["budget_pct"] is not None else ""))
     lines.extend(_sizes_line(rec))
     if rec["options"]:

@@ -21,7 +21,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from pvsource import conductors
-from pvsource.ampacity import Ampacity, Installation, ampacity
+from pvsource.ampacity import Ampacity, Installation, ampacity, protection_words
 from pvsource.conductors import ConductorSize
 from pvsource.errors import InputError
 
@@ -145,7 +145,12 @@ def run_ampacity(run: CableRun, defaults: Installation = Installation(), size: C
     size = size or run.size
     if run.ampacity_a is not None and (size is None or size == run.size):
         a = run.ampacity_a
-        return Ampacity(a, 1.0, 1.0, a, a, "the run's ampacity_a, taken as the rating after corrections")
+        basis = "the run's ampacity_a, taken as the rating after corrections"
+        if size is not None and size.series == "metric":
+            # A metric conductor is coordinated with its device whatever its rating's source.
+            protection = run_installation(run, defaults).protection
+            return Ampacity(a, 1.0, 1.0, a, a, f"{basis}; {protection_words(protection)}", protection)
+        return Ampacity(a, 1.0, 1.0, a, a, basis)
     if size is None:
         return None
     try:

@@ -299,3 +299,41 @@ def test_small_conductors_keep_their_240_4_d_limits(demo_module, size, material,
     run = CableRun("feeder", "feeder", 10.0, 2.0, size=parse_size(size), material=material, fuse_a=fuse)
     c = protection_checks(make_system(demo_module, groups=((2, 1),), cables=(run,)))[0]
     assert c.limit == limit and c.passed is (fuse <= limit)
+
+
+@pytest.mark.parametrize("protection, fuse, limit", [
+    ("gpv", 32.0, 33.0),              # I_n <= I_z = 33 A; I_2 = 1.45 I_n <= 1.45 I_z is the same condition
+    ("gpv", 40.0, 33.0),
+    ("breaker", 32.0, 33.0),
+    ("gg", 32.0, 1.45 * 33.0 / 1.6),  # I_2 = 1.6 I_n <= 1.45 I_z: I_n <= 29.9 A, so a 32 A gG fuse fails
+    ("gg", 25.0, 1.45 * 33.0 / 1.6),
+    ("gg", 10.0, 1.45 * 33.0 / 1.9),  # below 16 A, I_2 = 1.9 I_n
+])
+def test_a_metric_fuse_is_coordinated_with_its_conductor(demo_module, protection, fuse, limit):
+    # IEC 60364-4-43 433.1 (no rounding up past the conductor, unlike NEC 240.4(B)) with 2.5 mm2 XLPE,
+    # method C: I_z 33 A (IEC 60364-5-52 B.52.4, from memory); k2 from IEC 60269-1/-6 and 60898 (from memory).
+    from pvsource.checks import protection_checks
+    from pvsource.conductors import parse_size
+    from pvsource.wiring import CableRun
+    run = CableRun("feeder", "feeder", 10.0, 2.0, size=parse_size("2.5 mm2"), fuse_a=fuse,
+                   installed=(("install", "C"), ("protection", protection)))
+    c = protection_checks(make_system(demo_module, groups=((2, 1),), cables=(run,)))[0]
+    assert c.limit == pytest.approx(limit) and c.passed is (fuse <= limit) and "433.1" in c.basis
+
+
+def test_metric_conductor_check_names_the_protection_rule(demo_module):
+    # 1 string x 9.8 A x 1.25 = 12.25 A (NEC 690.8(A)); the conductor's device is at least 1.25 x 12.25 =
+    # 15.3 A, so 16 A (IEC 60269-1 series). 1.5 mm2 XLPE at 55 degC in B1: 23 x 0.76 = 17.5 A >= 16 A,
+    # passes; at 65 degC: 23 x 0.65 = 14.95 A < 16 A (B.52.4, B.52.14, from memory) fails, although
+    # 14.95 A still carries the 12.25 A and 1.25 x 14.95 = 18.7 A exceeds the 15.3 A design current.
+    from pvsource.conductors import parse_size
+    from pvsource.wiring import CableRun
+    for ambient, ok in ((55.0, True), (65.0, False)):
+        run = CableRun("string", "string", 5.0, 12.0, group="g1", size=parse_size("1.5 mm2"),
+                       installed=(("ambient_c", ambient),))
+        system = make_system(demo_module, groups=((2, 1),), cables=(run,))
+        c = next(c for c in design_checks(system, -10.0, 35.0) if c.name == "conductor_current[string]")
+        assert c.passed is ok and c.data["protection_a"] == 16.0
+        assert c.limit == (16.0 if ok else 12.0)
+        if not ok:
+            assert c.reason().startswith("overload protection") and "433.1" in c.reason()

@@ -349,6 +349,24 @@ def test_wire_recommends_the_larger_of_ampacity_and_drop(capsys):
     assert rec["recommended_size"] == "50 mm2" and "ampacity" in rec["recommendation_note"]
 
 
+@pytest.mark.parametrize("protection, size, device", [("gpv", "2.5 mm2", 25.0), ("breaker", "2.5 mm2", 25.0),
+                                                   ("gg", "2.5 mm2", 25.0)])
+def test_wire_sizes_a_metric_run_with_its_protection(capsys, protection, size, device):
+    # IEC 60364-4-43 433.1: a 20 A circuit's device is the next preferred rating at or above 1.25 x 20 = 25 A,
+    # 25 A in IEC 60269-1 and 60898-1 (from memory). 1.5 mm2 XLPE in B1 has I_z 23 A < 25 A; 2.5 mm2 has 31 A
+    # (IEC 60364-5-52 B.52.4, from memory), and for a gG fuse 1.6 x 25 = 40 A <= 1.45 x 31 = 45 A.
+    code, out, _ = run(capsys, "wire", "--current", "20", "--length-m", "1", "--size", "1.5 mm2", "--volts", "230",
+                       "--protection", protection, "--json")
+    rec = json.loads(out)
+    assert code == 0 and rec["size_by_ampacity"] == size and rec["protection_a"] == device
+    assert rec["ampacity_a"] == 23.0 and rec["ampacity_limit_a"] == 20.0 and rec["recommended_size"] == size
+    assert rec["installation"]["protection"] == protection
+    code, out, _ = run(capsys, "wire", "--current", "20", "--length-m", "1", "--size", "1.5 mm2", "--volts", "230")
+    assert "433.1" in out and "25 A" in out
+    code, _, err = run(capsys, "wire", "--current", "20", "--length-m", "1", "--size", "1.5 mm2", "--protection", "x")
+    assert code == 2 and "--protection" in err
+
+
 @pytest.mark.parametrize("args, words", [
     (["wire", EXAMPLE, "--material", "aluminium"], "--material"),
     (["wire", EXAMPLE, "--parallel", "3"], "--parallel"),

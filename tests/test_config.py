@@ -184,11 +184,19 @@ def test_a_given_resistance_wins_over_the_size(tmp_path):
     (("resistance_ohm_per_km = 3.4", 'size = "10 AWG"\nconductors_together = 0'), "[[cable]] #1.conductors_together",
      "greater"),
     (("resistance_ohm_per_km = 3.4", 'size = "10 AWG"\nambient_c = 95'), "[[cable]] #1.ambient_c", "-50 to 85"),
+    (("resistance_ohm_per_km = 3.4", 'size = "6 mm2"\nprotection = "gL"'), "[[cable]] #1.protection", "one of"),
+    (("resistance_ohm_per_km = 3.4", 'size = "10 AWG"\nprotection = "gg"'), "[[cable]] #1.protection", "NEC 240"),
 ])
 def test_bad_cable_tables(tmp_path, edit, field, words):
     with pytest.raises(InputError) as exc:
         load_system(write(tmp_path, GOOD.replace(*edit)))
     assert exc.value.field == field and words in exc.value.expected
+
+
+def test_a_run_names_its_protective_device(tmp_path):
+    run = load_system(write(tmp_path, GOOD.replace("resistance_ohm_per_km = 3.4",
+                                                   'size = "6 mm2"\nprotection = "breaker"'))).cables[0]
+    assert dict(run.installed)["protection"] == "breaker"
 
 
 def test_controller_limits(tmp_path):

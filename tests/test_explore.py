@@ -289,3 +289,15 @@ def test_a_killed_explore_leaves_no_worker_behind(tmp_path, short_year):
         assert e["workers"] == 2 and e["left"] == 0, e
     assert ended[2]["exit"] == 130  # Ctrl-C: the workers are stopped and the run says so
 
+
+
+def test_a_metric_size_its_fuse_cannot_protect_is_excluded_by_that_rule(short_year):
+    # The demo's feeder carries 2 strings x 9.8 A x 1.25 = 24.5 A (NEC 690.8(A)); its device is at least
+    # 1.25 x 24.5 = 30.6 A, so 32 A (IEC 60269-1 series). 2.5 mm2 XLPE in B1 has I_z 31 A (IEC 60364-5-52
+    # B.52.4, from memory): it carries 24.5 A, but IEC 60364-4-43 433.1 (I_n <= I_z) excludes it. Only the
+    # excluded combination is evaluated here (no season is run for it).
+    from pvsource.conductors import parse_size
+    system, weather = short_year
+    out = ex.evaluate(system, weather, {"size:roof to controller": parse_size("2.5 mm2")}, PRICES)
+    assert out["excluded"] and out["reason"].startswith("overload protection")
+    assert "conductor_current[roof to controller]" in out["reason"] and "I_n <= I_z" in out["reason"]
