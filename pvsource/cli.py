@@ -192,6 +192,7 @@ def point(
     as_json: Annotated[bool, typer.Option("--json", help="Print one JSON object (SI units) instead of tables.")] = False,
 ):
     """Solve the operating point at one set of conditions and show the array's Thevenin/Norton view."""
+    from pvsource.alerts import point_alerts
     from pvsource.config import load_system
     from pvsource.module import model_notes
     from pvsource.operating import operating_points, point_record
@@ -201,7 +202,8 @@ def point(
     g = _conditions_for(system, parse_condition(irradiance, "--irradiance-w-m2"), "--irradiance-w-m2")
     t = _conditions_for(system, parse_condition(cell_temp, "--cell-temp-c"), "--cell-temp-c")
     frame = operating_points(system, g, t)
-    rec = point_record(system, frame.iloc[0])
+    # Alerts first: the hazards this point implies come before its figures.
+    rec = {"alerts": point_alerts(system, frame), **point_record(system, frame.iloc[0])}
     rec["notes"] = model_notes(system.module)
     rec["cautions"] = cautions.for_command("point", system)
     if as_json:

@@ -29,6 +29,7 @@ import pandas as pd
 
 from pvsource import bank as bank_model
 from pvsource import linear
+from pvsource.alerts import alert_codes
 from pvsource.charging import FLOAT_SOC, BankPoint, solve_charging
 from pvsource.errors import ConvergenceError, InputError, PhysicsGuardError
 from pvsource.module import key_points, parameters_at
@@ -452,6 +453,8 @@ def operating_points(system: System, irradiance_w_m2=None, cell_temp_c=None, *, 
         if np.any(over):
             raise PhysicsGuardError("a charge current above the array's short-circuit current was computed "
                                     "through a direct or PWM connection; result withheld")
+    # The hazards each point implies, from its columns (pvsource.alerts).
+    frame["alerts"] = alert_codes(system, frame)
     return frame
 
 

@@ -245,7 +245,9 @@ def write_report(out: Path, system: System, result: SeasonResult, weather, steps
     written.append(atomic_write(out / "hourly.csv", lambda tmp: write_csv(tmp, hourly)))
     del hourly
     written.append(write_text(out / "summary.json", json.dumps(json_ready(summary), indent=2, allow_nan=False)))
-    monthly = json_ready(summary["monthly"])
+    # A table per month has one column per figure: nested figures (alert hours) become ``key.name`` columns.
+    monthly = [{f"{k}.{n}" if isinstance(v, dict) else k: x for k, v in m.items()
+                for n, x in (v.items() if isinstance(v, dict) else [(None, v)])} for m in json_ready(summary["monthly"])]
     header = list(monthly[0]) if monthly else []
     csv_text = ",".join(header) + "\n" + "".join(
         ",".join("" if m[k] is None else str(m[k]) for k in header) + "\n" for m in monthly)

@@ -201,9 +201,25 @@ def check_label(name: str) -> str:
 
 # ---------------------------------------------------------------- sections
 
-def findings(system, summary: dict, checks) -> str:
-    """What needs attention first: failed checks, unmet load, an emptied bank; never empty."""
+def alert_items(summary: dict) -> list:
+    """One finding per alert that fired during the span: its words, its hours, the months it fired in."""
+    from pvsource.alerts import ALERTS
+
+    hours = summary.get("alert_hours") or {}
     items = []
+    for a in ALERTS:
+        h = hours.get(a.name) or 0.0
+        if h <= 0.0:
+            continue
+        months = [m["month"] for m in summary.get("monthly", ()) if (m.get("alert_hours") or {}).get(a.name)]
+        when = f" in {', '.join(months)}" if 0 < len(months) <= 3 else f" in {len(months)} months" if months else ""
+        items.append(("alert", "Alert.", f"{a.label[0].upper()}{a.label[1:]}: {fmt(h, 1, 'h')}{when} ({a.basis})."))
+    return items
+
+
+def findings(system, summary: dict, checks) -> str:
+    """What needs attention first: alerts during the span, failed checks, unmet load, an emptied bank; never empty."""
+    items = alert_items(summary)
     for c in checks:
         if c.passed is False:
             sense = "above the limit" if c.sense == "max" else "below the minimum"
@@ -225,7 +241,7 @@ def findings(system, summary: dict, checks) -> str:
                                                   f"{fmt(c.value, 1, c.unit)} with."))
     if not any(kind in ("alert", "warn") for kind, _, _ in items):
         met = ", and the load was met" if load > 0 else ""
-        items.insert(0, ("ok", "No problems found.", f"No design check with a limit failed{met}."))
+        items.insert(0, ("ok", "No problems found.", f"No alert fired, no design check with a limit failed{met}."))
     body = "".join(f'<li class="{kind}"><strong>{_esc(head)}</strong>{_esc(text)}</li>' for kind, head, text in items)
     return f'<section id="findings"><h2>What needs attention</h2><ul class="findings">{body}</ul></section>'
 

@@ -22,6 +22,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 from pvsource import bank as bank_model
+from pvsource.alerts import alert_codes, alert_hours
 from pvsource.compiled import kernel
 from pvsource.errors import InputError
 from pvsource.module import model_notes
@@ -469,7 +470,8 @@ def hourly_table(steps: pd.DataFrame, step_h: float) -> pd.DataFrame:
       (the sum of power x step [Wh]), the same way the summary counts energy;
     - every other number is the hour's mean (NaN steps left out);
     - ``converged`` holds if it held at every step; ``stage`` and ``limit``
-      are the ones that held longest;
+      are the ones that held longest; ``alerts`` has the bit of every alert
+      that fired in the hour (:mod:`pvsource.alerts`);
     - ``covered_h`` is the time the row's steps cover [h]: 1 for a complete
       hour, less where steps are missing.
 
@@ -502,7 +504,9 @@ def hourly_table(steps: pd.DataFrame, step_h: float) -> pd.DataFrame:
     out = {"covered_h": counts * step_h}
     for name in steps.columns:
         col = steps[name].to_numpy()
-        if col.dtype.kind == "b":
+        if name == "alerts":
+            out[name] = np.bitwise_or.reduceat(col, starts)  # every alert that fired within the hour
+        elif col.dtype.kind == "b":
             out[name] = np.add.reduceat(~col, starts) == 0
         elif col.dtype.kind in "iuf":
             col = col.astype(float, copy=False)
@@ -530,6 +534,7 @@ def summarise(system: System, steps: pd.DataFrame, step_h: float) -> dict:
     summary = {"steps": int(len(steps)), "step_h": step_h, "start": str(steps.index[0]), "end": str(steps.index[-1])}
     summary.update(_energies(steps, step_h))
     summary.update(_span_stats(steps, step_h))
+    codes = steps["alerts"].to_numpy() if "alerts" in steps else alert_codes(system, steps)
     monthly = []
     # Months of the weather's own local calendar. The steps are in time
     # order, so each month is one run of rows: slices, not a group-by's copies.
@@ -541,8 +546,11 @@ def summarise(system: System, steps: pd.DataFrame, step_h: float) -> dict:
         row = {"month": f"{month[start] // 12:04d}-{month[start] % 12 + 1:02d}"}
         row.update(_energies(part, step_h))
         row.update(_span_stats(part, step_h, whole_span=False))
+        row["alert_hours"] = alert_hours(codes[start:stop], step_h)
         monthly.append(row)
     summary["monthly"] = monthly
+    # The span's alert hours are its months' sum, by construction.
+    summary["alert_hours"] = {name: sum(m["alert_hours"][name] for m in monthly) for name in alert_hours([], step_h)}
     if system.bank is not None:
         v_abs, _ = bank_model.charge_voltages_v(system.bank)
         summary["bank_absorption_v"] = float(v_abs)

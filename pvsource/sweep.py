@@ -36,6 +36,7 @@ import pandas as pd
 
 from pvsource import bank as bank_model
 from pvsource import conductors
+from pvsource.alerts import names as alert_names
 from pvsource.errors import InputError
 from pvsource.linear import linear_transfer
 from pvsource.names import VARIABLE_ALIASES, canonical
@@ -48,7 +49,7 @@ VARIABLES = ("load_resistance_ohm", "bank_emf_v", "bank_class_v", "soc", "module
 MAX_STEPS = 2000
 NOMINAL_CLASSES_V = (12.0, 24.0, 48.0)
 ROW_KEYS = ("value", "delivered_w", "efficiency", "matching_ratio", "charge_current_a", "v", "i", "p",
-            "generated_w", "linear_p_w", "linear_efficiency")
+            "generated_w", "linear_p_w", "linear_efficiency", "alerts")
 
 
 def variable_name(text: str) -> str:
@@ -270,6 +271,7 @@ def run_sweep(system: System, variable: str, start: str, stop: str, steps: int, 
         "charge_current_a": df["charge_current_a"] if "charge_current_a" in df else np.nan,
         "v": df["v"], "i": df["i"], "p": df["p"], "generated_w": df["generated_w"],
         "linear_p_w": lin["p_load_w"], "linear_efficiency": lin["efficiency"],
+        "alerts": [alert_names(c) for c in df["alerts"]],
     })
     changes, replaced = what_changes(system, variable)
     design = {"matching_ratio": float(base["matching_ratio"]), "delivered_w": float(base["delivered_w"]),

@@ -65,8 +65,9 @@ def render_point(system: System, rec: dict) -> str:
     """The readable table of ``pvsource point``."""
     src, op = rec["source"], rec["operating_point"]
     th, no = rec["thevenin"], rec["norton"]
-    lines = [f"pvsource operating point: {system.name or system.source}", f"file        {system.source}",
-             f"load        {describe_load(system)}"]
+    lines = [f"ALERT: {a['message']}" for a in rec.get("alerts", ())]
+    lines += [f"pvsource operating point: {system.name or system.source}", f"file        {system.source}",
+              f"load        {describe_load(system)}"]
     for g in rec["groups"]:
         lines.append(f"group {g['name']:<6} {g['modules_per_string']} modules x {g['strings']} strings at "
                      f"{_num(g['irradiance_w_m2'], 0, 'W/m2')}, cells {_num(g['cell_temp_c'], 1, 'degC')}")
@@ -367,6 +368,10 @@ def render_sweep(system: System, rows, design: dict, plot) -> str:
         lin_eff = "n/a" if not math.isfinite(r["linear_efficiency"]) else f"{100 * r['linear_efficiency']:.2f}"
         lines.append(f"{value:>12} {r['delivered_w']:>11.1f} {eff:>8} {_num(r['matching_ratio'], 4):>9} "
                      f"{charge:>9} {r['p']:>10.1f} {_num(r['linear_p_w'], 1):>10} {lin_eff:>10}{flag}")
+    for _, r in rows.iterrows():
+        if r.get("alerts"):
+            value = r["value"] if isinstance(r["value"], str) else f"{r['value']:.4g}"
+            lines.append(f"ALERT at {value} {unit}: {', '.join(r['alerts'])}")
     lines.append("\n'array P' is the exact power at the array terminals; the linear columns are what the array's "
                  "Thevenin equivalent at the design point predicts there at the same matching ratio: its power "
                  "peaks at m = 1 with 50 % efficiency. An open circuit has no ratio (n/a).")
