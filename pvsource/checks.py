@@ -32,7 +32,7 @@ References
 from __future__ import annotations
 
 import math
-from dataclasses import asdict, dataclass, field
+from dataclasses import asdict, dataclass, field, replace
 
 import numpy as np
 from pvlib import pvsystem
@@ -288,6 +288,30 @@ def _battery_side_current(system: System) -> tuple[float, str] | None:
                                             f"{float(v_abs):.1f} V absorption voltage")
 
 
+def _circuit_current(system: System, run, isc: float) -> tuple[int | None, float, str]:
+    """(strings carried or None behind a tracker, maximum circuit current [A], how) of one run.
+
+    With several controllers a feeder or bank run carries its own
+    controller's current, and the bank's interconnects the sum of all of them.
+    """
+    if system.several_controllers:
+        if run.role == "interconnect":
+            parts = [(c.name, _circuit_current(system.for_controller(c), run, isc)) for c in system.controllers]
+            carried = [p[0] for _, p in parts]
+            return (None if None in carried else sum(carried), sum(p[1] for _, p in parts),
+                    " + ".join(f"{name}: {p[2]}" for name, p in parts))
+        if run.role in ("feeder", "bank"):
+            own = next(c for c in system.controllers if c.name == run.controller)
+            return _circuit_current(system.for_controller(own), run, isc)
+    battery = _battery_side_current(system)
+    if run.role in ("bank", "interconnect") and battery is not None:
+        return None, *battery
+    strings = {g.name: g.strings for g in system.groups}
+    carried = 1 if run.role == "string" else strings[run.group] if run.role == "home-run" else sum(strings.values())
+    return carried, CIRCUIT_CURRENT_FACTOR * carried * isc, \
+        f"{carried} string(s) x Isc {isc:g} A x 1.25 (NEC 690.8(A)(1))"
+
+
 def design_currents(system: System, defaults: amp.Installation = amp.Installation()) -> list[dict]:
     """Maximum circuit current, conductor design current and ampacity of every run.
 
@@ -298,17 +322,9 @@ def design_currents(system: System, defaults: amp.Installation = amp.Installatio
     the file leaves out), or from the run's typed ``ampacity_a`` for its own size.
     """
     isc = module_isc_stc(system)
-    strings = {g.name: g.strings for g in system.groups}
-    total = sum(strings.values())
-    battery = _battery_side_current(system)
     out = []
     for run in system.cables:
-        if run.role in ("bank", "interconnect") and battery is not None:
-            carried, (circuit, how) = None, battery
-        else:
-            carried = 1 if run.role == "string" else strings[run.group] if run.role == "home-run" else total
-            circuit = CIRCUIT_CURRENT_FACTOR * carried * isc
-            how = f"{carried} string(s) x Isc {isc:g} A x 1.25 (NEC 690.8(A)(1))"
+        carried, circuit, how = _circuit_current(system, run, isc)
         a = run_ampacity(run, defaults)
         n = run.conductors_in_parallel
         out.append({"run": run.name, "role": run.role, "strings_carried": carried,
@@ -442,7 +458,12 @@ def protection_checks(system: System, defaults: amp.Installation = amp.Installat
         ocv = float(bank_model.open_circuit_v(system.bank, 1.0))
         r_int = float(bank_model.internal_resistance_ohm(system.bank, 1.0, max(system.bank.temp_c, 25.0)))
         bank_runs = [r for r in system.cables if r.role in ("bank", "interconnect")]
-        r_cable = sum(_loop_ohm_at_20c(r) for r in bank_runs)
+        # With several controllers each has its own bank run: the fault
+        # current is highest through the shortest of them.
+        owners = [c.name for c in system.controllers] if system.several_controllers else [None]
+        r_cable = sum(_loop_ohm_at_20c(r) for r in bank_runs if r.role == "interconnect") + min(
+            sum(_loop_ohm_at_20c(r) for r in bank_runs if r.role == "bank" and r.controller == owner)
+            for owner in owners)
         value = ocv / (r_int + r_cable)
         ratings = [r.fuse_interrupting_a for r in bank_runs if r.fuse_interrupting_a is not None]
         limit = min(ratings) if ratings else None
@@ -494,7 +515,26 @@ def all_passed(checks: list[Check]) -> bool | None:
 def design_checks(system: System, min_air_c: float, max_air_c: float,
                   cell_rise_c: float | None = None, defaults: amp.Installation = amp.Installation()
                   ) -> list[Check]:
-    """Every check, in a stable order."""
-    return [max_string_voc(system, min_air_c), min_string_vmp(system, max_air_c, cell_rise_c),
-            *conductor_current_checks(system, defaults), string_fuse_check(system), *controller_checks(system),
-            *protection_checks(system, defaults)]
+    """Every check, in a stable order.
+
+    With several controllers, the string voltages, the string fuses and the
+    controller's own checks are made for each controller against its own
+    groups (each controller has its own combiner), named ``max_string_voc[east
+    tracker]`` and so on, with ``controller`` in their data.
+    """
+    parts, several = system.parts(), system.several_controllers
+
+    def each(check_of):
+        return [_for_controller(c, part) if several else c for part in parts for c in check_of(part)]
+
+    return [*each(lambda part: [max_string_voc(part, min_air_c)]),
+            *each(lambda part: [min_string_vmp(part, max_air_c, cell_rise_c)]),
+            *conductor_current_checks(system, defaults), *each(lambda part: [string_fuse_check(part)]),
+            *each(controller_checks), *protection_checks(system, defaults)]
+
+
+def _for_controller(check: Check, part: System) -> Check:
+    """A check of one controller's part (:meth:`System.for_controller`), named for that controller."""
+    name = part.controller.name
+    return replace(check, name=f"{check.name}[{name}]", data={**check.data, "controller": name},
+                   detail=f"{name} ({', '.join(part.group_names)}): {check.detail}")

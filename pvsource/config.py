@@ -13,6 +13,7 @@ groups are named in messages by their ``name``.
 from __future__ import annotations
 
 import math
+import re
 import tomllib
 from pathlib import Path
 
@@ -26,7 +27,7 @@ from pvsource.errors import InputError, note
 from pvsource.inputs import MAX_TOML_BYTES, check_toml_shape, read_bounded
 from pvsource.module import Datasheet, DiodeParameters, Module, fit_datasheet, module_from_parameters
 from pvsource.names import did_you_mean, nearest
-from pvsource.system import LOAD_KINDS, Load, Site, System
+from pvsource.system import LOAD_KINDS, ControllerGroups, Load, Site, System
 from pvsource.units import (
     CELL_TEMP_RANGE_C, IRRADIANCE_RANGE_W_M2, design_irradiance_note, irradiance_hint, temperature_hint, with_hint,
 )
@@ -44,6 +45,7 @@ MAX_LENGTH_M = 10_000.0
 BANK_TEMP_RANGE_C = (-40.0, 70.0)
 CONDUCTOR_TEMP_RANGE_C = (-60.0, 250.0)
 MATERIAL_NAMES = ("copper", "aluminium", "aluminum", "cu", "al")
+CONTROLLER_ROLES = ("feeder", "bank")  # the runs each controller has its own of
 
 
 class Table:
@@ -137,7 +139,22 @@ def read_toml(path, kind: str = "system") -> tuple[dict, str]:
     try:
         return tomllib.loads(text), where
     except tomllib.TOMLDecodeError as exc:
+        mixed = _mixed_tables(text)
+        if mixed:
+            raise InputError(where, f"[{mixed}]", f"give one [{mixed}] table or several [[{mixed}]] tables, "
+                                                  "not both") from None
         raise InputError(where, None, f"is not valid TOML: {exc}") from None
+
+
+_HEADER = re.compile(r"^\s*(\[\[?)\s*([A-Za-z0-9_-]+)\s*\]\]?\s*(?:#.*)?$", re.MULTILINE)
+
+
+def _mixed_tables(text: str) -> str | None:
+    """A section written both as ``[name]`` and ``[[name]]``, which TOML refuses with a cryptic message."""
+    single = {m.group(2) for m in _HEADER.finditer(text) if m.group(1) == "["}
+    listed = {m.group(2) for m in _HEADER.finditer(text) if m.group(1) == "[["}
+    both = sorted(single & listed)
+    return both[0] if both else None
 
 
 def parse_module(table: Table, base_dir: Path, _seen: frozenset = frozenset()) -> Module:
@@ -226,11 +243,16 @@ def parse_site(table: Table) -> Site:
     return site
 
 
-def parse_cable(table: Table, index: int, group_names) -> CableRun:
-    """A ``[[cable]]`` table: a size and material, or a resistance per km, or both (the resistance wins)."""
+def parse_cable(table: Table, index: int, group_names, controller_names=(), several: bool = False) -> CableRun:
+    """A ``[[cable]]`` table: a size and material, or a resistance per km, or both (the resistance wins).
+
+    With ``several`` controllers, a feeder or bank run names the controller
+    it serves (one of ``controller_names``).
+    """
     where = table.where
     group = table.text("group", "") or None
     role = table.text("role", "home-run" if group else "feeder", choices=ROLES)
+    controller = _run_controller(table, role, controller_names, several)
     if role in GROUP_ROLES:
         if group is None:
             if len(group_names) > 1:
@@ -299,9 +321,29 @@ def parse_cable(table: Table, index: int, group_names) -> CableRun:
         resistance_basis=basis, resistance_source=source, installed=tuple(sorted(installed.items())),
         fuse_a=None if math.isnan(fuse) else fuse,
         fuse_interrupting_a=None if math.isnan(interrupting) else interrupting,
+        controller=controller,
     )
     table.finish()
     return run
+
+
+def _run_controller(table: Table, role: str, controller_names, several: bool) -> str | None:
+    """The controller a feeder or bank run serves: required with several controllers, refused elsewhere."""
+    where = table.where
+    name = table.text("controller", "") or None
+    if name is None:
+        if several and role in CONTROLLER_ROLES:
+            raise InputError(where, table.field("controller"),
+                             f"a {role} run must name its controller: one of {', '.join(controller_names)}")
+        return None
+    if role not in CONTROLLER_ROLES:
+        why = "follows its group's controller" if role in GROUP_ROLES else "carries every controller's current"
+        raise InputError(where, table.field("controller"), f"a {role} run {why}; remove the controller")
+    if name not in controller_names:
+        known = ", ".join(controller_names) if controller_names else "none: name the [controller] first"
+        raise InputError(where, table.field("controller"),
+                         f"no controller named {name!r}; expected one of {known}{did_you_mean(name, controller_names)}")
+    return name
 
 
 def parse_controller(table: Table) -> Controller:
@@ -442,28 +484,116 @@ def parse_system(data: dict, where: str, base_dir: Path) -> System:
         raise InputError(where, "[array]", "is missing (expected modules_per_string and strings)")
     group_names = [g.name for g in groups]
 
+    labelled = parse_controllers(data, where, group_names)
+    several = len(labelled) > 1
+    names = tuple(c.name for _, c in labelled if c.name)
     raw_cables = data.get("cable", [])
     if not isinstance(raw_cables, list):
         raise InputError(where, "[[cable]]", "expected a list of [[cable]] tables")
-    cables = [parse_cable(Table(where, _item_label("cable", k, c), c), k, group_names) for k, c in enumerate(raw_cables)]
+    cables = [parse_cable(Table(where, _item_label("cable", k, c), c), k, group_names, names, several)
+              for k, c in enumerate(raw_cables)]
     load = parse_load(Table(where, "[load]", data["load"])) if "load" in data else Load("mpp")
-    controller = parse_controller(Table(where, "[controller]", data["controller"])) if "controller" in data else None
     bank = parse_bank(Table(where, "[bank]", data["bank"])) if "bank" in data else None
     if bank is not None:
         if "load" in data:
             raise InputError(where, "[load]", "a [bank] is the load; give one or the other")
-        if controller is None or controller.kind is None:
+        if not labelled:
             raise InputError(where, "[controller].kind", "a [bank] needs a controller: kind = direct, pwm or mppt")
         v_abs, _ = bank_charge_voltages(bank, bank.temp_c)
-        if controller.max_input_v is not None and controller.max_input_v <= float(v_abs):
-            raise InputError(where, "[controller].max_input_v",
-                             f"{controller.max_input_v:g} V is not above the bank's {float(v_abs):.1f} V absorption "
-                             "voltage: the controller could never charge it")
-    elif controller is not None and controller.kind is not None:
-        raise InputError(where, "[controller].kind", "a controller kind needs a [bank] to charge")
+        for label, (_, controller) in zip(_controller_labels(data), labelled):
+            if controller.kind is None:
+                raise InputError(where, f"{label}.kind", "a [bank] needs a controller: kind = direct, pwm or mppt")
+            if controller.max_input_v is not None and controller.max_input_v <= float(v_abs):
+                raise InputError(where, f"{label}.max_input_v",
+                                 f"{controller.max_input_v:g} V is not above the bank's {float(v_abs):.1f} V "
+                                 "absorption voltage: the controller could never charge it")
+    else:
+        for label, (_, controller) in zip(_controller_labels(data), labelled):
+            if controller.kind is not None:
+                raise InputError(where, f"{label}.kind", "a controller kind needs a [bank] to charge")
     site = parse_site(Table(where, "[site]", data["site"])) if "site" in data else None
+    if several:
+        one, assigned = None, tuple(ControllerGroups(c, g) for g, c in labelled)
+    else:
+        one, assigned = (labelled[0][1] if labelled else None), ()
     return System(module=module, groups=tuple(groups), cables=tuple(cables), load=load, name=name, source=where,
-                  controller=controller, bank=bank, site=site)
+                  controller=one, bank=bank, site=site, controllers=assigned)
+
+
+def _controller_labels(data) -> list[str]:
+    """How messages name each controller table: ``[controller]``, or ``[[controller]] "east"``."""
+    raw = data.get("controller")
+    if isinstance(raw, list):
+        return [_item_label("controller", k, c) for k, c in enumerate(raw)]
+    return ["[controller]"]
+
+
+def parse_controllers(data: dict, where: str, group_names) -> list[tuple[tuple[str, ...], Controller]]:
+    """Every controller with the groups it tracks, in file order; empty without one.
+
+    A single ``[controller]`` tracks every group. Each ``[[controller]]``
+    table has a unique ``name`` and ``groups = [...]``, and every group
+    belongs to exactly one of them.
+    """
+    raw = data.get("controller")
+    if raw is None:
+        return []
+    if isinstance(raw, dict):
+        table = Table(where, "[controller]", raw)
+        if table.has("groups"):
+            raise InputError(where, table.field("groups"),
+                             "a single [controller] tracks every group; to share the groups among controllers, "
+                             "write [[controller]] tables, each with a name and its groups")
+        return [(tuple(group_names), parse_controller(table))]
+    if not isinstance(raw, list) or not raw:
+        raise InputError(where, "[controller]", "expected a [controller] table or one or more [[controller]] tables")
+    out, owner = [], {}
+    for k, item in enumerate(raw):
+        table = Table(where, _item_label("controller", k, item), item)
+        if not table.has("name"):
+            table._misspelt("name")
+            raise InputError(where, table.field("name"),
+                             "is missing: each [[controller]] needs a name (its feeder and bank runs name it)")
+        name = table.text("name")
+        if not name.strip():
+            raise InputError(where, table.field("name"), "must not be empty")
+        if any(c.name == name for _, c in out):
+            raise InputError(where, table.field("name"), f"controller names must be unique; {name!r} repeats")
+        groups = _group_list(table, group_names)
+        for g in groups:
+            if g in owner:
+                raise InputError(where, table.field("groups"),
+                                 f"group {g!r} is already tracked by [[controller]] {owner[g]!r}; "
+                                 "each group belongs to exactly one controller")
+            owner[g] = name
+        out.append((groups, parse_controller(table)))
+    left = [g for g in group_names if g not in owner]
+    if left:
+        raise InputError(where, "[[controller]].groups",
+                         f"group {left[0]!r} belongs to no controller; list it in the groups of one [[controller]]")
+    return out
+
+
+def _group_list(table: Table, group_names) -> tuple[str, ...]:
+    """A ``groups = [...]`` list of known, distinct group names."""
+    table.used.add("groups")
+    if "groups" not in table.data:
+        table._misspelt("groups")
+        raise InputError(table.where, table.field("groups"),
+                         f"is missing (expected the groups this controller tracks, e.g. "
+                         f"groups = [{', '.join(repr(g) for g in group_names[:1])}])")
+    raw = table.data["groups"]
+    if not isinstance(raw, list) or not raw or not all(isinstance(g, str) for g in raw):
+        raise InputError(table.where, table.field("groups"), f"expected a list of group names, got {raw!r}")
+    for g in raw:
+        if g not in group_names:
+            raise InputError(table.where, table.field("groups"),
+                             f"no group named {g!r}; expected one of {', '.join(group_names)}"
+                             f"{did_you_mean(g, group_names)}")
+    repeated = sorted({g for g in raw if raw.count(g) > 1})
+    if repeated:
+        raise InputError(table.where, table.field("groups"), f"group {repeated[0]!r} is listed twice")
+    return tuple(raw)
 
 
 def load_system(path) -> System:

@@ -329,6 +329,14 @@ def _solve_chunk(system: System, g_w_m2, t_c, soc=None, bank_temp_c=None, drift_
     return out
 
 
+def require_one_controller(system: System) -> None:
+    """Refuse, in one line, a system whose groups share several controllers where only one is solved."""
+    if system.several_controllers:
+        raise InputError(system.source or "system", "[[controller]]",
+                         f"{len(system.controllers)} controllers: `check` handles them, but operating points and "
+                         "season studies are solved for one controller only so far; give one [controller]")
+
+
 def _frame_from_chunks(system: System, g, t, chunk_size: int, soc=None, bank_temp_c=None,
                        drift_check: bool = True, charge_cap_a=None) -> pd.DataFrame:
     """Solve chunk by chunk into one preallocated column-major block.
@@ -406,6 +414,7 @@ def operating_points(system: System, irradiance_w_m2=None, cell_temp_c=None, *, 
     """
     if on_failure not in ("raise", "flag"):
         raise InputError("on_failure", None, f"expected 'raise' or 'flag', got {on_failure!r}")
+    require_one_controller(system)
     g = _condition_array(system, irradiance_w_m2, "irradiance_w_m2", "irradiance_w_m2", IRRADIANCE_RANGE_W_M2,
                          "W/m2")
     t = _condition_array(system, cell_temp_c, "cell_temp_c", "cell_temp_c", CELL_TEMP_RANGE_C, "degC")

@@ -26,7 +26,7 @@ from pvsource.alerts import alert_codes, alert_hours
 from pvsource.compiled import kernel
 from pvsource.errors import InputError
 from pvsource.module import model_notes
-from pvsource.operating import CHUNK_SIZE, operating_points
+from pvsource.operating import CHUNK_SIZE, operating_points, require_one_controller
 from pvsource.system import System
 
 # States of charge at which the charge current is solved before the time loop
@@ -316,6 +316,7 @@ def run_season(system: System, weather: pd.DataFrame, *, transposition: str = "p
     """
     if keep not in ("all", "summary"):
         raise ValueError(f"keep must be 'all' or 'summary', not {keep!r}")
+    require_one_controller(system)
     notes = list(weather.attrs.get("notes", []))
     notes.extend(model_notes(system.module))
     step_h = step_hours(weather)

@@ -6,7 +6,7 @@ Frozen dataclasses, validated once when a system file is read
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
@@ -74,6 +74,26 @@ class Site:
 
 
 @dataclass(frozen=True)
+class ControllerGroups:
+    """One charge controller and the string groups it tracks.
+
+    Attributes
+    ----------
+    controller : Controller
+    groups : tuple of str
+        Names of the groups wired to this controller's input; each group of
+        the system belongs to exactly one controller.
+    """
+
+    controller: Controller
+    groups: tuple[str, ...]
+
+    @property
+    def name(self) -> str:
+        return self.controller.name
+
+
+@dataclass(frozen=True)
 class System:
     """A PV array of string groups, its cable runs and its load.
 
@@ -85,7 +105,12 @@ class System:
     cables : tuple of CableRun
     load : Load
     controller : Controller or None
-        The charge controller, or just its input limits.
+        The one charge controller for every group (a ``[controller]`` table),
+        or just its input limits; None without one, and None when several
+        controllers share the groups (see ``controllers``).
+    controllers : tuple of ControllerGroups
+        Every controller with the groups it tracks: from ``[[controller]]``
+        tables, or filled from ``controller`` (one controller, every group).
     bank : Bank or None
         The battery bank; with a bank, the controller charges it and ``load`` is unused.
     name : str
@@ -102,6 +127,51 @@ class System:
     controller: Controller | None = None
     bank: Bank | None = None
     site: Site | None = None
+    controllers: tuple[ControllerGroups, ...] = ()
+
+    def __post_init__(self):
+        # One controller is the common case and the older form: its
+        # assignment (every group) is derived, so ``replace(system,
+        # controller=...)`` or a change of groups can never leave a stale one.
+        if self.controller is not None:
+            object.__setattr__(self, "controllers", (ControllerGroups(self.controller, self.group_names),))
+
+    @property
+    def several_controllers(self) -> bool:
+        """True when groups are shared among two or more controllers."""
+        return len(self.controllers) > 1
+
+    def controller_of(self, group: str) -> ControllerGroups | None:
+        """The controller that tracks a group, or None in a system without one."""
+        return next((c for c in self.controllers if group in c.groups), None)
+
+    def for_controller(self, assigned: ControllerGroups) -> "System":
+        """The part of the system behind one controller, as a one-controller system.
+
+        Its groups, their string leads and home runs, the feeder and bank runs
+        named for this controller, and the bank's interconnects (which every
+        controller's current shares). With one controller, the system itself.
+        """
+        if not self.several_controllers:
+            return self
+        mine = set(assigned.groups)
+
+        def belongs(run):
+            if run.role in ("string", "home-run"):
+                return run.group in mine
+            if run.role in ("feeder", "bank"):
+                return run.controller == assigned.name
+            return True
+
+        return replace(self, groups=tuple(g for g in self.groups if g.name in mine),
+                       cables=tuple(r for r in self.cables if belongs(r)), controller=assigned.controller,
+                       controllers=(), name=f"{self.name} [{assigned.name}]" if self.name else assigned.name)
+
+    def parts(self) -> tuple["System", ...]:
+        """One system per controller (:meth:`for_controller`); the system itself with one controller or none."""
+        if not self.several_controllers:
+            return (self,)
+        return tuple(self.for_controller(c) for c in self.controllers)
 
     @property
     def group_names(self) -> tuple[str, ...]:

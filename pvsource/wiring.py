@@ -10,6 +10,10 @@ conductors in parallel on each pole. Its role places it in the network:
 - ``bank``: from the controller to the battery bank;
 - ``interconnect``: between the bank's terminals and its cells or batteries.
 
+With several controllers each has its own feeder and bank runs (named by
+``controller``); the string leads and home runs follow their group's
+controller, and the interconnects carry every controller's current together.
+
 Until a controller is modelled, feeder, bank and interconnect runs carry the
 same current in series between the bus and the load.
 """
@@ -71,6 +75,9 @@ class CableRun:
     fuse_a, fuse_interrupting_a : float or None
         The overcurrent device protecting this run: its rating and its
         interrupting rating [A], if given.
+    controller : str or None
+        With several controllers, the one a ``feeder`` or ``bank`` run
+        serves; None otherwise.
     """
 
     name: str
@@ -89,6 +96,7 @@ class CableRun:
     installed: tuple = ()
     fuse_a: float | None = None
     fuse_interrupting_a: float | None = None
+    controller: str | None = None
 
     @property
     def loop_resistance_ohm(self) -> float:

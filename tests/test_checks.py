@@ -337,3 +337,58 @@ def test_metric_conductor_check_names_the_protection_rule(demo_module):
         assert c.limit == (16.0 if ok else 12.0)
         if not ok:
             assert c.reason().startswith("overload protection") and "433.1" in c.reason()
+
+
+def _two_trackers(demo_module, cables=()):
+    """Four modules a string on g1 and three on g2, each group on its own tracker, one LFP bank."""
+    from pvsource import bank as bank_model
+    from pvsource.system import ControllerGroups
+    base = make_system(demo_module, groups=((4, 2), (3, 3)), cables=cables)
+    east = Controller(name="east", kind="mppt", max_input_v=150.0, max_output_a=40.0, max_input_isc_a=30.0)
+    west = Controller(name="west", kind="mppt", max_input_v=150.0, max_output_a=30.0, max_input_isc_a=30.0)
+    return replace(base, bank=bank_model.make_bank("lfp", 8, 1, 280.0, 0.5, 25.0),
+                   controllers=(ControllerGroups(east, ("g1",)), ControllerGroups(west, ("g2",))))
+
+
+def test_each_controller_is_checked_against_its_own_groups(demo_module):
+    from pvsource.wiring import CableRun
+    links = CableRun("links", "interconnect", 0.5, 0.5, size=None)
+    system = _two_trackers(demo_module, (links,))
+    checks = {c.name: c for c in design_checks(system, -15.0, 40.0)}
+    # NEC 690.7(A)(1) with the datasheet's coefficient, by hand:
+    # 40.1 V x (1 - 0.0029 x (-15 - 25)) = 44.75 V a module; 4 modules = 179.0 V
+    # against the east tracker's 150 V (fails), 3 modules = 134.3 V on the west one (passes).
+    voc = 40.1 * (1 - 0.0029 * (-40.0))
+    assert checks["max_string_voc[east]"].value == pytest.approx(4 * voc, rel=1e-9)
+    assert checks["max_string_voc[east]"].passed is False
+    assert checks["max_string_voc[west]"].value == pytest.approx(3 * voc, rel=1e-9)
+    assert checks["max_string_voc[west]"].passed is True
+    # NEC 690.8(A)(1) per controller input: 1.25 x 2 x 9.8 = 24.5 A (east), 1.25 x 3 x 9.8 = 36.75 A (west)
+    # against each tracker's 30 A.
+    assert checks["controller_input_isc[east]"].value == pytest.approx(24.5) and \
+        checks["controller_input_isc[east]"].passed is True
+    assert checks["controller_input_isc[west]"].value == pytest.approx(36.75) and \
+        checks["controller_input_isc[west]"].passed is False
+    assert checks["controller_input_isc[west]"].record()["controller"] == "west"
+    # Each tracker has its own combiner: 3 strings on the west one, 2 on the east.
+    assert checks["string_fuse[west]"].record()["backfeed_a"] == pytest.approx(2 * 1.25 * 9.8)
+    assert checks["string_fuse[east]"].record()["backfeed_a"] == pytest.approx(1 * 1.25 * 9.8)
+    # Output power, STC: 8 modules x 33 x 9.2 W against 40 A x the absorption
+    # voltage (8 cells x 3.55 V = 28.4 V, the preset's value worked out here).
+    assert checks["controller_output_power[east]"].value == pytest.approx(8 * 33.0 * 9.2)
+    assert checks["controller_output_power[east]"].limit == pytest.approx(40.0 * 28.4)
+    assert "max_string_voc" not in checks and "controller_input_isc" not in checks
+
+
+def test_the_interconnect_carries_every_controllers_output(demo_module):
+    from pvsource.checks import design_currents
+    from pvsource.wiring import CableRun
+    runs = (CableRun("east out", "bank", 2.0, 1.0, controller="east"),
+            CableRun("west feeder", "feeder", 10.0, 3.0, controller="west"),
+            CableRun("links", "interconnect", 0.5, 0.5))
+    currents = {d["run"]: d for d in design_currents(_two_trackers(demo_module, runs))}
+    # NEC 690.8(A)(1): a converter's output circuit carries its rated output;
+    # the west feeder carries 1.25 x its own 3 strings' Isc; the interconnect both outputs.
+    assert currents["east out"]["circuit_current_a"] == pytest.approx(40.0)
+    assert currents["west feeder"]["circuit_current_a"] == pytest.approx(1.25 * 3 * 9.8)
+    assert currents["links"]["circuit_current_a"] == pytest.approx(40.0 + 30.0)

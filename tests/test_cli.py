@@ -695,3 +695,17 @@ def test_an_unlikely_value_runs_with_a_one_line_note(capsys, tmp_path):
     path = _bad_file(tmp_path, GOOD.replace("irradiance_w_m2 = 800", "irradiance_w_m2 = 0.7"))
     code, out, err = run(capsys, "point", path, "--json")
     assert code == 0 and err.startswith(f"pvsource: note: {path}: [array].irradiance_w_m2: ") and "700 W/m2" in err
+
+
+def test_check_names_each_controllers_checks(capsys):
+    # The east/west example: each face on its own tracker. 3 modules x 40.1 V x
+    # (1 + 0.0029 x 40) = 134.3 V at -15 degC (NEC 690.7(A)(1), by hand) on each.
+    code, out, _ = run(capsys, "check", str(DATA / "example-east-west.toml"), "--min-air-c", "-15",
+                       "--max-air-c", "38", "--json")
+    rec = json.loads(out)
+    by_name = {c["name"]: c for c in rec["checks"]}
+    for tracker in ("east tracker", "west tracker"):
+        voc = by_name[f"max_string_voc[{tracker}]"]
+        assert voc["value"] == pytest.approx(3 * 40.1 * 1.116) and voc["controller"] == tracker
+        assert by_name[f"controller_input_isc[{tracker}]"]["value"] == pytest.approx(1.25 * 2 * 9.8)
+    assert code == 0 and rec["all_passed"] is True

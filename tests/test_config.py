@@ -343,3 +343,137 @@ def test_runs_and_groups_are_named_by_their_name(tmp_path):
     groups = GOOD.replace("[array]\n", '[[group]]\nname = "east"\n')
     with pytest.raises(InputError, match=r'\[\[group\]\] "east"\.strings'):
         load_system(_edited(tmp_path, "strings = 2", "strings = 0", groups))
+
+
+# Two faces, each on its own tracker, charging one bank.
+TWO = GOOD.split("[array]")[0] + """
+[[group]]
+name = "east"
+modules_per_string = 3
+strings = 2
+
+[[group]]
+name = "west"
+modules_per_string = 3
+strings = 1
+
+[[controller]]
+name = "e"
+groups = ["east"]
+kind = "mppt"
+max_input_v = 150
+max_output_a = 40
+
+[[controller]]
+name = "w"
+groups = ["west"]
+kind = "mppt"
+max_input_v = 150
+max_output_a = 30
+
+[[cable]]
+name = "e feeder"
+controller = "e"
+length_m = 10
+resistance_ohm_per_km = 3.4
+
+[[cable]]
+name = "w bank run"
+role = "bank"
+controller = "w"
+length_m = 2
+resistance_ohm_per_km = 1.0
+
+[[cable]]
+name = "links"
+role = "interconnect"
+length_m = 0.5
+resistance_ohm_per_km = 0.5
+
+[bank]
+chemistry = "lfp"
+cells_in_series = 8
+strings = 1
+capacity_ah = 280
+soc = 0.5
+"""
+
+
+def test_controllers_each_track_their_own_groups(tmp_path):
+    system = load_system(write(tmp_path, TWO))
+    assert system.controller is None and system.several_controllers
+    assert [(c.name, c.groups, c.controller.max_output_a) for c in system.controllers] == \
+        [("e", ("east",), 40.0), ("w", ("west",), 30.0)]
+    assert system.controller_of("west").name == "w"
+    east, west = system.parts()
+    # Each part holds its groups, its own feeder or bank run, and the shared interconnect.
+    assert east.group_names == ("east",) and [r.name for r in east.cables] == ["e feeder", "links"]
+    assert west.group_names == ("west",) and [r.name for r in west.cables] == ["w bank run", "links"]
+    assert east.controller.name == "e" and east.controllers[0].groups == ("east",)
+
+
+def test_one_controller_still_tracks_every_group(tmp_path):
+    two = load_system(write(tmp_path, TWO))
+    one = load_system(write(tmp_path, BANK))
+    assert not one.several_controllers and one.parts() == (one,)
+    assert one.controllers[0].controller is one.controller and one.controllers[0].groups == one.group_names
+    # The assignment follows a replaced controller: it is never stale.
+    from dataclasses import replace
+
+    swapped = replace(one, controller=replace(one.controller, max_output_a=10.0))
+    assert swapped.controllers[0].controller.max_output_a == 10.0
+    # One [[controller]] table listing every group is the same as a [controller].
+    single = TWO.replace(W_TABLE, "").replace('["east"]', '["east", "west"]').replace('controller = "w"\n',
+                                                                                   'controller = "e"\n')
+    system = load_system(write(tmp_path, single))
+    assert not system.several_controllers and system.controller.name == "e"
+    assert system.controllers[0].groups == ("east", "west") and system.group_names == two.group_names
+
+
+W_TABLE = '[[controller]]\nname = "w"\ngroups = ["west"]\nkind = "mppt"\nmax_input_v = 150\nmax_output_a = 30\n'
+TWO_BAD = {
+    "unknown group": (('groups = ["west"]', 'groups = ["north"]'), '[[controller]] "w".groups', "no group named"),
+    "group in two controllers": (('groups = ["west"]', 'groups = ["east", "west"]'), '[[controller]] "w".groups',
+                                 "already tracked by [[controller]] 'e'"),
+    "group listed twice": (('groups = ["west"]', 'groups = ["west", "west"]'), '[[controller]] "w".groups',
+                           "listed twice"),
+    "group left out": (('name = "w"\ngroups = ["west"]', 'name = "w"\ngroups = []'), '[[controller]] "w".groups',
+                       "expected a list of group names"),
+    "group in no controller": ((W_TABLE, ''), "[[controller]].groups", "'west' belongs to no controller"),
+    "no groups key": (('name = "w"\ngroups = ["west"]', 'name = "w"'), '[[controller]] "w".groups', "is missing"),
+    "no name": (('name = "w"\n', ''), "[[controller]] #2.name", "needs a name"),
+    "same name twice": (('name = "w"\n', 'name = "e"\n'), '[[controller]] "e".name', "'e' repeats"),
+    "mixed forms": (('[[controller]]\nname = "w"', '[controller]\nname = "w"'), "[controller]",
+                    "not both"),
+    "feeder without a controller": (('controller = "e"\nlength_m = 10', 'length_m = 10'),
+                                    '[[cable]] "e feeder".controller', "must name its controller: one of e, w"),
+    "run for an unknown controller": (('controller = "w"\nlength_m = 2', 'controller = "x"\nlength_m = 2'),
+                                      '[[cable]] "w bank run".controller', "no controller named 'x'"),
+    "interconnect naming a controller": (('role = "interconnect"', 'role = "interconnect"\ncontroller = "w"'),
+                                         '[[cable]] "links".controller', "carries every controller's current"),
+    "kindless controller with a bank": (('kind = "mppt"\nmax_input_v = 150\nmax_output_a = 30', 'max_input_v = 150'),
+                                        '[[controller]] "w".kind', "needs a controller"),
+    "one controller below the bank": (('max_input_v = 150\nmax_output_a = 30', 'max_input_v = 25\nmax_output_a = 30'),
+                                      '[[controller]] "w".max_input_v', "absorption"),
+    "misspelt groups": (('name = "w"\ngroups =', 'name = "w"\ngruops ='), '[[controller]] "w".gruops',
+                        "did you mean 'groups'"),
+}
+
+
+@pytest.mark.parametrize("case", sorted(TWO_BAD))
+def test_bad_controller_tables_name_the_table_and_field(tmp_path, case):
+    (old, new), field, words = TWO_BAD[case]
+    assert old in TWO
+    path = write(tmp_path, TWO.replace(old, new, 1) if case != "mixed forms" else TWO.replace(old, new))
+    with pytest.raises(InputError) as exc:
+        load_system(path)
+    assert exc.value.where == str(path)
+    assert exc.value.field == field, exc.value
+    assert words in exc.value.expected, exc.value
+    assert "\n" not in str(exc.value)
+
+
+def test_a_single_controller_table_takes_no_group_list(tmp_path):
+    with pytest.raises(InputError) as exc:
+        load_system(write(tmp_path, BANK.replace('kind = "mppt"', 'kind = "mppt"\ngroups = ["array"]')))
+    assert exc.value.field == "[controller].groups" and "[[controller]] tables" in exc.value.expected
