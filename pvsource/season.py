@@ -359,9 +359,13 @@ def run_season(system: System, weather: pd.DataFrame, *, transposition: str = "p
     if system.bank is not None and summary["poa_insolation_kwh_m2"] > 1.0 and summary["energy_stored_kwh"] <= 0.0:
         # A study of nothing must not look like a result.
         why = steps["limit"].value_counts().index[0] if len(steps) else "unknown"
+        cold = summary["alert_hours"]["charge_below_min_temp"]
         raise InputError(system.source, "[array]",
                          f"the array never charged the bank over the whole span (most often limited by: {why}); "
-                         "check modules_per_string against the bank voltage and the controller's input window")
+                         + (f"the bank's temp_c {system.bank.temp_c:g} degC is below its minimum charging temperature "
+                            f"{system.bank.chemistry.min_charge_temp_c:g} degC for the {cold:,.0f} h it could have "
+                            "charged" if cold > 0 else
+                            "check modules_per_string against the bank voltage and the controller's input window"))
     return SeasonResult(steps, summary, tuple(notes))
 
 

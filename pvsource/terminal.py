@@ -381,10 +381,19 @@ def render_sweep(system: System, rows, design: dict, plot) -> str:
     return "\n".join(lines)
 
 
+def alert_hour_lines(summary: dict) -> list[str]:
+    """One ``ALERT`` line per alert that fired during the span, with its hours."""
+    from pvsource.alerts import ALERTS
+
+    hours = summary.get("alert_hours") or {}
+    return [f"ALERT: {a.label}: {hours[a.name]:,.1f} h ({a.basis})" for a in ALERTS if (hours.get(a.name) or 0) > 0]
+
+
 def render_season(system: System, summary: dict, folder, notes=()) -> str:
     """The readable summary of ``pvsource season`` and ``pvsource demo``."""
     lines = [f"pvsource season study: {system.name or system.source}",
              f"{summary['start']} to {summary['end']}, {summary['steps']:,} steps of {summary['step_h']:g} h"]
+    lines.extend(alert_hour_lines(summary))
     lines.append(_rule("Energy over the span"))
     rows = (("poa_insolation_kwh_m2", "plane-of-array insolation (first group)", "kWh/m2"),
             ("energy_mpp_kwh", "available at the groups' MPPs", "kWh"),

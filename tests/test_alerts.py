@@ -338,3 +338,28 @@ def test_report_lists_alerts_first_and_hourly_table_keeps_every_alert():
     codes[5], codes[50], codes[70] = 1, 32, 2
     hourly = hourly_table(pd.DataFrame({"alerts": codes, "p_w": np.ones(120)}, index=index), 1 / 60)
     assert hourly["alerts"].tolist() == [33, 2]
+
+
+def test_a_season_whose_bank_is_too_cold_to_charge_says_why():
+    from pvsource.demo import demo_system, synthetic_weather
+    from pvsource.errors import InputError
+    from pvsource.season import run_season
+
+    base = demo_system()
+    # LFP charges from 0 degC (common practice): a bank kept at -5 degC never charges.
+    system = replace(base, bank=replace(base.bank, temp_c=-5.0))
+    weather = synthetic_weather(system)
+    weather = weather[weather.index < weather.index[0] + np.timedelta64(3, "D")]
+    with pytest.raises(InputError, match=r"never charged the bank.*temp_c -5 degC is below its minimum charging "
+                                         r"temperature 0 degC for the [1-9][0-9,]* h it could have charged"):
+        run_season(system, weather)
+
+
+def test_season_text_leads_with_alert_hours():
+    from pvsource.terminal import render_season
+
+    summary = {"start": "2025-02-26", "end": "2025-03-02", "steps": 120, "step_h": 1.0, "monthly": [],
+               "alert_hours": {"pv_input_over_max_v": 50.0, "cable_over_ampacity": 0.0}}
+    text = render_season(System(module=None, groups=()), summary, "out")
+    assert text.splitlines()[2].startswith("ALERT: PV input above the controller's maximum voltage: 50.0 h")
+    assert "ampacity" not in text.split("Energy over the span")[0]
