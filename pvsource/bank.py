@@ -368,3 +368,14 @@ def with_nominal_class(bank: Bank, volts: float) -> Bank:
 
     cells = NOMINAL_CLASS_CELLS[bank.chemistry.key][float(volts)]
     return replace(bank, cells_in_series=cells, capacity_ah=bank.capacity_ah * bank.cells_in_series / cells)
+
+
+#: Nominal cell voltage by chemistry [V]: the figure a bank is sold and priced by, nominal energy =
+#: capacity x cells in series x this (common practice, matching the classes above: lead-acid 2.0 V
+#: (12 V = 6 cells), LFP 3.2 V (12.8 V = 4 cells), NMC 3.7 V (makers state 3.6-3.7 V)).
+NOMINAL_CELL_V = {"lfp": 3.2, "lead-acid-flooded": 2.0, "lead-acid-sealed": 2.0, "nmc": 3.7}
+
+
+def nominal_energy_kwh(bank: Bank) -> float:
+    """The bank's nominal energy [kWh]: capacity [Ah] x nominal voltage (cells in series x :data:`NOMINAL_CELL_V`)."""
+    return bank.capacity_ah * bank.cells_in_series * NOMINAL_CELL_V[bank.chemistry.key] / 1000.0

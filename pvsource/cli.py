@@ -59,7 +59,10 @@ app = typer.Typer(
 
 # Earlier spellings of options, still accepted; help shows only the current name.
 OPTION_ALIASES = {"--irradiance": "--irradiance-w-m2", "--cell-temp": "--cell-temp-c",
-                  "--min-temp": "--min-air-c", "--max-temp": "--max-air-c", "--cell-rise": "--cell-rise-c"}
+                  "--min-temp": "--min-air-c", "--max-temp": "--max-air-c", "--cell-rise": "--cell-rise-c",
+                  "--fuel-price": "--fuel-price-per-l", "--unmet-value": "--unmet-value-per-kwh"}
+# explore's default lifetime [years]; --years says why.
+LIFETIME_YEARS = 10.0
 
 
 def _choices(name: str, values) -> type[StrEnum]:
@@ -369,7 +372,8 @@ def sweep(
     over: Annotated[str, typer.Option(
         "--over", metavar="VARIABLE",
         help="load_resistance_ohm, bank_emf_v (a bank wired straight to the array), bank_class_v (nominal 12/24/48 V), "
-             "soc, modules_per_string, size:RUN, irradiance_w_m2 or cell_temp_c; spelt like explore's --vary keys.")],
+             "soc, modules_per_string, size:RUN, irradiance_w_m2 or cell_temp_c; spelt like explore's --vary keys (a "
+             "hyphen may stand for an underscore).")],
     start: Annotated[str, typer.Option("--from", help="First value (a size such as \"6 mm2\" for size:RUN).")],
     stop: Annotated[str, typer.Option("--to", help="Last value.")],
     steps: Annotated[int, typer.Option("--steps", help="Number of values (sizes, bank classes and modules per string step along their own series).")] = 25,
@@ -574,11 +578,24 @@ def explore(
     vary: Annotated[list[str], typer.Option(
         "--vary", metavar="KEY=V1,V2,...",
         help="A choice to vary: modules_per_string, strings, size:RUN, bank_class_v (nominal 12/24/48 V), "
-             "bank_capacity_ah, controller or tilt_deg; spelt like sweep's --over variables. Repeat for more.")],
+             "bank_capacity_ah, controller or tilt_deg; spelt like sweep's --over variables (a hyphen may stand for an "
+             "underscore). Repeat for more.")],
     out: Annotated[Path, typer.Option("--out", metavar="DIR", help="Folder for the results.")],
     price_per_kg: Annotated[float, typer.Option("--price-per-kg", help="Conductor metal price per kg.")],
-    energy_value: Annotated[float, typer.Option("--energy-value", help="Value of one lost kWh.")],
-    years: Annotated[float, typer.Option("--years", help="Service life [years].")] = 20.0,
+    energy_value: Annotated[float, typer.Option("--energy-value", help="Value of one kWh lost in the wiring.")],
+    bank_price_per_kwh: Annotated[float, typer.Option(
+        "--bank-price-per-kwh", help="Bank price per kWh of nominal energy (capacity x nominal voltage), bought "
+                                     "once; at 0 the bank is not priced.")] = 0.0,
+    fuel_price_per_l: Annotated[float, typer.Option(
+        "--fuel-price-per-l", help="Generator fuel price per litre; at 0 fuel is not priced.")] = 0.0,
+    unmet_value_per_kwh: Annotated[float, typer.Option(
+        "--unmet-value-per-kwh", help="What one kWh of load the system cannot serve costs the owner; at 0 unmet "
+                                      "load is not priced.")] = 0.0,
+    years: Annotated[float, typer.Option(
+        "--years", show_default=False, help=f"Years the lifetime cost counts: metal and bank once, lost energy, fuel and unmet load "
+                        f"once a year each (the study's totals over its span in years). Default {LIFETIME_YEARS:g}: "
+                        f"a well-kept bank's service life (common practice: lithium 10-15 years, deep-cycle "
+                        f"lead-acid 5-10), so the bank is bought once within it.")] = LIFETIME_YEARS,
     budget_pct: Annotated[Optional[float], typer.Option(
         "--budget-pct", help="Exclude designs whose PV or battery circuit drops more than this at STC "
                              "[% of the circuit voltage]; default: no drop rule.")] = None,
@@ -599,15 +616,18 @@ def explore(
     as_json: Annotated[bool, typer.Option("--json", help="Print the ranked rows as JSON.")] = False,
     max_weather_mb: Annotated[float, typer.Option("--max-weather-mb", help=MAX_WEATHER_HELP)] = MAX_WEATHER_MB,
 ):
-    """Every combination of design choices over a weather year, checked, ranked, with the cost-energy front."""
+    """Every combination of design choices over a weather year, checked, ranked by lifetime cost, with the cost-energy front."""
     options = _options(locals())
     for name, value, lo, hi in (("--price-per-kg", price_per_kg, 0.0, 1e4), ("--energy-value", energy_value, 0.0, 1e4),
+                                ("--bank-price-per-kwh", bank_price_per_kwh, 0.0, 1e5),
+                                ("--fuel-price-per-l", fuel_price_per_l, 0.0, 1e3),
+                                ("--unmet-value-per-kwh", unmet_value_per_kwh, 0.0, 1e4),
                                 ("--years", years, 0.1, 100.0)):
         if not math.isfinite(value) or not lo <= value <= hi:
             raise InputError(name, None, f"expected {lo:g} to {hi:g}, got {value!r}")
     read = _weather_reader(column, tz, policy, transposition, time_label, time_format, max_weather_mb)
     from pvsource.config import load_system
-    from pvsource.explore import EXPLORE_OUTPUTS, PARTS, RESUME_RECORD, parse_vary
+    from pvsource.explore import EXPLORE_OUTPUTS, PARTS, RESUME_RECORD, parse_vary, write_results
     from pvsource.explore import explore as run_explore
     from pvsource.report import json_ready
     from pvsource.terminal import render_explore
@@ -624,7 +644,8 @@ def explore(
     with recording() as more:
         weather = read(weather_file)
     inputs += more
-    prices = {"price_per_kg": price_per_kg, "energy_value": energy_value, "years": years,
+    prices = {"price_per_kg": price_per_kg, "energy_value": energy_value, "bank_price_per_kwh": bank_price_per_kwh,
+              "fuel_price_per_l": fuel_price_per_l, "unmet_value_per_kwh": unmet_value_per_kwh, "years": years,
               "budget_fraction": _budget_fraction(budget_pct)}
     with open_run(out, force or resume, "explore", options, inputs, EXPLORE_OUTPUTS) as run:
         folder = run.path
@@ -632,17 +653,32 @@ def explore(
                              engine=engine, workers=workers, scheduler=scheduler, transposition=transposition,
                              fingerprint=_fingerprint(inputs, options), force=force)
         written = [*(folder / PARTS / f"{i}.parquet" for i in ranked["id"]), folder / RESUME_RECORD,
-                   folder / "results.parquet"]
-        _atomic_frame(folder / "results.parquet", ranked)
+                   *write_results(folder, ranked)]
         if (~ranked["excluded"]).any():
             from pvsource.plots import pareto_figure
             written.append(pareto_figure(ranked, folder / "pareto.png"))
         run.finish(written)
+    _unpriced_notes(ranked, prices)
     rows = json_ready(ranked.to_dict(orient="records"))
     if as_json:
         _emit_json({"rows": rows, "out": str(folder)})
     else:
-        typer.echo(render_explore(ranked, folder))
+        typer.echo(render_explore(ranked, folder, years))
+
+
+# Each priced part of an explore result: the option that prices it, the column it prices, its words and unit.
+PRICED_PARTS = (("--bank-price-per-kwh", "bank_price_per_kwh", "bank_nominal_kwh", "the bank", "kWh nominal"),
+                ("--fuel-price-per-l", "fuel_price_per_l", "generator_fuel_l_per_year", "generator fuel", "l/yr"),
+                ("--unmet-value-per-kwh", "unmet_value_per_kwh", "unmet_load_kwh_per_year", "unmet load", "kWh/yr"))
+
+
+def _unpriced_notes(ranked, prices: dict) -> None:
+    """A note for each part the ranking leaves at no cost although some combination has it."""
+    ok = ranked[~ranked["excluded"]]
+    for option, key, column, words, unit in PRICED_PARTS:
+        if prices[key] == 0 and column in ok and (ok[column] > 0).any():
+            note(option, None, f"not given: {words} (up to {ok[column].max():,.1f} {unit}) "
+                               f"costs nothing in the ranking")
 
 
 @app.command()

@@ -3,15 +3,26 @@
 Each combination is checked (:func:`pvsource.checks.design_checks` against the
 weather's own temperature extremes, each varied conductor size by its own
 ampacity, and with a drop budget each circuit's drop at STC); combinations
-that fail are kept out and say why, naming the rule in words. The rest run the season study and are ranked by delivered
-energy, wiring loss and lifetime cost:
+that fail are kept out and say why, naming the rule in words. The rest run the
+season study and are ranked by what the owner pays over ``years``:
 
-    lifetime cost = conductor metal mass x price per kg
-                    + wiring loss per year x value of energy x service years,
+    lifetime cost = conductor metal mass x price per kg              (bought once)
+                    + bank nominal energy x price per kWh            (bought once)
+                    + ( wiring loss per year x value of energy
+                      + generator fuel per year x fuel price
+                      + unmet load per year x value of unmet load ) x years,
 
-Kelvin's economic conductor size applied to the whole system. The Pareto front
-of lifetime cost against delivered energy shows the combinations no other
-beats on both.
+where "per year" is the study's total over its span in years
+(:func:`span_years`), so a short or a long weather file gives costs on the
+same footing. The first line is Kelvin's economic conductor size applied to
+the whole system; the others price the bank against the fuel and the unmet
+load it saves. Each part is its own column (:data:`COST_COLUMNS`); a price
+not given is 0, and that part then costs nothing.
+
+Ranking minimises ``lifetime_cost`` (ties: more delivered energy first). The
+Pareto front is taken over the same two figures: lifetime cost (minimised)
+against energy delivered per year (maximised); a combination is on it when
+no other is both no dearer and delivers no less, and better in one.
 
 Results are written one file per combination as each finishes, so an
 interrupted search loses nothing finished, and ``resume`` skips what is done.
@@ -151,8 +162,85 @@ def conductor_mass_kg(system: System) -> float:
     return total
 
 
+#: The parts of ``lifetime_cost``, each its own result column.
+COST_COLUMNS = ("conductor_cost", "wiring_loss_cost", "bank_cost", "fuel_cost", "unmet_load_cost")
+
+#: State of charge at which loads are taken to be disconnected when the bank does not say
+#: (``[bank] min_soc``), by chemistry (common practice: lead-acid cycled to about 50 % depth
+#: for a useful cycle life; lithium banks to about 80 % depth, their usual rated depth).
+DEFAULT_DISCONNECT_SOC = {"lfp": 0.2, "lead-acid-flooded": 0.5, "lead-acid-sealed": 0.5, "nmc": 0.2}
+
+
+def disconnect_soc(bank) -> float:
+    """The state of charge the loads are disconnected at [fraction].
+
+    The bank's own ``min_soc`` where it has one (``[bank] min_soc``, or its
+    chemistry's default), else :data:`DEFAULT_DISCONNECT_SOC`; 0 (full depth)
+    for a chemistry with neither.
+    """
+    for owner in (bank, bank.chemistry):
+        value = getattr(owner, "min_soc", None)
+        if value is not None:
+            return float(value)
+    return DEFAULT_DISCONNECT_SOC.get(bank.chemistry.key, 0.0)
+
+
+def bank_figures(system: System, summary: dict) -> dict:
+    """The bank's nominal and usable energy and the days of autonomy they give the study's load.
+
+    ``E_nom = C x V_nom`` (capacity [Ah] x nominal voltage [V],
+    :func:`pvsource.bank.nominal_energy_kwh`); ``E_usable = E_nom x (1 - SOC_off)``,
+    with ``SOC_off`` the state of charge the loads are disconnected at
+    (:func:`disconnect_soc`); days of autonomy = ``E_usable / (E_load / D)``, the
+    usable energy over the mean daily load, ``E_load`` the study's load [kWh]
+    over its ``D`` days. No load: NaN (autonomy without a load is unbounded).
+    No bank: all three are 0.
+
+    Returns
+    -------
+    dict
+        ``bank_nominal_kwh``, ``bank_usable_kwh`` [kWh], ``autonomy_days`` [d].
+    """
+    if system.bank is None:
+        nominal = usable = 0.0
+    else:
+        nominal = bank_model.nominal_energy_kwh(system.bank)
+        usable = nominal * (1.0 - disconnect_soc(system.bank))
+    daily_load_kwh = float(summary.get("load_kwh") or 0.0) / (span_years(summary) * 365.0)
+    autonomy = usable / daily_load_kwh if daily_load_kwh > 0 else float("nan")
+    return {"bank_nominal_kwh": nominal, "bank_usable_kwh": usable, "autonomy_days": autonomy}
+
+
+def per_year(summary: dict, key: str) -> float:
+    """A summary total over the study's span in years; 0 when the summary has no such figure (no generator)."""
+    return float(summary.get(key) or 0.0) / span_years(summary)
+
+
+def lifetime_costs(figures: dict, prices: dict) -> dict:
+    """The parts of the lifetime cost and their sum (see the module's docstring).
+
+    Parameters
+    ----------
+    figures : dict
+        ``conductor_mass_kg``, ``bank_nominal_kwh`` and the yearly
+        ``wiring_loss_kwh_per_year``, ``generator_fuel_l_per_year``,
+        ``unmet_load_kwh_per_year``.
+    prices : dict
+        ``price_per_kg``, ``energy_value`` (per kWh lost in the wiring),
+        ``years``; optional ``bank_price_per_kwh``, ``fuel_price_per_l``,
+        ``unmet_value_per_kwh`` (0 when absent).
+    """
+    years = prices["years"]
+    parts = {"conductor_cost": figures["conductor_mass_kg"] * prices["price_per_kg"],
+             "wiring_loss_cost": figures["wiring_loss_kwh_per_year"] * prices["energy_value"] * years,
+             "bank_cost": figures["bank_nominal_kwh"] * prices.get("bank_price_per_kwh", 0.0),
+             "fuel_cost": figures["generator_fuel_l_per_year"] * prices.get("fuel_price_per_l", 0.0) * years,
+             "unmet_load_cost": figures["unmet_load_kwh_per_year"] * prices.get("unmet_value_per_kwh", 0.0) * years}
+    return {**parts, "lifetime_cost": sum(parts[k] for k in COST_COLUMNS)}
+
+
 def evaluate(system: System, weather: pd.DataFrame, combo: dict, prices: dict, transposition: str = "perez") -> dict:
-    """One combination: excluded with reasons, or its energy, losses and lifetime cost."""
+    """One combination: excluded with reasons, or its energy, losses, bank, generator and lifetime cost."""
     row = {"id": combination_id(combo), **{k: getattr(v, "label", v) for k, v in combo.items()}}
     variant = apply(system, combo)
     t_min, t_max = float(weather["temp_air"].min()), float(weather["temp_air"].max())
@@ -167,20 +255,23 @@ def evaluate(system: System, weather: pd.DataFrame, combo: dict, prices: dict, t
         summary = run_season(variant, weather, transposition=transposition, keep="summary").summary
     except InputError as exc:
         return {**row, "excluded": True, "reason": exc.expected}
-    years = span_years(summary)
-    mass = conductor_mass_kg(variant)
-    loss_per_year = summary["wiring_loss_kwh"] / years
-    cost = mass * prices["price_per_kg"] + loss_per_year * prices["energy_value"] * prices["years"]
-    return {**row, "excluded": False, "reason": "",
-            "energy_delivered_kwh_per_year": summary["energy_delivered_kwh"] / years,
-            "energy_stored_kwh_per_year": summary["energy_stored_kwh"] / years,
-            "wiring_loss_kwh_per_year": loss_per_year,
-            "curtailed_kwh_per_year": summary["curtailed_kwh"] / years,
-            "unmet_load_kwh_per_year": summary["unmet_load_kwh"] / years,
-            "conductor_mass_kg": mass, "lifetime_cost": cost}
+    # The generator's figures are absent from a summary without one: read as 0.
+    figures = {"energy_delivered_kwh_per_year": per_year(summary, "energy_delivered_kwh"),
+               "energy_stored_kwh_per_year": per_year(summary, "energy_stored_kwh"),
+               "wiring_loss_kwh_per_year": per_year(summary, "wiring_loss_kwh"),
+               "curtailed_kwh_per_year": per_year(summary, "curtailed_kwh"),
+               "load_kwh_per_year": per_year(summary, "load_kwh"),
+               "unmet_load_kwh_per_year": per_year(summary, "unmet_load_kwh"),
+               "generator_hours_per_year": per_year(summary, "generator_hours"),
+               "generator_starts_per_year": per_year(summary, "generator_starts"),
+               "generator_fuel_l_per_year": per_year(summary, "generator_fuel_l"),
+               "conductor_mass_kg": conductor_mass_kg(variant),
+               **bank_figures(variant, summary)}
+    return {**row, "excluded": False, "reason": "", **figures, **lifetime_costs(figures, prices)}
 
 
 def span_years(summary: dict) -> float:
+    """The study's span [years of 8760 h]: steps x step length."""
     return summary["steps"] * summary["step_h"] / 8760.0
 
 
@@ -205,7 +296,8 @@ ENGINES = ("local", "dask")
 PARTS = "parts"
 # What the finished parts were made from (input hashes and result-shaping options).
 RESUME_RECORD = "resume.json"
-EXPLORE_OUTPUTS = ("results.parquet", "pareto.png", RESUME_RECORD, PARTS)
+RESULTS = ("results.parquet", "results.csv")
+EXPLORE_OUTPUTS = (*RESULTS, "pareto.png", RESUME_RECORD, PARTS)
 
 
 def _start_parts(out: Path, fingerprint: dict | None, resume: bool, force: bool) -> Path:
@@ -391,6 +483,15 @@ def explore(system: System, weather: pd.DataFrame, vary: dict, out: Path, prices
     ranked = pd.concat([ok, bad.sort_values("id")], ignore_index=True)
     ranked.insert(0, "rank", np.where(ranked["excluded"], 0, np.arange(1, len(ranked) + 1)))
     return ranked
+
+
+def write_results(folder: Path, ranked: pd.DataFrame) -> list[Path]:
+    """The ranked table as ``results.parquet`` and ``results.csv`` (the same rows and columns), each written atomically."""
+    folder = Path(folder)
+    parquet, csv = (folder / name for name in RESULTS)
+    atomic_write(parquet, lambda tmp: ranked.to_parquet(tmp))
+    atomic_write(csv, lambda tmp: ranked.to_csv(tmp, index=False))
+    return [parquet, csv]
 
 
 def read_fleet(source) -> list[tuple[str, Path, Path]]:

@@ -324,7 +324,7 @@ def pareto_figure(ranked, path) -> Path:
     ax.plot(front["energy_delivered_kwh_per_year"], front["lifetime_cost"], "o-", color=LINEAR, ms=6, lw=1.4,
             label="no other is both cheaper and delivers more")
     ax.set_xlabel("energy delivered per year [kWh]")
-    ax.set_ylabel("lifetime cost (conductors + lost energy)")
+    ax.set_ylabel("lifetime cost (metal, bank, lost energy, fuel, unmet load)")
     ax.spines[["top", "right"]].set_visible(False)
     ax.grid(True, color="#e3e3e3", lw=0.6)
     ax.legend(fontsize=7.5, frameon=False, ncol=2, loc="upper center", bbox_to_anchor=(0.5, -0.14))

@@ -427,24 +427,38 @@ def render_season(system: System, summary: dict, folder, notes=()) -> str:
     return "\n".join(lines)
 
 
-def render_explore(ranked, folder) -> str:
-    """The ranked table of ``pvsource explore``."""
-    choice_cols = [c for c in ranked.columns if c not in (
-        "rank", "id", "excluded", "reason", "pareto", "energy_delivered_kwh_per_year", "energy_stored_kwh_per_year",
-        "wiring_loss_kwh_per_year", "curtailed_kwh_per_year", "unmet_load_kwh_per_year", "conductor_mass_kg",
-        "lifetime_cost")]
+def render_explore(ranked, folder, years: float | None = None) -> str:
+    """The ranked table of ``pvsource explore``: the choices, what each delivers, leaves unmet, runs the
+    generator and holds in reserve, and its lifetime cost (the parts are columns of the results files)."""
+    from pvsource.explore import COST_COLUMNS, RESULTS
+
+    shown = {"energy_delivered_kwh_per_year": ("delivered/yr", 12, 1), "wiring_loss_kwh_per_year": ("cable loss", 10, 2),
+             "unmet_load_kwh_per_year": ("unmet/yr", 9, 1), "generator_hours_per_year": ("gen h/yr", 8, 0),
+             "autonomy_days": ("autonomy d", 10, 1), "lifetime_cost": ("lifetime cost", 13, 2)}
+    choice_cols = list(ranked.columns[:ranked.columns.get_loc("excluded")].drop(["rank", "id"], errors="ignore"))
     lines = [f"pvsource design search: {len(ranked)} combinations, {int((~ranked['excluded']).sum())} feasible"]
     head = "  ".join(f"{c:>14}" for c in choice_cols)
-    lines.append(f"\n{'rank':>4}  {head}  {'delivered/yr':>12} {'cable loss':>10} {'metal kg':>9} {'lifetime cost':>13}  front")
+    lines.append(f"\n{'rank':>4}  {head}  " + " ".join(f"{label:>{width}}" for label, width, _ in shown.values())
+                 + "  front")
+
+    def cell(r, column, width, digits):
+        value = r.get(column)
+        return f"{'-':>{width}}" if value is None or value != value else f"{value:>{width},.{digits}f}"
+
     for _, r in ranked.iterrows():
         values = "  ".join(f"{str(r[c]):>14}" for c in choice_cols)
         if r["excluded"]:
             lines.append(f"{'-':>4}  {values}  excluded: {r['reason']}")
         else:
-            lines.append(f"{int(r['rank']):>4}  {values}  {r['energy_delivered_kwh_per_year']:>12.1f} "
-                         f"{r['wiring_loss_kwh_per_year']:>10.2f} {r['conductor_mass_kg']:>9.2f} "
-                         f"{r['lifetime_cost']:>13.2f}  {'*' if r['pareto'] else ''}")
-    lines.append("\n* on the front: no other combination is both cheaper over its life and delivers more.")
+            lines.append(f"{int(r['rank']):>4}  {values}  "
+                         + " ".join(cell(r, c, w, d) for c, (_, w, d) in shown.items())
+                         + f"  {'*' if r['pareto'] else ''}")
+    over = f" over {years:g} years" if years is not None else ""
+    lines.append(f"\nlifetime cost{over}: conductor metal and the bank once; cable loss, generator fuel and unmet "
+                 f"load each year. Its parts ({', '.join(COST_COLUMNS)}) are columns of {' and '.join(RESULTS)}.")
+    lines.append("autonomy: the bank's usable energy (down to the state of charge its loads are disconnected at) "
+                 "over the mean daily load.")
+    lines.append("* on the front: no other combination is both cheaper over its life and delivers more.")
     lines.append(f"Results written to {folder}")
     lines.append(render_cautions(cautions.WIRING))
     return "\n".join(lines)

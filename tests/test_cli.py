@@ -709,3 +709,27 @@ def test_check_names_each_controllers_checks(capsys):
         assert voc["value"] == pytest.approx(3 * 40.1 * 1.116) and voc["controller"] == tracker
         assert by_name[f"controller_input_isc[{tracker}]"]["value"] == pytest.approx(1.25 * 2 * 9.8)
     assert code == 0 and rec["all_passed"] is True
+
+
+@pytest.mark.parametrize("option, value", [
+    ("--bank-price-per-kwh", "-5"), ("--bank-price-per-kwh", "nan"), ("--fuel-price-per-l", "inf"),
+    ("--fuel-price", "-1"), ("--unmet-value-per-kwh", "1e9"), ("--unmet-value", "lots"), ("--years", "0"),
+])
+def test_explore_refuses_a_bad_price_in_one_line_before_writing(capsys, tmp_path, option, value):
+    # The shorter spellings (--fuel-price, --unmet-value) are read as the unit-named options,
+    # and a message names the option as --help shows it.
+    out = tmp_path / "out"
+    code, _, err = run(capsys, "explore", CABIN, "w.csv", "--vary", "tilt_deg=20", "--out", str(out),
+                       "--price-per-kg", "12", "--energy-value", "0.3", option, value)
+    shown = {"--fuel-price": "--fuel-price-per-l", "--unmet-value": "--unmet-value-per-kwh"}.get(option, option)
+    assert code == 2 and err.count("\n") == 1 and err.startswith("pvsource: error: ") and shown in err, err
+    assert not out.exists()
+
+
+def test_explore_help_names_every_cost_and_its_default(capsys):
+    code, out, _ = run(capsys, "explore", "--help")
+    text = " ".join(out.split())
+    assert code == 0
+    for words in ("--bank-price-per-kwh", "nominal energy (capacity x nominal voltage)", "--fuel-price-per-l",
+                  "--unmet-value-per-kwh", "Default 10: a well-kept bank's service life"):
+        assert words in text, words

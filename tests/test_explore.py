@@ -73,13 +73,26 @@ def test_cli_explore_json(capsys, tmp_path, short_year):
     write_weather_csv(weather, csv)
     system_file = demo_system_file(tmp_path)
     out = tmp_path / "out"
-    code, text, err = run_cli(capsys, "explore", str(system_file), str(csv), "--vary", "tilt_deg=20,40",
+    # The hyphen spelling is read, and the results carry the canonical name.
+    code, text, err = run_cli(capsys, "explore", str(system_file), str(csv), "--vary", "tilt-deg=20,40",
                               "--out", str(out), "--price-per-kg", "12", "--energy-value", "0.3", "--json")
     assert code == 0, err
     rows = json.loads(text)["rows"]
     assert [r["rank"] for r in rows] == [1, 2] and all("lifetime_cost" in r for r in rows)
+    assert [r["tilt_deg"] for r in rows if r["rank"]] and "tilt-deg" not in rows[0]
     assert (out / "results.parquet").exists() and (out / "pareto.png").exists()
     assert np.isfinite([r["energy_delivered_kwh_per_year"] for r in rows]).all()
+    # The CSV holds exactly the Parquet's table (floats written to round-trip), and both are in the manifest.
+    parquet = pd.read_parquet(out / "results.parquet")
+    table = pd.read_csv(out / "results.csv", keep_default_na=False,
+                        na_values={c: [""] for c in parquet.columns if parquet[c].dtype.kind == "f"})
+    pd.testing.assert_frame_equal(table, parquet, check_dtype=False, check_exact=True)
+    assert len(parquet) == 2 and {"results.csv", "results.parquet"} <= set(json.loads((out / "run.json").read_text())
+                                                                           ["outputs"])
+    # No bank price, no unmet value: each part the ranking leaves out is named on stderr (the demo has a
+    # bank and leaves load unmet in its first days), one note line each.
+    assert "--bank-price-per-kwh: not given" in err and "--unmet-value-per-kwh: not given" in err
+    assert all(line.startswith("pvsource: note: ") for line in err.splitlines())
 
 
 def test_a_process_pool_and_a_dask_cluster_give_exactly_the_local_result(short_year, tmp_path):
@@ -301,3 +314,90 @@ def test_a_metric_size_its_fuse_cannot_protect_is_excluded_by_that_rule(short_ye
     out = ex.evaluate(system, weather, {"size:roof to controller": parse_size("2.5 mm2")}, PRICES)
     assert out["excluded"] and out["reason"].startswith("overload protection")
     assert "conductor_current[roof to controller]" in out["reason"] and "I_n <= I_z" in out["reason"]
+
+
+def _with_a_generator(monkeypatch, fuel_l=12.5, hours=30.0, starts=4):
+    """Stand-in figures of a generator in every season summary (whether or not the season models one)."""
+    real = ex.run_season
+
+    def season(*args, **kwargs):
+        result = real(*args, **kwargs)
+        result.summary.update(generator_fuel_l=fuel_l, generator_hours=hours, generator_starts=starts)
+        return result
+
+    monkeypatch.setattr(ex, "run_season", season)
+
+
+def test_each_cost_part_is_the_summary_figure_times_its_price(short_year, monkeypatch):
+    # Worked by hand from the season summary's own totals: a running cost is the span's total
+    # scaled to a year (8760 h) times the years; the bank's nominal energy is its capacity times
+    # its nominal voltage, 8 LFP cells x 3.2 V (common practice: 12.8 V per four cells).
+    from pvsource.season import run_season
+
+    system, weather = short_year
+    _with_a_generator(monkeypatch)
+    prices = {**PRICES, "years": 10.0, "bank_price_per_kwh": 400.0, "fuel_price_per_l": 1.8,
+              "unmet_value_per_kwh": 2.0}
+    row = ex.evaluate(system, weather, {}, prices)
+    summary = run_season(system, weather).summary
+    span_years = len(weather) * 1.0 / 8760.0  # hourly steps
+    assert summary["steps"] == len(weather) == 144 and summary["step_h"] == 1.0
+    nominal_kwh = 200.0 * 8 * 3.2 / 1000.0  # demo bank: 200 Ah, 8 cells
+    expected = {
+        "conductor_cost": row["conductor_mass_kg"] * 12.0,
+        "wiring_loss_cost": summary["wiring_loss_kwh"] / span_years * 0.3 * 10.0,
+        "bank_cost": nominal_kwh * 400.0,
+        "fuel_cost": 12.5 / span_years * 1.8 * 10.0,
+        "unmet_load_cost": summary["unmet_load_kwh"] / span_years * 2.0 * 10.0,
+    }
+    for key, value in expected.items():
+        assert row[key] == pytest.approx(value, rel=1e-9), key
+    assert row["lifetime_cost"] == pytest.approx(sum(expected.values()), rel=1e-12)
+    assert summary["unmet_load_kwh"] > 0 and row["unmet_load_kwh_per_year"] == pytest.approx(
+        summary["unmet_load_kwh"] * 8760 / 144)
+    assert row["generator_hours_per_year"] == pytest.approx(30.0 * 8760 / 144)
+    assert row["generator_starts_per_year"] == pytest.approx(4 * 8760 / 144)
+    # Autonomy: usable energy down to the disconnect state of charge over the mean daily load (6 days).
+    # That state of charge is the bank's setting; an LFP bank's is 0.1-0.3 (common practice).
+    soc_off = ex.disconnect_soc(system.bank)
+    assert 0.1 <= soc_off <= 0.3
+    assert row["bank_usable_kwh"] == pytest.approx(nominal_kwh * (1 - soc_off))
+    assert row["autonomy_days"] == pytest.approx(nominal_kwh * (1 - soc_off) / (summary["load_kwh"] / 6.0))
+
+
+def test_a_summary_without_generator_figures_costs_no_fuel(short_year):
+    # Before (or without) a generator the season summary has no generator_* keys: they count as 0.
+    system, weather = short_year
+    row = ex.evaluate(system, weather, {}, {**PRICES, "fuel_price_per_l": 1.8})
+    assert row["fuel_cost"] == 0.0 and row["generator_hours_per_year"] == 0.0
+
+
+def test_valuing_unmet_load_turns_the_ranking_toward_the_bigger_bank(short_year, tmp_path):
+    # Six January days with the demo's evening load: a 100 Ah bank leaves more load unmet than a
+    # 400 Ah one (it holds a quarter of the charge at the same starting state of charge). Priced at the
+    # bank alone, the small bank is cheaper; once each unmet kWh costs 2, the big bank is.
+    system, weather = short_year
+    vary = ex.parse_vary(["bank_capacity_ah=100,400"], system)
+    prices = {**PRICES, "years": 10.0, "bank_price_per_kwh": 400.0}
+    free = ex.explore(system, weather, vary, tmp_path / "free", prices, workers=1)
+    dear = ex.explore(system, weather, vary, tmp_path / "dear", {**prices, "unmet_value_per_kwh": 2.0}, workers=1)
+    assert list(free["bank_capacity_ah"]) == [100.0, 400.0]
+    assert list(dear["bank_capacity_ah"]) == [400.0, 100.0]
+    small, big = free.set_index("bank_capacity_ah").loc[[100.0, 400.0]].to_dict("records")
+    assert small["unmet_load_kwh_per_year"] > big["unmet_load_kwh_per_year"]
+    # The bank's price by hand: 300 Ah more of 8 x 3.2 V, at 400 per kWh.
+    assert big["bank_cost"] - small["bank_cost"] == pytest.approx(0.3 * 8 * 3.2 * 400.0)
+    assert dear["lifetime_cost"].is_monotonic_increasing and dear["pareto"].iloc[0]
+
+
+def test_the_results_csv_is_guarded_like_every_output(capsys, tmp_path, short_year):
+    # An input named like the new output, inside --out, is refused before anything is written.
+    system, weather = short_year
+    out = tmp_path / "out"
+    out.mkdir()
+    weather_file = write_weather_csv(weather, out / "results.csv")
+    before = weather_file.read_bytes()
+    code, _, err = run_cli(capsys, "explore", str(demo_system_file(tmp_path)), str(weather_file), "--vary",
+                           "tilt_deg=20", "--out", str(out), "--force", "--price-per-kg", "12", "--energy-value", "0.3")
+    assert code == 2 and "would overwrite the input" in err and err.count("\n") == 1
+    assert weather_file.read_bytes() == before and sorted(p.name for p in out.iterdir()) == ["results.csv"]
