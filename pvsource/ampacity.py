@@ -11,9 +11,9 @@ AWG and kcmil sizes follow NFPA 70 (NEC):
 - the termination limit of 110.14(C): the equipment's terminals, 75 °C unless
   it says otherwise, cap the table column the conductor may be used at.
 
-Metric sizes follow IEC 60364-5-52: copper, two loaded conductors (one DC
-circuit), PVC (70 °C) or XLPE/EPR (90 °C), reference installation methods
-A1, A2, B1, B2, C and E, with the ambient factors of Table B.52.14 and the
+Metric sizes follow IEC 60364-5-52: copper (1.5 to 300 mm²) and aluminium
+(16 to 300 mm²), two loaded conductors (one DC circuit), PVC (70 °C) or
+XLPE/EPR (90 °C), reference installation methods A1, A2, B1, B2, C and E, with the ambient factors of Table B.52.14 and the
 grouping factors of Table B.52.17 (item 1). A DC circuit is two loaded
 conductors, so conductors together count as half as many circuits.
 
@@ -100,8 +100,11 @@ NEC_TABLES = {(r["install"], r["size"], r["material"], float(r["insulation_c"]))
 NEC_AMBIENT = sorted((float(r["insulation_c"]), float(r["ambient_max_c"]), float(r["factor"]))
                      for r in _read("nec_310_15_b1.csv"))
 NEC_ADJUSTMENT = sorted((int(r["conductors_max"]), float(r["factor"])) for r in _read("nec_310_15_c1.csv"))
-IEC_TABLES = {(r["method"], float(r["insulation_c"]), float(r["area_mm2"])): float(r["ampacity_a"])
-              for r in _read("iec_60364_5_52_copper.csv")}
+IEC_TABLES = {(metal, r["method"], float(r["insulation_c"]), float(r["area_mm2"])): float(r["ampacity_a"])
+              for metal in ("copper", "aluminium") for r in _read(f"iec_60364_5_52_{metal}.csv")}
+#: The metric sizes held per metal [mm2]: (smallest, largest).
+IEC_SPAN_MM2 = {metal: (min(areas), max(areas)) for metal in ("copper", "aluminium")
+                for areas in [[k[3] for k in IEC_TABLES if k[0] == metal]]}
 IEC_AMBIENT = sorted((float(r["insulation_c"]), float(r["ambient_max_c"]), float(r["factor"]))
                      for r in _read("iec_60364_5_52_b52_14.csv"))
 IEC_GROUPING = sorted((int(r["circuits_max"]), float(r["factor"])) for r in _read("iec_60364_5_52_b52_17.csv"))
@@ -315,18 +318,18 @@ def ampacity(size: str | ConductorSize, material: str, inst: Installation = Inst
                  f"110.14(C) {col_t:g} degC terminations")
         return Ampacity(NEC_TABLES[key], k_t, k_g, NEC_TABLES[key] * k_t * k_g, term, basis)
     method = IEC_FOR_GENERAL.get(inst.install, inst.install)
-    if mat != "copper":
-        raise InputError(where, "material", f"pvsource holds IEC 60364-5-52's copper tables only, not {mat}")
     if inst.insulation_c not in (70.0, 90.0):
         raise InputError(where, "insulation_c", f"IEC 60364-5-52 tabulates 70 (PVC) and 90 (XLPE) degC, "
                                                 f"not {inst.insulation_c:g}")
-    key = (method, inst.insulation_c, s.area_mm2)
+    key = (mat, method, inst.insulation_c, s.area_mm2)
     if key not in IEC_TABLES:
-        raise InputError(where, "size", f"IEC 60364-5-52 as held here runs from 1.5 to 300 mm2, not {s.label}")
+        low, high = IEC_SPAN_MM2[mat]
+        raise InputError(where, "size", f"IEC 60364-5-52 {mat} as held here runs from {low:g} to {high:g} mm2, "
+                                        f"not {s.label}")
     circuits = math.ceil(inst.conductors_together / 2)
     k_t = iec_ambient_factor(inst.insulation_c, inst.ambient_c)
     k_g = iec_grouping_factor(circuits)
-    basis = (f"IEC 60364-5-52 method {method} ({'XLPE' if inst.insulation_c == 90 else 'PVC'}, two loaded "
+    basis = (f"IEC 60364-5-52 {mat}, method {method} ({'XLPE' if inst.insulation_c == 90 else 'PVC'}, two loaded "
              f"conductors), Table B.52.14 ambient {inst.ambient_c:g} degC, Table B.52.17 for {circuits} circuit(s); "
              f"{protection_words(inst.protection)}")
     return Ampacity(IEC_TABLES[key], k_t, k_g, IEC_TABLES[key] * k_t * k_g, math.inf, basis, inst.protection)

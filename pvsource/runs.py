@@ -206,7 +206,8 @@ def _size_by_drop(flow: RunFlow, budget_fraction):
 
 #: What a user can do when the tables hold no value for a run, by where the run was described.
 REMEDY_FILE = "give the run's ampacity_a from the cable's own rating"
-REMEDY_QUICK = "choose a --size and --material the tables hold (IEC 60364-5-52: 1.5 to 300 mm2; NEC 310.16: 14 AWG up)"
+REMEDY_QUICK = ("choose a --size and --material the tables hold (IEC 60364-5-52: copper 1.5 to 300 mm2, aluminium "
+                "16 to 300 mm2; NEC 310.16: copper 14 AWG and up, aluminium 12 AWG and up)")
 
 
 def _sizing(flow: RunFlow, budget_fraction, max_circuit_current_a: float, defaults: Installation,
@@ -230,7 +231,8 @@ def _sizing(flow: RunFlow, budget_fraction, max_circuit_current_a: float, defaul
                                                   run_installation(run, defaults), run.conductors_in_parallel,
                                                   where=run.name)
         except InputError as exc:
-            amp_note = f"{exc.expected}; {remedy}"
+            # A gap in the tables has a remedy in the command's own terms; too much current names its own.
+            amp_note = exc.expected if exc.field == "ampacity" else f"{exc.expected}; {remedy}"
     candidates = [x for x in (by_drop, by_amp) if x is not None]
     note = "; ".join(n for n in (drop_note, amp_note) if n)
     if by_amp is None and run.size is not None:

@@ -306,7 +306,7 @@ def render_quick_wire(rec: dict) -> str:
     inst = rec["installation"]
     lines.append(f"  installed: {inst['install']}, {inst['insulation_c']:g} degC insulation, {inst['ambient_c']:g} degC "
                  f"ambient, {inst['conductors_together']} conductors together, "
-                 + (f"{PROTECTION_WORDS[rec['protection']]}" if rec.get("protection") else
+                 + (f"{PROTECTION_WORDS[inst['protection']]}" if rec["size"].endswith("mm2") else
                     f"{inst['termination_c']:g} degC terminations")
                  + (f"; drop budget {rec['budget_pct']:g} %" if rec["budget_pct"] is not None else ""))
     lines.extend(_sizes_line(rec))

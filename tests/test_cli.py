@@ -342,11 +342,36 @@ def test_wire_recommends_the_larger_of_ampacity_and_drop(capsys):
     # (worked from NEC Ch. 9 Table 8: 1.98 ohm/kft x 2 m = 0.0130 ohm, 1.30 V = 2.7 %).
     assert rec["size_by_ampacity"] == "1 AWG" and rec["size_by_drop"] == "12 AWG"
     assert rec["recommended_size"] == "1 AWG" and rec["ampacity_a"] == 130.0
-    # An aluminium metric run has no table here: never below the chosen size.
+    # Aluminium metric sizes have IEC 60364-5-52 values now: 10 A needs a 16 A device (1.25 x 10 = 12.5 A,
+    # IEC 60269-1 series), and 16 mm2, the smallest aluminium size held, carries 54 A in B1.
     code, out, _ = run(capsys, "wire", "--current", "10", "--length-m", "1", "--size", "50 mm2", "--volts", "48",
                        "--material", "aluminium", "--json")
     rec = json.loads(out)
-    assert rec["recommended_size"] == "50 mm2" and "ampacity" in rec["recommendation_note"]
+    assert rec["size_by_ampacity"] == "16 mm2" and rec["ampacity_a"] == 118.0 and rec["protection_a"] == 16.0
+    # More current than any size carries: never below the chosen size.
+    code, out, _ = run(capsys, "wire", "--current", "3000", "--length-m", "1", "--size", "300 mm2", "--volts", "48",
+                       "--json")
+    rec = json.loads(out)
+    assert rec["size_by_ampacity"] is None and rec["recommended_size"] == "300 mm2"
+    assert "parallel" in rec["recommendation_note"]
+
+
+@pytest.mark.parametrize("args", [
+    ("--current", "10", "--size", "400 mm2"),                              # a size the tables do not hold
+    ("--current", "10", "--size", "10 mm2", "--material", "aluminium"),   # aluminium below 16 mm2
+    ("--current", "3000", "--size", "300 mm2"),                            # no size carries it
+])
+def test_quick_wire_messages_name_only_what_quick_mode_has(capsys, args):
+    # Quick mode has no file, so no ampacity_a key to give: every hint must be an option of wire.
+    options = _options("wire")
+    code, out, _ = run(capsys, "wire", "--length-m", "5", "--volts", "48", *args)
+    code_j, out_j, _ = run(capsys, "wire", "--length-m", "5", "--volts", "48", *args, "--json")
+    rec = json.loads(out_j)
+    assert code == code_j == 0
+    text = out + " ".join(str(rec.get(k)) for k in ("recommendation_note", "ampacity_note"))
+    assert "ampacity_a" not in text and ("--size" in text or "parallel" in text)
+    named = set(re.findall(r"(?<![\w-])--[a-z][a-z0-9-]*", text))
+    assert named <= options, named - options
 
 
 @pytest.mark.parametrize("protection, size, device", [("gpv", "2.5 mm2", 25.0), ("breaker", "2.5 mm2", 25.0),
