@@ -110,6 +110,9 @@ def _value(key: str, text: str, system: System):
         if text not in ("direct", "pwm", "mppt"):
             raise InputError("--vary", key, f"expected direct, pwm or mppt, got {text!r}")
         c = system.controller
+        if system.several_controllers:
+            raise InputError("--vary", key, f"varies the kind of the one [controller]; {system.source or 'the system'} "
+                                            f"has {len(system.controllers)} [[controller]] tables")
         if c is None or c.kind is None:
             raise InputError("--vary", key, "needs a system with a [bank] and a [controller]")
         if text == "mppt" and c.max_output_a is None and c.rated_power_w is None:

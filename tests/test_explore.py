@@ -67,6 +67,16 @@ def test_bad_choices(short_year, texts, match):
         ex.parse_vary(texts, short_year[0])
 
 
+def test_the_controller_kind_is_varied_only_where_there_is_one_controller():
+    # East and west on a tracker each: "the controller's kind" names no one controller.
+    from conftest import DATA
+
+    from pvsource.config import load_system
+    system = load_system(DATA / "example-east-west.toml")
+    with pytest.raises(InputError, match=r"one \[controller\]; .* has 2 \[\[controller\]\] tables"):
+        ex.parse_vary(["controller=pwm,mppt"], system)
+
+
 def test_cli_explore_json(capsys, tmp_path, short_year):
     system, weather = short_year
     csv = tmp_path / "w.csv"
