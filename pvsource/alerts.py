@@ -151,7 +151,7 @@ def start_floor_v(system: System, bank_emf_v):
     own minimum; a switch or a wire needs the bank's EMF plus the diode drop.
     """
     c = system.controller
-    if c.kind == "mppt":
+    if c.tracks:
         return np.maximum(bank_emf_v + c.min_headroom_v, c.min_input_v or 0.0)
     return bank_emf_v + c.diode_drop_v
 
@@ -168,7 +168,7 @@ def _run_currents(system: System, frame):
 
     strings = {g.name: g.strings for g in system.groups}
     bank_side = None
-    if "charge_current_a" in frame and system.controller is not None and system.controller.kind == "mppt":
+    if "charge_current_a" in frame and system.controller is not None and system.controller.tracks:
         bank_side = np.abs(_col(frame, "charge_current_a"))  # the converter's smoothed output
     for run in system.cables:
         if run.role in PV_SIDE_ROLES or bank_side is None:

@@ -313,49 +313,6 @@ def max_charge_current_a(bank: Bank, temp_c=None):
     return _out(np.where(temp >= c.min_charge_temp_c, c.max_charge_c_rate * bank.capacity_ah, 0.0))
 
 
-def absorption_current_a(bank: Bank, target_v, soc=None, temp_c=None):
-    """Current into the bank held at ``target_v`` [V] (the constant-voltage stage) [A].
-
-    ``max(0, (target_v - E) / R)`` from the Thevenin model; zero once the EMF
-    reaches the target. Not capped by :func:`max_charge_current_a`: the
-    charger's bulk limit is the caller's to apply.
-    """
-    emf, r = thevenin(bank, soc, temp_c)
-    return _out(np.maximum(0.0, (np.asarray(target_v, dtype=float) - emf) / r))
-
-
-def soc_after(bank: Bank, soc, current_a, hours, temp_c=None):
-    """State of charge after ``current_a`` [A] for ``hours`` [h], by coulomb counting.
-
-    Charge (positive current) is scaled by the coulombic efficiency, discharge
-    (negative) is not; the result is clipped to [0, 1]. ``temp_c`` [°C] only
-    sets the output shape: the efficiency is taken as independent of
-    temperature, and charge blocked in the cold is the caller's to withhold
-    (see :func:`max_charge_current_a`).
-    """
-    soc, _ = _state(bank, soc, temp_c)
-    i = np.asarray(current_a, dtype=float)
-    stored_ah = np.where(i > 0, bank.chemistry.coulombic_efficiency * i, i) * np.asarray(hours, dtype=float)
-    return _out(np.clip(soc + stored_ah / bank.capacity_ah, 0.0, 1.0))
-
-
-def acceptance_current_a(bank: Bank, soc=None, temp_c=None):
-    """Charge current the bank accepts near full charge [A].
-
-    A Thevenin bank (resting OCV behind an ohmic resistance) has no voltage
-    rise near full charge, so on its own it would take large currents at the
-    absorption voltage until the very end. Real cells polarise: in the
-    constant-voltage stage the current tapers. This is modelled as a
-    straight taper from the full charge rate at ``absorption_start_soc`` to
-    zero at full charge (common practice: absorption covers roughly the
-    last 20 % of a lead-acid charge and the last few % of a lithium one).
-    """
-    soc = np.asarray(bank.soc if soc is None else soc, dtype=float)
-    start = bank.chemistry.absorption_start_soc
-    share = np.clip((1.0 - soc) / (1.0 - start), 0.0, 1.0)
-    return _out(share * max_charge_current_a(bank, temp_c))
-
-
 #: Cells in series of the nominal 12, 24 and 48 V classes (common practice:
 #: LFP 12.8/25.6/51.2 V, lead-acid 6/12/24 cells, NMC 3S/7S/13S packs).
 NOMINAL_CLASS_CELLS = {"lfp": {12.0: 4, 24.0: 8, 48.0: 16}, "lead-acid-flooded": {12.0: 6, 24.0: 12, 48.0: 24},

@@ -259,7 +259,7 @@ def min_string_vmp(system: System, max_air_c: float, cell_rise_c: float | None =
         limit, against = c.min_input_v, "[controller].min_input_v"
     elif system.bank is not None:
         v_abs, _ = bank_model.charge_voltages_v(system.bank, system.bank.temp_c)
-        headroom = c.min_headroom_v if c is not None and c.kind == "mppt" else 0.0
+        headroom = c.min_headroom_v if c is not None and c.tracks else 0.0
         limit = float(v_abs) + headroom
         against = f"the bank's absorption voltage {float(v_abs):.2f} V" + (f" + {headroom:g} V headroom" if headroom else "")
     elif system.load.kind in ("battery", "voltage"):
@@ -277,7 +277,7 @@ def min_string_vmp(system: System, max_air_c: float, cell_rise_c: float | None =
 def _battery_side_current(system: System) -> tuple[float, str] | None:
     """Maximum current of the bank-side runs behind a tracker [A], and its basis; None when the PV current flows."""
     c = system.controller
-    if system.bank is None or c is None or c.kind != "mppt":
+    if system.bank is None or c is None or not c.tracks:
         return None
     if c.max_output_a is not None:
         return c.max_output_a, f"the controller's rated output {c.max_output_a:g} A (NEC 690.8(A)(1), converter output)"
@@ -418,7 +418,7 @@ def controller_checks(system: System) -> list[Check]:
                      f"{n} string(s) x Isc {isc:g} A x 1.25" + ("" if c.max_input_isc_a is not None else
                                                                   "; no [controller].max_input_isc_a given"),
                      "controller input: the array's short-circuit current must stay within the input's rating"))
-    if c.kind == "mppt" and system.bank is not None:
+    if c.tracks and system.bank is not None:
         from pvsource import bank as bank_model
 
         v_abs, _ = bank_model.charge_voltages_v(system.bank, system.bank.temp_c)

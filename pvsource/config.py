@@ -22,7 +22,7 @@ from pvsource import conductors
 from pvsource.array import StringGroup
 from pvsource.bank import CHEMISTRIES, Bank, make_bank
 from pvsource.bank import charge_voltages_v as bank_charge_voltages
-from pvsource.controller import DEFAULT_EFFICIENCY_CURVE, KINDS, Controller
+from pvsource.controller import DEFAULT_EFFICIENCY_CURVE, KINDS, Controller, make_controller
 from pvsource.errors import InputError, note
 from pvsource.inputs import MAX_TOML_BYTES, check_toml_shape, read_bounded
 from pvsource.module import Datasheet, DiodeParameters, Module, fit_datasheet, module_from_parameters
@@ -379,8 +379,8 @@ def parse_controller(table: Table) -> Controller:
         if not all(0.0 < e <= 1.0 for e in etas):
             raise InputError(where, table.field("efficiency_curve"), "efficiencies must lie in (0, 1]")
         curve = tuple(zip(fractions, etas))
-    controller = Controller(
-        name=table.text("name", ""), kind=kind,
+    controller = make_controller(
+        kind, name=table.text("name", ""),
         max_input_v=None if math.isnan(max_v) else max_v, min_input_v=None if math.isnan(min_v) else min_v,
         max_output_a=None if math.isnan(max_a) else max_a, efficiency_curve=curve,
         rated_power_w=None if math.isnan(rated) else rated,
@@ -391,14 +391,14 @@ def parse_controller(table: Table) -> Controller:
     if controller.max_input_v is not None and controller.min_input_v is not None \
             and controller.min_input_v >= controller.max_input_v:
         raise InputError(where, table.field("min_input_v"), "must be below max_input_v")
-    if kind != "mppt":
+    if not controller.tracks:
         for key in ("max_output_a", "rated_power_w", "efficiency", "efficiency_curve", "min_headroom_v"):
             if table.has(key):
                 raise InputError(where, table.field(key), "applies to kind = \"mppt\" only")
     elif controller.max_output_a is None and controller.rated_power_w is None:
         raise InputError(where, table.field("max_output_a"),
                          "is missing: a tracking controller needs max_output_a (or rated_power_w)")
-    if kind == "mppt" and table.has("diode_drop_v"):
+    if controller.tracks and table.has("diode_drop_v"):
         raise InputError(where, table.field("diode_drop_v"), "applies to kind = \"direct\" or \"pwm\" only")
     table.finish()
     return controller

@@ -50,6 +50,7 @@ import pandas as pd
 from pvsource import bank as bank_model
 from pvsource import conductors
 from pvsource.checks import design_checks
+from pvsource.controller import KINDS, with_kind
 from pvsource.errors import InputError
 from pvsource.files import atomic_write
 from pvsource.names import VARIABLE_ALIASES, canonical
@@ -107,7 +108,7 @@ def _value(key: str, text: str, system: System):
             raise InputError("--vary", key, f"expected a nominal class of the bank: 12, 24 or 48 V, got {text}")
         return value
     if key == "controller":
-        if text not in ("direct", "pwm", "mppt"):
+        if text not in KINDS:
             raise InputError("--vary", key, f"expected direct, pwm or mppt, got {text!r}")
         c = system.controller
         if system.several_controllers:
@@ -115,7 +116,7 @@ def _value(key: str, text: str, system: System):
                                             f"has {len(system.controllers)} [[controller]] tables")
         if c is None or c.kind is None:
             raise InputError("--vary", key, "needs a system with a [bank] and a [controller]")
-        if text == "mppt" and c.max_output_a is None and c.rated_power_w is None:
+        if KINDS[text].tracks and c.max_output_a is None and c.rated_power_w is None:
             raise InputError("--vary", key, "a tracker needs max_output_a (or rated_power_w) in [controller]")
         return text
     if key.startswith("size:"):
@@ -140,7 +141,7 @@ def apply(system: System, combo: dict) -> System:
         elif key == "bank_class_v":
             system = replace(system, bank=bank_model.with_nominal_class(system.bank, value))
         elif key == "controller":
-            system = replace(system, controller=replace(system.controller, kind=value))
+            system = replace(system, controller=with_kind(system.controller, value))
         elif key.startswith("size:"):
             system = resize_run(system, key[5:], value)
     return system

@@ -27,10 +27,13 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from dataclasses import dataclass
+
 from pvsource import bank as bank_model
 from pvsource import linear
+from pvsource import regulation as reg
 from pvsource.alerts import alert_codes
-from pvsource.charging import FLOAT_SOC, BankPoint, solve_charging
+from pvsource.charging import FLOAT_SOC, BankPoint, ChargeResult, solve_charging
 from pvsource.errors import ConvergenceError, InputError, PhysicsGuardError
 from pvsource.module import key_points, parameters_at
 from pvsource.network import (
@@ -128,36 +131,78 @@ def _load_branch(system: System):
     return th[0], th[1] + system.wiring.r_load_side_ohm
 
 
-def bank_point(system: System, soc, temp_c, cap_a=None) -> BankPoint:
-    """The bank's Thevenin equivalent, stage target and charge limit at each condition."""
+def bank_point(system: System, soc, temp_c, cap_a=None, floating=None) -> BankPoint:
+    """The bank's Thevenin equivalent, charge voltages and charge limit at each condition.
+
+    ``floating`` says where the controller holds the float voltage; by
+    default where the state of charge is at least :data:`~pvsource.charging.FLOAT_SOC`
+    (a single point has no history to say which stage holds).
+    """
     b = system.bank
     emf, r = bank_model.thevenin(b, soc, temp_c)
     v_abs, v_float = bank_model.charge_voltages_v(b, temp_c)
     soc_now = np.broadcast_to(b.soc if soc is None else soc, np.shape(emf))
-    floating = soc_now >= FLOAT_SOC
-    shape = np.broadcast_shapes(np.shape(emf), np.shape(v_abs))
-    as_array = lambda a: np.array(np.broadcast_to(a, shape), dtype=float)  # noqa: E731
-    return BankPoint(as_array(emf), as_array(r), as_array(np.where(floating, v_float, v_abs)),
-                     np.array(np.broadcast_to(floating, shape)), as_array(bank_model.max_charge_current_a(b, temp_c)),
-                     as_array(bank_model.acceptance_current_a(b, soc, temp_c)),
-                     None if cap_a is None else as_array(cap_a))
+    floating = soc_now >= FLOAT_SOC if floating is None else floating
+    shape = np.broadcast_shapes(np.shape(emf), np.shape(v_abs), np.shape(floating))
+    as_array = lambda a, kind=float: np.array(np.broadcast_to(a, shape), dtype=kind)  # noqa: E731
+    return BankPoint(as_array(emf), as_array(r), as_array(soc_now), as_array(v_abs), as_array(v_float),
+                     as_array(floating, bool), as_array(bank_model.max_charge_current_a(b, temp_c)),
+                     b.chemistry.absorption_start_soc, None if cap_a is None else as_array(cap_a))
 
 
-def _solve_chunk(system: System, g_w_m2, t_c, soc=None, bank_temp_c=None, drift_check: bool = True,
-                 charge_cap_a=None) -> dict:
-    """All outputs for one chunk of conditions, as a dict of 1-D arrays."""
-    wiring = system.wiring
-    n_s, n_p = system.n_series, system.n_parallel
-    rated_w = float((n_s * n_p).sum()) * float(system.module.fit.stc["p_mp"])
-    state = parameters_at(system.module.parameters, g_w_m2, t_c)
-    net = Network(state, n_s, n_p, wiring.r_string_ohm, wiring.r_home_ohm)
-    ideal = net.without_cables()
-    r_f = wiring.r_load_side_ohm
+@dataclass(frozen=True)
+class KeyPoints:
+    """The ideal array's key points (no cables, groups joined directly), arrays (N,).
 
-    # Key points of each module, and of the ideal array. One group: the array
-    # is the module scaled. Several: the groups paralleled directly are
-    # solved as a network, and each group's own MPP bounds what it can give.
-    own = key_points(state)
+    ``groups_p_mp_w`` is the sum of each group's own maximum power;
+    ``open_circuit`` the wired array at open circuit where it comes free (else None).
+    """
+
+    v_oc: np.ndarray
+    i_sc: np.ndarray
+    v_mp: np.ndarray
+    i_mp: np.ndarray
+    p_mp: np.ndarray
+    groups_p_mp_w: np.ndarray
+    converged: np.ndarray
+    open_circuit: Solution | None
+
+
+@dataclass(frozen=True)
+class Point:
+    """The solved operating point of a chunk.
+
+    Attributes
+    ----------
+    x_v, bus_v : the groups' diode voltages (N, G) and the bus voltage (N,) [V]
+    duty : the factor that turns the array's (on-state) point into averages [-]
+    converged : (N,)
+    branch : (EMF [V], resistance [ohm]) of the load branch beyond the bus, for
+        the residuals and the linear views; None for a maximum-power load
+    r_to_load_ohm : resistance from the bus to where the load (or the
+        controller's input) sits [ohm]
+    charge, bank : the charging result and the bank, where there is a bank
+    """
+
+    x_v: np.ndarray
+    bus_v: np.ndarray
+    duty: np.ndarray
+    converged: np.ndarray
+    branch: tuple | None
+    r_to_load_ohm: float
+    charge: ChargeResult | None = None
+    bank: BankPoint | None = None
+
+
+def _key_points(system: System, net: Network) -> KeyPoints:
+    """Key points of each module, and of the ideal array.
+
+    One group: the array is the module scaled. Several: the groups paralleled
+    directly are solved as a network, and each group's own MPP bounds what it
+    can give.
+    """
+    n_s, n_p, wiring = system.n_series, system.n_parallel, system.wiring
+    own = key_points(net.state)
     converged = own["converged"].all(axis=-1)
     groups_p_mp = _over_groups(n_s * n_p * own["p_mp"])
     if len(n_s) == 1:
@@ -165,42 +210,71 @@ def _solve_chunk(system: System, g_w_m2, t_c, soc=None, bank_temp_c=None, drift_
         v_mp, i_mp = n_s[0] * own["v_mp"][:, 0], n_p[0] * own["i_mp"][:, 0]
         # With no current flowing, cables change nothing: the open circuit of
         # the wired array is the module's.
-        open_circuit = Solution(own["v_oc"].copy(), v_oc, converged, 0)
-        p_mp = groups_p_mp
-    else:
-        oc_ideal = solve_thevenin(ideal, 0.0, np.inf)
-        mp_ideal = solve_max_power(ideal, 0.0, open_circuit=oc_ideal, relative_tolerance=SOURCE_MPP_TOLERANCE)
-        v_oc, v_mp = oc_ideal.bus_v, mp_ideal.bus_v
-        # A shorted bus with no cables shorts every module: the array's Isc
-        # is the sum of the strings' own.
-        i_sc = _over_groups(n_p * own["i_sc"])
-        i_mp = _over_groups(evaluate_groups(ideal, mp_ideal.x_v).group_i_a)
-        p_mp = v_mp * i_mp
-        converged &= oc_ideal.converged & mp_ideal.converged
-        no_cables = not wiring.r_string_ohm.any() and not wiring.r_home_ohm.any()
-        open_circuit = oc_ideal if no_cables else None
+        return KeyPoints(v_oc, i_sc, v_mp, i_mp, groups_p_mp, groups_p_mp, converged,
+                         Solution(own["v_oc"].copy(), v_oc, converged, 0))
+    ideal = net.without_cables()
+    oc_ideal = solve_thevenin(ideal, 0.0, np.inf)
+    mp_ideal = solve_max_power(ideal, 0.0, open_circuit=oc_ideal, relative_tolerance=SOURCE_MPP_TOLERANCE)
+    v_mp = mp_ideal.bus_v
+    # A shorted bus with no cables shorts every module: the array's Isc is
+    # the sum of the strings' own.
+    i_sc = _over_groups(n_p * own["i_sc"])
+    i_mp = _over_groups(evaluate_groups(ideal, mp_ideal.x_v).group_i_a)
+    no_cables = not wiring.r_string_ohm.any() and not wiring.r_home_ohm.any()
+    return KeyPoints(oc_ideal.bus_v, i_sc, v_mp, i_mp, v_mp * i_mp, groups_p_mp,
+                     converged & oc_ideal.converged & mp_ideal.converged, oc_ideal if no_cables else None)
 
-    # The operating point.
+
+def _operating_point(system: System, net: Network, keys: KeyPoints, soc, bank_temp_c, charge_cap_a,
+                     floating=None) -> Point:
+    """The exact operating point: into the load, or through the controller into the bank."""
+    wiring = system.wiring
     branch = _load_branch(system)
-    charge = None
-    if system.bank is not None:
-        bank_pt = bank_point(system, soc, bank_temp_c, charge_cap_a)
-        charge = solve_charging(net, system.controller, bank_pt, wiring.r_feeder_ohm, wiring.r_bank_ohm)
-        x_sol, v, duty = charge["x_v"], charge["bus_v"], charge["scale"]
-        converged &= charge["converged"]
-        # For the linear views, the direct and PWM branch is the bank behind
-        # its cables and diode; a tracker's input looks like a resistor.
-        if system.controller.kind != "mppt":
-            branch = (bank_pt.emf_v + system.controller.diode_drop_v, bank_pt.r_ohm + wiring.r_load_side_ohm)
-    else:
-        sol = solve_max_power(net, r_f, open_circuit=open_circuit) if branch is None else \
+    if system.bank is None:
+        r_load_side = wiring.r_load_side_ohm
+        sol = solve_max_power(net, r_load_side, open_circuit=keys.open_circuit) if branch is None else \
             solve_thevenin(net, branch[0], branch[1])
-        x_sol, v, duty = sol.x_v, sol.bus_v, np.ones(len(g_w_m2))
-        converged &= sol.converged
-    pt = evaluate_groups(net, x_sol)
+        return Point(sol.x_v, sol.bus_v, np.ones(len(sol.bus_v)), sol.converged, branch, r_load_side)
+    bank_pt = bank_point(system, soc, bank_temp_c, charge_cap_a, floating)
+    charge = solve_charging(net, system.controller, bank_pt, wiring.r_feeder_ohm, wiring.r_bank_ohm)
+    # For the linear views, the direct and PWM branch is the bank behind its
+    # cables and diode; a tracker's input looks like a resistor.
+    if not system.controller.tracks:
+        branch = (bank_pt.emf_v + system.controller.diode_drop_v, bank_pt.r_ohm + wiring.r_load_side_ohm)
+    return Point(charge.x_v, charge.bus_v, charge.duty, charge.converged, branch, wiring.r_feeder_ohm, charge,
+                 bank_pt)
+
+
+@dataclass(frozen=True)
+class Accounts:
+    """Every watt of the point, the array's own quantities, and the residuals of the laws (arrays (N,))."""
+
+    groups: object  # network.GroupPoint
+    v_string: np.ndarray
+    i: np.ndarray
+    generated_w: np.ndarray
+    string_loss_w: np.ndarray
+    home_run_loss_w: np.ndarray
+    feeder_loss_w: np.ndarray
+    bank_loss_w: np.ndarray
+    cable_loss_w: np.ndarray
+    controller_loss_w: np.ndarray
+    delivered_w: np.ndarray
+    load_v: np.ndarray
+    load_side_v: np.ndarray
+    kvl_residual_v: np.ndarray
+    kcl_residual_a: np.ndarray
+    energy_balance_residual: np.ndarray
+
+
+def _accounting(system: System, net: Network, point: Point) -> Accounts:
+    """Generated = cable losses + controller loss + delivered, each part, and the residuals."""
+    wiring, n_s, n_p = system.wiring, system.n_series, system.n_parallel
+    rated_w = float((n_s * n_p).sum()) * float(system.module.fit.stc["p_mp"])
+    v, duty, charge = point.bus_v, point.duty, point.charge
+    pt = evaluate_groups(net, point.x_v)
     j = pt.group_i_a
     i = _over_groups(j)
-    p = v * i
     v_string = n_s * pt.module_v
     # PWM in regulation switches the array: energies are duty-weighted
     # averages of the on-state, at which the array's point is reported.
@@ -210,122 +284,160 @@ def _solve_chunk(system: System, g_w_m2, t_c, soc=None, bank_temp_c=None, drift_
     feeder_loss = duty * i**2 * wiring.r_feeder_ohm
     if charge is None:
         bank_loss = i**2 * wiring.r_bank_ohm
-        v_load = v - i * r_f
+        v_load = v - i * point.r_to_load_ohm
         delivered = v_load * i
         controller_loss = np.zeros_like(i)
+        load_side_v = v_load
     else:
-        bank_loss = charge["bank_cable_loss_w"]
-        controller_loss = charge["controller_loss_w"]
-        delivered = charge["stored_w"] + charge["bank_internal_loss_w"]
+        bank_loss = charge.bank_cable_loss_w
+        controller_loss = charge.controller_loss_w
+        delivered = charge.stored_w + charge.bank_internal_loss_w
         with np.errstate(divide="ignore", invalid="ignore"):
-            on_current = np.where(duty > 0, charge["charge_current_a"] / duty, 0.0)
-        v_load = bank_pt.emf_v + on_current * bank_pt.r_ohm
-        r_f = wiring.r_feeder_ohm
+            on_current = np.where(duty > 0, charge.charge_current_a / duty, 0.0)
+        v_load = point.bank.emf_v + on_current * point.bank.r_ohm
+        load_side_v = charge.input_v
     cable_loss = string_loss + home_loss + feeder_loss + bank_loss
 
     # Residuals of the laws the solution must satisfy.
     kvl = np.abs(pt.bus_v - v[:, None]).max(axis=-1)
-    if branch is None:
+    if point.branch is None:
         kcl = np.zeros_like(i)
     else:
-        e_l, r_l = branch
+        e_l, r_l = point.branch
         with np.errstate(divide="ignore", invalid="ignore"):
             stiff = r_l < 1e-12
             expected_i = np.where(stiff, i, (v - e_l) / np.where(stiff, 1.0, r_l))
         kcl = np.abs(i - expected_i)
         if charge is not None:
-            kcl = np.where(charge["stage"] == "idle", 0.0, kcl)  # a blocking diode or open switch
+            kcl = np.where(charge.stage == reg.IDLE, 0.0, kcl)  # a blocking diode or open switch
     # Relative to everything flowing, not to the net: mismatched groups can
     # circulate far more power among themselves than reaches the load.
     # The diode-voltage term n_s |x| |J| bounds the rounding of each string
     # voltage (x - I R_s cancels near short circuit); a thousandth of the
     # array's STC power keeps an open circuit's stray picoamps, or a night,
     # from reading as a broken balance.
-    scale = duty * _over_groups(n_s * (np.abs(pt.x_v) + np.abs(pt.module_i_a * state.r_s_ohm)) * np.abs(j)) \
+    scale = duty * _over_groups(n_s * (np.abs(pt.x_v) + np.abs(pt.module_i_a * net.state.r_s_ohm)) * np.abs(j)) \
         + cable_loss + np.abs(controller_loss) + np.abs(delivered) + 1e-3 * rated_w
     balance = (generated - cable_loss - controller_loss - delivered) / scale
-    if charge is not None:
-        v_load_side = charge["input_v"]
-    else:
-        v_load_side = v - i * r_f
+    return Accounts(pt, v_string, i, generated, string_loss, home_loss, feeder_loss, bank_loss, cable_loss,
+                    controller_loss, delivered, v_load, load_side_v, kvl, kcl, balance)
 
-    # Linearised views: each group at its string terminals, the array at the
-    # bus, and the array plus feeder as the load sees it.
-    g_string = -n_p * pt.di_dx / (n_s * (1.0 - pt.di_dx * state.r_s_ohm))
-    group_eq = linear.linearise(v_string, j, g_string)
+
+def _linear_views(system: System, net: Network, point: Point, acc: Accounts) -> dict:
+    """Thevenin/Norton equivalents of each group at its string terminals, of the
+    array at the bus, of the array as the load sees it, and superposition at the bus."""
+    n_s, n_p = system.n_series, system.n_parallel
+    v, i, pt, j = point.bus_v, acc.i, acc.groups, acc.groups.group_i_a
+    g_string = -n_p * pt.di_dx / (n_s * (1.0 - pt.di_dx * net.state.r_s_ohm))
+    group_eq = linear.linearise(acc.v_string, j, g_string)
     g_bus = pt.conductance_s
     array_eq = linear.linearise(v, i, _over_groups(g_bus))
-    m_array = linear.matching_ratio(v, i, array_eq.r_ohm)
-    r_seen = array_eq.r_ohm + r_f
-    m_load = linear.matching_ratio(v_load_side, i, r_seen)
-
+    r_seen = array_eq.r_ohm + point.r_to_load_ohm
     # Superposition at the bus: each group's Thevenin as seen from the bus,
-    # and the load branch (for a tracker, its static resistance).
+    # and the load branch (for a tracker or a maximum-power load, its static resistance).
     with np.errstate(divide="ignore", invalid="ignore"):
         e_group_bus = pt.bus_v + j / g_bus
-        if branch is None:
-            e_l, r_l = np.zeros_like(v), np.where(i != 0.0, v_load_side / i, np.inf) + r_f
+        if point.branch is None:
+            e_l = np.zeros_like(v)
+            r_l = np.where(i != 0.0, acc.load_side_v / i, np.inf) + point.r_to_load_ohm
         else:
-            e_l, r_l = np.broadcast_to(branch[0], v.shape), np.broadcast_to(branch[1], v.shape)
+            e_l, r_l = np.broadcast_to(point.branch[0], v.shape), np.broadcast_to(point.branch[1], v.shape)
         shares, load_share, share_total = linear.superposition(e_group_bus, 1.0 / g_bus, e_l, r_l)
+    out = {
+        "thevenin_e_v": array_eq.e_v, "thevenin_r_ohm": array_eq.r_ohm, "norton_i_a": array_eq.i_a,
+        "matching_ratio": linear.matching_ratio(v, i, array_eq.r_ohm),
+        "load_side_r_ohm": r_seen, "load_side_matching_ratio": linear.matching_ratio(acc.load_side_v, i, r_seen),
+        "share_load_emf_a": load_share, "superposition_total_a": share_total,
+    }
+    for k, g in enumerate(system.groups):
+        pre = f"group_{g.name}_"
+        out.update({
+            pre + "thevenin_e_v": group_eq.e_v[:, k], pre + "thevenin_r_ohm": group_eq.r_ohm[:, k],
+            pre + "matching_ratio": linear.matching_ratio(acc.v_string[:, k], j[:, k], group_eq.r_ohm[:, k]),
+            f"share_{g.name}_a": shares[:, k],
+        })
+    return out
 
-    # How far the linear model drifts from the curve at +/- 10 % of V.
-    drift = {}
+
+def _drift(net: Network, point: Point, acc: Accounts, views: dict, check: bool) -> tuple[dict, np.ndarray]:
+    """How far the linear model drifts from the curve at +/- 10 % of V; and where those solves converged."""
+    v, i = point.bus_v, acc.i
+    out, converged = {}, np.ones(v.shape, bool)
     for tag, factor in (("low", 1.0 - DRIFT_FRACTION), ("high", 1.0 + DRIFT_FRACTION)):
-        if not drift_check:
-            drift.update({f"drift_{tag}_i_exact_a": np.full_like(v, np.nan), f"drift_{tag}_error": np.full_like(v, np.nan)})
+        if not check:
+            out.update({f"drift_{tag}_i_exact_a": np.full_like(v, np.nan), f"drift_{tag}_error": np.full_like(v, np.nan)})
             continue
         v_d = v * factor
-        sol_d = solve_at_bus_voltage(net, v_d, x_sol, relative_tolerance=DRIFT_TOLERANCE)
+        sol_d = solve_at_bus_voltage(net, v_d, point.x_v, relative_tolerance=DRIFT_TOLERANCE)
         converged &= sol_d.converged
         i_exact = _over_groups(evaluate_groups(net, sol_d.x_v).group_i_a)
-        i_lin = array_eq.current_at(v_d)
+        i_lin = (views["thevenin_e_v"] - v_d) / views["thevenin_r_ohm"]
         with np.errstate(divide="ignore", invalid="ignore"):
             err = np.where(i != 0.0, (i_lin - i_exact) / np.abs(i), np.nan)
-        drift.update({f"drift_{tag}_i_exact_a": i_exact, f"drift_{tag}_error": err})
+        out.update({f"drift_{tag}_i_exact_a": i_exact, f"drift_{tag}_error": err})
+    return out, converged
 
+
+def _solve_chunk(system: System, g_w_m2, t_c, soc=None, bank_temp_c=None, drift_check: bool = True,
+                 charge_cap_a=None, floating=None) -> dict:
+    """All outputs for one chunk of conditions, as a dict of 1-D arrays."""
+    state = parameters_at(system.module.parameters, g_w_m2, t_c)
+    net = Network(state, system.n_series, system.n_parallel, system.wiring.r_string_ohm, system.wiring.r_home_ohm)
+    keys = _key_points(system, net)
+    point = _operating_point(system, net, keys, soc, bank_temp_c, charge_cap_a, floating)
+    acc = _accounting(system, net, point)
+    views = _linear_views(system, net, point, acc)
+    drift, drift_converged = _drift(net, point, acc, views, drift_check)
+    return _columns(system, g_w_m2, t_c, keys, point, acc, views, drift,
+                    keys.converged & point.converged & drift_converged, soc, bank_temp_c)
+
+
+def _columns(system, g_w_m2, t_c, keys: KeyPoints, point: Point, acc: Accounts, views: dict, drift: dict,
+             converged, soc, bank_temp_c) -> dict:
+    """The chunk's results as the columns of :func:`operating_points`."""
+    v, i = point.bus_v, acc.i
     with np.errstate(divide="ignore", invalid="ignore"):
-        efficiency = np.where(generated > 0.0, delivered / generated, np.nan)
-
+        efficiency = np.where(acc.generated_w > 0.0, acc.delivered_w / acc.generated_w, np.nan)
     out = {
-        "source_v_oc": v_oc, "source_i_sc": i_sc, "source_v_mp": v_mp,
-        "source_i_mp": i_mp, "source_p_mp": p_mp, "groups_p_mp_w": groups_p_mp,
-        "parallel_mismatch_w": groups_p_mp - p_mp,
-        "v": v, "i": i, "p": p,
-        "thevenin_e_v": array_eq.e_v, "thevenin_r_ohm": array_eq.r_ohm, "norton_i_a": array_eq.i_a,
-        "matching_ratio": m_array,
-        "load_v": v_load, "delivered_w": delivered, "generated_w": generated,
-        "cable_loss_w": cable_loss, "string_loss_w": string_loss, "home_run_loss_w": home_loss,
-        "feeder_loss_w": feeder_loss, "bank_loss_w": bank_loss, "efficiency": efficiency,
-        "mpp_shortfall_w": groups_p_mp - generated,
-        "load_side_r_ohm": r_seen, "load_side_matching_ratio": m_load,
-        "share_load_emf_a": load_share, "superposition_total_a": share_total,
+        "source_v_oc": keys.v_oc, "source_i_sc": keys.i_sc, "source_v_mp": keys.v_mp,
+        "source_i_mp": keys.i_mp, "source_p_mp": keys.p_mp, "groups_p_mp_w": keys.groups_p_mp_w,
+        "parallel_mismatch_w": keys.groups_p_mp_w - keys.p_mp,
+        "v": v, "i": i, "p": v * i,
+        **{k: views[k] for k in ("thevenin_e_v", "thevenin_r_ohm", "norton_i_a", "matching_ratio")},
+        "load_v": acc.load_v, "delivered_w": acc.delivered_w, "generated_w": acc.generated_w,
+        "cable_loss_w": acc.cable_loss_w, "string_loss_w": acc.string_loss_w, "home_run_loss_w": acc.home_run_loss_w,
+        "feeder_loss_w": acc.feeder_loss_w, "bank_loss_w": acc.bank_loss_w, "efficiency": efficiency,
+        "mpp_shortfall_w": keys.groups_p_mp_w - acc.generated_w,
+        **{k: views[k] for k in ("load_side_r_ohm", "load_side_matching_ratio", "share_load_emf_a",
+                                 "superposition_total_a")},
         **drift,
-        "controller_loss_w": controller_loss,
-        "kvl_residual_v": kvl, "kcl_residual_a": kcl, "energy_balance_residual": balance,
+        "controller_loss_w": acc.controller_loss_w,
+        "kvl_residual_v": acc.kvl_residual_v, "kcl_residual_a": acc.kcl_residual_a,
+        "energy_balance_residual": acc.energy_balance_residual,
         "converged": converged,
     }
+    charge, bank_pt = point.charge, point.bank
     if charge is not None:
         out.update({
-            "charge_current_a": charge["charge_current_a"], "stored_w": charge["stored_w"],
-            "curtailed_w": charge["curtailed_w"], "bank_internal_loss_w": charge["bank_internal_loss_w"],
-            "duty": duty, "controller_input_v": charge["input_v"], "bank_emf_v": bank_pt.emf_v,
+            "charge_current_a": charge.charge_current_a, "stored_w": charge.stored_w,
+            "curtailed_w": charge.curtailed_w, "bank_internal_loss_w": charge.bank_internal_loss_w,
+            "duty": point.duty, "controller_input_v": charge.input_v, "bank_emf_v": bank_pt.emf_v,
             "bank_r_ohm": bank_pt.r_ohm, "bank_target_v": bank_pt.target_v,
-            "bank_soc": np.broadcast_to(system.bank.soc if soc is None else soc, v.shape).astype(float),
+            "bank_soc": bank_pt.soc,
             "bank_temp_c": np.broadcast_to(system.bank.temp_c if bank_temp_c is None else bank_temp_c,
                                            v.shape).astype(float),
             "bank_max_charge_a": bank_pt.max_charge_a,
-            "stage": charge["stage"], "limit": charge["limit"],
+            "stage": charge.stage, "limit": charge.limit,
         })
     for k, g in enumerate(system.groups):
         pre = f"group_{g.name}_"
         out.update({
             pre + "irradiance_w_m2": g_w_m2[:, k], pre + "cell_temp_c": t_c[:, k],
-            pre + "v": v_string[:, k], pre + "i_a": j[:, k], pre + "p_w": v_string[:, k] * j[:, k],
-            pre + "thevenin_e_v": group_eq.e_v[:, k], pre + "thevenin_r_ohm": group_eq.r_ohm[:, k],
-            pre + "matching_ratio": linear.matching_ratio(v_string[:, k], j[:, k], group_eq.r_ohm[:, k]),
-            f"share_{g.name}_a": shares[:, k],
+            pre + "v": acc.v_string[:, k], pre + "i_a": acc.groups.group_i_a[:, k],
+            pre + "p_w": acc.v_string[:, k] * acc.groups.group_i_a[:, k],
         })
+        out.update({key: views[key] for key in (pre + "thevenin_e_v", pre + "thevenin_r_ohm",
+                                                 pre + "matching_ratio", f"share_{g.name}_a")})
     return out
 
 
@@ -338,12 +450,14 @@ def require_one_controller(system: System) -> None:
 
 
 def _frame_from_chunks(system: System, g, t, chunk_size: int, soc=None, bank_temp_c=None,
-                       drift_check: bool = True, charge_cap_a=None) -> pd.DataFrame:
+                       drift_check: bool = True, charge_cap_a=None, floating=None) -> pd.DataFrame:
     """Solve chunk by chunk into one preallocated column-major block.
 
     One block of the float columns, filled in place, becomes the DataFrame
     without a copy: at a year of minutes this saves about a second of memory
-    traffic. Flags and labels (``converged``, ``stage``, ``limit``) follow.
+    traffic. Flags and codes (``converged``, ``stage``, ``limit``) follow;
+    stage and limit become categorical columns: their codes, with the words
+    (:data:`~pvsource.regulation.STAGE_WORDS`, ``LIMIT_WORDS``) as categories.
     """
     n = len(g)
     block = columns = others = None
@@ -351,7 +465,8 @@ def _frame_from_chunks(system: System, g, t, chunk_size: int, soc=None, bank_tem
         sl = slice(start, start + chunk_size)
         part = _solve_chunk(system, g[sl], t[sl], None if soc is None else soc[sl],
                             None if bank_temp_c is None else bank_temp_c[sl], drift_check,
-                            None if charge_cap_a is None else charge_cap_a[sl])
+                            None if charge_cap_a is None else charge_cap_a[sl],
+                            None if floating is None else floating[sl])
         if block is None:
             columns = [k for k, a in part.items() if np.asarray(a).dtype.kind == "f"]
             others = {k: np.empty(n, np.asarray(a).dtype) for k, a in part.items() if k not in columns}
@@ -362,13 +477,14 @@ def _frame_from_chunks(system: System, g, t, chunk_size: int, soc=None, bank_tem
         for name, arr in others.items():
             arr[start:stop] = part[name]
     frame = pd.DataFrame(block, columns=columns, copy=False)
+    words = {"stage": reg.STAGE_WORDS, "limit": reg.LIMIT_WORDS}
     for name, arr in others.items():
-        frame[name] = arr
+        frame[name] = pd.Categorical.from_codes(arr, words[name]) if name in words else arr
     return frame
 
 
 def operating_points(system: System, irradiance_w_m2=None, cell_temp_c=None, *, soc=None, bank_temp_c=None,
-                     charge_cap_a=None, drift_check: bool = True, on_failure: str = "raise",
+                     charge_cap_a=None, floating=None, drift_check: bool = True, on_failure: str = "raise",
                      chunk_size: int = CHUNK_SIZE) -> pd.DataFrame:
     """Exact operating points, linearised equivalents and accounting per condition.
 
@@ -387,6 +503,10 @@ def operating_points(system: System, irradiance_w_m2=None, cell_temp_c=None, *, 
     charge_cap_a : array (N,), optional
         A season study's cap on the charge current: what still fits in the
         bank within each step [A]; infinite where it does not bind.
+    floating : array of bool (N,), optional
+        Where the controller holds the float voltage (a season study's
+        stages); by default where the state of charge is at least
+        :data:`~pvsource.charging.FLOAT_SOC`.
     drift_check : bool
         Solve the exact curve at +/-10 % of the operating voltage to show how
         far the linear model holds (two extra solves); off, those columns are NaN.
@@ -437,7 +557,9 @@ def operating_points(system: System, irradiance_w_m2=None, cell_temp_c=None, *, 
         charge_cap_a = np.array(np.broadcast_to(np.asarray(charge_cap_a, float), (len(g),)))
         if np.any(np.isnan(charge_cap_a) | (charge_cap_a < 0)):
             raise InputError("charge_cap_a", None, "expected currents of 0 A or more (inf where no cap)")
-    frame = _frame_from_chunks(system, g, t, chunk_size, soc, bank_temp_c, drift_check, charge_cap_a)
+    if floating is not None:
+        floating = np.array(np.broadcast_to(np.asarray(floating, bool), (len(g),)))
+    frame = _frame_from_chunks(system, g, t, chunk_size, soc, bank_temp_c, drift_check, charge_cap_a, floating)
 
     bad = ~frame["converged"].to_numpy()
     if bad.any():
@@ -456,7 +578,7 @@ def operating_points(system: System, irradiance_w_m2=None, cell_temp_c=None, *, 
     eff = frame["efficiency"].to_numpy()[ok]
     if np.any(eff > 1.0 + ENERGY_BALANCE_TOLERANCE):
         raise PhysicsGuardError("an efficiency above 1 was computed; result withheld")
-    if system.bank is not None and system.controller.kind in ("direct", "pwm"):
+    if system.bank is not None and not system.controller.tracks:
         # Through a switch or a wire the bank cannot get more than the array's short-circuit current.
         over = frame["charge_current_a"].to_numpy()[ok] > frame["source_i_sc"].to_numpy()[ok] * (1 + 1e-9) + 1e-12
         if np.any(over):

@@ -343,7 +343,7 @@ def _equipment_block(system, summary: dict) -> str:
                                            ("rated output power", c.rated_power_w, 0, "W")):
             if value is not None:
                 rows.append((label, fmt(value, digits, unit)))
-        if c.kind == "mppt":
+        if c.tracks:
             eta = np.array(c.efficiency_curve, float)[:, 1]
             rows.append(("conversion efficiency", f"{100 * eta.min():.0f} to {100 * eta.max():.0f} % over its load"))
             rows.append(("input headroom above the bank", fmt(c.min_headroom_v, 1, "V")))

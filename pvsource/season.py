@@ -27,6 +27,7 @@ from pvsource.compiled import kernel
 from pvsource.errors import InputError
 from pvsource.module import model_notes
 from pvsource.operating import CHUNK_SIZE, operating_points, require_one_controller
+from pvsource.regulation import BANK_FULL, NONE_FULL, SOURCE, regulate
 from pvsource.system import System
 
 # States of charge at which the charge current is solved before the time loop
@@ -85,7 +86,7 @@ def group_conditions(system: System, weather: pd.DataFrame, transposition: str =
 
 
 @kernel
-def _soc_kernel(grid, free, emf, loads, per_ah, coulombic, soc0, kind, limits):  # pragma: no cover - compiled
+def _soc_kernel(grid, free, emf, loads, per_ah, coulombic, soc0, limits, regulated):  # pragma: no cover - compiled
     # limits: controller current, bank charge current, acceptance start, R,
     # absorption V, float V, float state of charge.
     i_ctrl, i_rate, start, r_bank, v_abs, v_float, float_soc = limits
@@ -104,24 +105,20 @@ def _soc_kernel(grid, free, emf, loads, per_ah, coulombic, soc0, kind, limits): 
         while j < k_max - 1 and soc > grid[j + 1]:
             j += 1
         w = (soc - grid[j]) / (grid[j + 1] - grid[j])
-        i_charge = free[j, k] + (free[j + 1, k] - free[j, k]) * w
+        i_free = free[j, k] + (free[j + 1, k] - free[j, k]) * w
         e = emf[j, k] + (emf[j + 1, k] - emf[j, k]) * w
-        if kind > 0 and i_charge > 0.0:
-            # The bank's own limits, exact in the state of charge (the grid
-            # carries only the smooth, unlimited current).
-            target = v_float if soc >= float_soc else v_abs
-            i_cv = max((target - e) / r_bank, 0.0)
-            share = min(max((1.0 - soc) / (1.0 - start), 0.0), 1.0)
-            i_charge = min(i_charge, i_rate, i_cv, share * i_rate)
-            if kind == 2:
-                i_charge = min(i_charge, i_ctrl)
         load_a = loads[k] / e
+        # What fills the bank within the step, the load served on the way included.
+        room = load_a + (1.0 - soc) / (per_ah * coulombic)
+        floating = soc >= float_soc
+        # The grid carries only the smooth, unlimited current: the limits
+        # apply here, exact in the state of charge.
+        i_charge, _, limit = regulate(i_free, SOURCE, soc, e, r_bank, i_ctrl, i_rate,
+                                      v_float if floating else v_abs, start, room, floating, regulated)
+        if limit == BANK_FULL or limit == NONE_FULL:
+            cap[k] = room
+            i_charge = room  # past full, an unregulated charge is not stored
         net = i_charge - load_a
-        room = (1.0 - soc) / (per_ah * coulombic)
-        if net > room:
-            # The bank fills within the step: it takes only what fits.
-            cap[k] = load_a + room
-            net = room
         soc += net * per_ah * (coulombic if net > 0.0 else 1.0)
         if soc < 0.0:
             # The bank is empty: the rest of this step's load goes unserved.
@@ -133,17 +130,18 @@ def _soc_kernel(grid, free, emf, loads, per_ah, coulombic, soc0, kind, limits): 
 
 
 def integrate_soc(charge_grid_a, emf_grid_v, load_w, step_h: float, capacity_ah: float, coulombic: float,
-                  soc0: float, grid=None, limits=None, kind: str = "direct"):
+                  soc0: float, grid=None, limits=None, regulated: bool = False):
     """State of charge at the start of every step, and the load left unmet [W].
 
     Coulomb counting, with charge scaled by the coulombic efficiency; the
     charge current and EMF at the current state of charge are interpolated
-    in the grid. This is the one loop over time, compiled with numba.
+    in the grid, and the regulation (:func:`pvsource.regulation.regulate`)
+    applied to it. This is the one loop over time, compiled with numba.
 
     Parameters
     ----------
     charge_grid_a, emf_grid_v : arrays (K, N)
-        Charge current and bank EMF at each grid state of charge (:data:`SOC_GRID`) and step.
+        Unlimited charge current and bank EMF at each grid state of charge (:data:`SOC_GRID`) and step.
     load_w : array (N,)
         Power drawn from the bank [W].
     step_h : float
@@ -159,9 +157,9 @@ def integrate_soc(charge_grid_a, emf_grid_v, load_w, step_h: float, capacity_ah:
     limits : tuple, optional
         (controller current [A], bank charge current [A], absorption start
         [-], bank resistance [ohm], absorption [V], float [V], float state of
-        charge [-]), applied exactly at each step's state of charge, for
-        ``kind`` "pwm" or "mppt"; the grid then holds the unlimited current.
-    kind : {"direct", "pwm", "mppt"}
+        charge [-]); none by default.
+    regulated : bool
+        Whether the controller regulates (False for a direct connection).
 
     Returns
     -------
@@ -173,12 +171,13 @@ def integrate_soc(charge_grid_a, emf_grid_v, load_w, step_h: float, capacity_ah:
         fills it (load included); infinite elsewhere.
     """
     grid = np.asarray(SOC_GRID if grid is None else grid, dtype=float)
-    code = {"direct": 0, "pwm": 1, "mppt": 2}[kind] if limits is not None else 0
-    limits = tuple(float(v) for v in (limits or (0.0,) * 7))
+    if limits is None:
+        limits, regulated = (np.inf, np.inf, 0.0, 1.0, np.inf, np.inf, np.inf), False
     soc_path, unmet, final, cap = _soc_kernel(grid, np.ascontiguousarray(charge_grid_a, dtype=float),
                                               np.ascontiguousarray(emf_grid_v, dtype=float),
                                               np.ascontiguousarray(load_w, dtype=float), step_h / capacity_ah,
-                                              float(coulombic), float(soc0), code, limits)
+                                              float(coulombic), float(soc0), tuple(float(v) for v in limits),
+                                              bool(regulated))
     return soc_path, unmet, float(final), cap
 
 
@@ -214,7 +213,7 @@ def charge_grid_a(system: System, g, t, done=lambda k: None, chunk_size: int = C
         rows = lit[start:start + chunk_size]
         state = parameters_at(system.module.parameters, g[rows], t[rows])
         net = Network(state, system.n_series, system.n_parallel, wiring.r_string_ohm, wiring.r_home_ohm)
-        side = array_side(net, wiring.r_feeder_ohm) if system.controller.kind == "mppt" else None
+        side = array_side(net, wiring.r_feeder_ohm) if system.controller.tracks else None
         for k, whole in enumerate(banks):
             bank_pt = whole if rows.size == size else whole.head(rows.size)
             charge[k, rows] = unlimited_current_a(net, system.controller, bank_pt, wiring.r_feeder_ohm,
@@ -381,12 +380,12 @@ def _solve_span(system: System, weather: pd.DataFrame, load_w: np.ndarray, step_
 
         v_abs, v_float = bank_model.charge_voltages_v(b)
         c = system.controller
-        limits = (c.max_output_a if c.max_output_a is not None else np.inf,
+        limits = (c.output_limit_a,
                   float(bank_model.max_charge_current_a(b)), b.chemistry.absorption_start_soc,
                   float(bank_model.internal_resistance_ohm(b)), float(v_abs), float(v_float), FLOAT_SOC)
         soc_path, unmet, state, cap = integrate_soc(charge_grid, emf_grid, load_w, step_h, b.capacity_ah,
                                                     b.chemistry.coulombic_efficiency, state, soc_grid(system),
-                                                    limits, c.kind)
+                                                    limits, c.regulates)
         del charge_grid, emf_grid
         steps = operating_points(system, g, t, soc=soc_path, charge_cap_a=cap, drift_check=False)
     else:
@@ -444,8 +443,8 @@ def _span_stats(steps: pd.DataFrame, step_h: float, whole_span: bool = True) -> 
         positive = lit[lit > 0]
         out["p95_charge_current_a"] = float(np.percentile(positive, 95)) if positive.size else 0.0
         if whole_span:
-            out["hours_by_stage"] = {str(k): float(v) * step_h for k, v in steps["stage"].value_counts().items()}
-            out["hours_by_limit"] = {str(k): float(v) * step_h for k, v in steps["limit"].value_counts().items()}
+            out["hours_by_stage"] = _hours_by(steps["stage"], step_h)
+            out["hours_by_limit"] = _hours_by(steps["limit"], step_h)
     if "soc" in steps:
         soc = steps["soc"].to_numpy()
         out["min_soc"] = float(soc.min())
@@ -455,6 +454,11 @@ def _span_stats(steps: pd.DataFrame, step_h: float, whole_span: bool = True) -> 
         starts = np.flatnonzero(np.concatenate([[True], np.diff(day) != 0]))
         out["days_reaching_full"] = int((np.maximum.reduceat(soc, starts) >= FULL_SOC).sum())
     return out
+
+
+def _hours_by(codes: pd.Series, step_h: float) -> dict:
+    """Hours in each stage or limit that occurs, longest first, by its words."""
+    return {str(k): float(v) * step_h for k, v in codes.value_counts().items() if v > 0}
 
 
 def clock_ns(index: pd.DatetimeIndex):

@@ -8,7 +8,7 @@ from pvlib import pvsystem, temperature
 
 from pvsource.checks import (DEFAULT_CELL_RISE_C, design_checks, design_currents, max_string_voc,
                              min_string_vmp, noct_cell_rise_c)
-from pvsource.controller import Controller
+from pvsource.controller import Controller, make_controller
 from pvsource.module import fit_datasheet, parameters_at
 from pvsource.system import Load
 
@@ -133,7 +133,7 @@ def test_bank_side_current_behind_a_tracker_is_its_rated_output(demo_module):
     from pvsource import bank as bank_model
     system = replace(make_system(demo_module, groups=((3, 2),), cables=(cable("bank", 2, 0.5),)),
                      bank=bank_model.make_bank("lfp", 8, 1, 280.0, 0.5, 25.0),
-                     controller=Controller(kind="mppt", max_output_a=40.0, max_input_v=150.0))
+                     controller=make_controller("mppt", max_output_a=40.0, max_input_v=150.0))
     d = design_currents(system)[0]
     assert d["circuit_current_a"] == 40.0 and d["conductor_current_a"] == 50.0
 
@@ -165,7 +165,7 @@ def test_hot_vmp_at_the_controller_input_subtracts_the_cable_drop(demo_module):
 def test_hot_vmp_against_a_bank_uses_its_absorption_voltage(demo_module):
     from pvsource import bank as bank_model
     system = replace(make_system(demo_module, groups=((1, 3),)),
-                     bank=bank_model.make_bank("lfp", 8, 1, 280.0, 0.5, 25.0), controller=Controller(kind="pwm"))
+                     bank=bank_model.make_bank("lfp", 8, 1, 280.0, 0.5, 25.0), controller=make_controller("pwm"))
     c = min_string_vmp(system, 35.0)
     assert c.limit == pytest.approx(8 * 3.55)
     assert "absorption" in c.detail
@@ -224,7 +224,7 @@ def test_bank_short_circuit_against_the_interrupting_rating(demo_module):
     run = CableRun("bank cable", "bank", 2.0, 0.4, size=parse_size("1/0 AWG"), fuse_a=150.0,
                    fuse_interrupting_a=5000.0)
     system = replace(make_system(demo_module, groups=((3, 2),), cables=(run,)), bank=bank,
-                     controller=Controller(kind="mppt", max_output_a=40.0, max_input_v=150.0))
+                     controller=make_controller("mppt", max_output_a=40.0, max_input_v=150.0))
     checks = {c.name: c for c in protection_checks(system)}
     r_cable = 2 * 2.0 * 0.122 / 304.8 * (1 - 0.00323 * 55)
     e, r_int = bank_model.open_circuit_v(bank, 1.0), bank_model.internal_resistance_ohm(bank, 1.0, 25.0)

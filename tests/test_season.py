@@ -83,6 +83,20 @@ def test_coulomb_counting_in_the_time_loop():
     assert soc[1] == 0.0 and unmet[0] == pytest.approx(260.0 * 0.5)
 
 
+@pytest.mark.parametrize("key", bank_model.CHEMISTRIES)
+def test_coulomb_counting_scales_charge_by_each_chemistrys_efficiency(key):
+    # Law (charge conservation, with the stated coulombic efficiency eta):
+    # 10 A for 5 h into 100 Ah from 0.2 stores 50 eta Ah, so soc = 0.2 + 50 eta / 100;
+    # clipped at full. Discharge is counted at face value (260 W at 26 V is
+    # 10 A: 2 h take 0.2 of 100 Ah) and clipped at empty.
+    eta = bank_model.load_chemistry(key).coulombic_efficiency
+    emf = np.full((len(SOC_GRID), 12), 26.0)
+    soc, _, final, _ = integrate_soc(np.full((len(SOC_GRID), 12), 10.0), emf, np.zeros(12), 1.0, 100.0, eta, 0.2)
+    assert soc[5] == pytest.approx(0.2 + 50 * eta / 100, rel=1e-12) and final == 1.0
+    soc, _, final, _ = integrate_soc(np.zeros((len(SOC_GRID), 12)), emf, np.full(12, 260.0), 1.0, 100.0, eta, 0.5)
+    assert soc[2] == pytest.approx(0.3, rel=1e-12) and final == 0.0
+
+
 def test_the_demo_is_reproducible(demo_run):
     system, weather, result = demo_run
     again = synthetic_weather(system)

@@ -1,0 +1,74 @@
+"""The one charge regulation: every limit, the stage and what binds, worked out by hand."""
+
+import numpy as np
+import pytest
+
+from pvsource import regulation as reg
+
+INF = float("inf")
+
+
+def cv(i_free, soc, emf, r, v_target, i_ctrl=INF, i_rate=INF, start=0.5, room=INF, floating=False, regulated=True,
+       free_limit=reg.SOURCE):
+    return reg.regulate(i_free, free_limit, soc, emf, r, i_ctrl, i_rate, v_target, start, room, floating, regulated)
+
+
+def test_constant_voltage_current_is_ohms_law_in_a_worked_example():
+    # Law (Ohm and Kirchhoff's voltage law on the Thevenin equivalent), worked
+    # by hand from the LFP preset's table: a 4-cell 100 Ah LFP battery at 50 %
+    # and 25 degC rests at E = 4 x 3.290 = 13.160 V behind R = 4 x 0.08 / 100 =
+    # 3.2 mOhm. Held at 13.200 V it takes 0.040 V / 3.2 mOhm = 12.5 A; held at
+    # or below its EMF it takes nothing (a charger cannot sink current).
+    i, stage, limit = cv(100.0, 0.5, 13.160, 0.0032, 13.200)
+    assert i == pytest.approx(12.5, rel=1e-9)
+    assert stage == reg.ABSORPTION and limit == reg.VOLTAGE_REGULATION
+    i, _, _ = reg.regulate_arrays(100.0, reg.SOURCE, 0.5, 13.160, 0.0032, INF, INF,
+                                  np.array([13.0, 13.160, 13.168]), 0.5, INF, False, True)
+    np.testing.assert_allclose(i, [0.0, 0.0, 2.5], atol=1e-9)
+    # The same voltage held as float: the stage says so.
+    assert cv(100.0, 0.5, 13.160, 0.0032, 13.200, floating=True)[1] == reg.FLOAT
+
+
+def test_the_tightest_limit_binds_and_is_named():
+    # Worked by hand: 50 A on offer into a bank at E = 26 V, R = 10 mOhm, target
+    # 28.4 V (Ohm: 240 A), rate 100 A, controller 40 A: the controller binds.
+    assert cv(50.0, 0.3, 26.0, 0.01, 28.4, i_ctrl=40.0, i_rate=100.0) == (40.0, reg.BULK, reg.CONTROLLER_OUTPUT)
+    # A 30 A charge rate is tighter.
+    assert cv(50.0, 0.3, 26.0, 0.01, 28.4, i_ctrl=40.0, i_rate=30.0) == (30.0, reg.BULK, reg.BANK_RATE)
+    # Near the target, Ohm's law: (26.2 - 26.0) / 0.01 = 20 A, absorption.
+    i, stage, limit = cv(50.0, 0.3, 26.0, 0.01, 26.2, i_ctrl=40.0, i_rate=30.0)
+    assert i == pytest.approx(20.0) and stage == reg.ABSORPTION and limit == reg.VOLTAGE_REGULATION
+    # Room for 5 A in the step: the bank fills, and the stage is float.
+    assert cv(50.0, 0.3, 26.0, 0.01, 28.4, i_ctrl=40.0, room=5.0) == (5.0, reg.FLOAT, reg.BANK_FULL)
+    # Too cold to charge (rate 0): nothing, and the rate is named.
+    assert cv(50.0, 0.3, 26.0, 0.01, 28.4, i_rate=0.0) == (0.0, reg.IDLE, reg.BANK_RATE)
+    # Less on offer than any limit: the source binds, or what the input window made of it.
+    assert cv(10.0, 0.3, 26.0, 0.01, 28.4, i_ctrl=40.0) == (10.0, reg.BULK, reg.SOURCE)
+    assert cv(0.0, 0.3, 26.0, 0.01, 28.4, free_limit=reg.DARK) == (0.0, reg.IDLE, reg.DARK)
+
+
+def test_acceptance_tapers_straight_to_zero_at_full():
+    # Common practice (the presets' absorption_start_soc): full rate at the
+    # start, a straight line to zero at full. From 0.8 with a 40 A rate, at
+    # 0.9 the bank accepts 40 x (1 - 0.9) / (1 - 0.8) = 20 A, at 1.0 nothing.
+    for soc, expected in ((0.7, 40.0), (0.8, 40.0), (0.9, 20.0), (0.95, 10.0), (1.0, 0.0)):
+        i, _, _ = cv(100.0, soc, 26.0, 0.01, 30.0, i_rate=40.0, start=0.8)
+        assert i == pytest.approx(expected, abs=1e-9), soc
+
+
+def test_a_direct_connection_is_not_limited_but_says_what_it_breaks():
+    # Nothing regulates a wire: the current is what the array gives; the limit
+    # code names the first bound it breaks (full, cold, rate, voltage).
+    assert cv(50.0, 0.5, 26.0, 0.01, 28.4, i_rate=100.0, regulated=False) == (50.0, reg.UNREGULATED, reg.NONE)
+    assert cv(50.0, 0.5, 26.0, 0.01, 28.4, room=20.0, regulated=False)[2] == reg.NONE_FULL
+    assert cv(50.0, 0.5, 26.0, 0.01, 28.4, i_rate=0.0, regulated=False)[2] == reg.NONE_COLD
+    assert cv(50.0, 0.5, 26.0, 0.01, 28.4, i_rate=40.0, regulated=False)[2] == reg.NONE_RATE
+    # 26 + 50 x 0.01 = 26.5 V at the terminals, above a 26.4 V target.
+    assert cv(50.0, 0.5, 26.0, 0.01, 26.4, regulated=False)[2] == reg.NONE_OVER_V
+    # A bank driving current back into a dark array.
+    assert cv(-1.0, 0.5, 26.0, 0.01, 28.4, regulated=False, free_limit=reg.DARK)[1:] == (reg.DISCHARGING, reg.DARK)
+
+
+def test_every_code_has_words():
+    assert len(reg.STAGE_WORDS) == 6 and len(reg.LIMIT_WORDS) == 13
+    assert len(set(reg.LIMIT_WORDS)) == len(reg.LIMIT_WORDS)
