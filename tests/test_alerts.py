@@ -13,7 +13,7 @@ from pvsource.alerts import ALERTS, alert_codes, alert_hours, names, point_alert
 from pvsource.array import StringGroup
 from pvsource.bank import make_bank
 from pvsource.conductors import parse_size
-from pvsource.controller import Controller
+from pvsource.controller import make_controller
 from pvsource.module import DiodeParameters, fit_datasheet, module_from_parameters
 from pvsource.operating import operating_points
 from pvsource.system import Load, System
@@ -42,7 +42,7 @@ def _pvlib_key_points(r, irradiance_w_m2, cell_temp_c):
 
 def _tracker_system(module, n_s, n_p, max_output_a=40.0, bank_temp_c=20.0, chemistry="lfp", cells=8,
                     capacity_ah=200.0, soc=0.5, **controller):
-    c = Controller(name="tracker", kind="mppt", max_input_v=150.0, max_output_a=max_output_a, **controller)
+    c = make_controller("mppt", name="tracker", max_input_v=150.0, max_output_a=max_output_a, **controller)
     bank = make_bank(chemistry, cells, 1, capacity_ah, soc, bank_temp_c)
     return System(module=module, groups=(StringGroup("roof", n_s, n_p),), controller=c, bank=bank, name="t")
 
@@ -154,7 +154,7 @@ def test_cold_charge_limit_of_lead_acid_is_its_own(cec):
 
 def _direct_system(module, n_p, chemistry, cells, capacity_ah, soc, bank_temp_c):
     bank = make_bank(chemistry, cells, 1, capacity_ah, soc, bank_temp_c)
-    return System(module=module, groups=(StringGroup("roof", 1, n_p),), controller=Controller(kind="direct"),
+    return System(module=module, groups=(StringGroup("roof", 1, n_p),), controller=make_controller("direct"),
                   bank=bank, name="direct")
 
 
@@ -300,7 +300,9 @@ def test_alert_hours_agree_hourly_and_one_minute(cold_minutes):
     a, b = run_season(system, means).summary, run_season(system, fine).summary
     for name in ("pv_input_over_max_v", "cable_over_ampacity"):
         hourly_h, minute_h = a["alert_hours"][name], b["alert_hours"][name]
-        assert minute_h > 5.0
+        # The tracker stays off while the array's Voc is above its rating, so
+        # the feeder carries current only in the milder bright hours (about 4 h).
+        assert minute_h > 3.0
         # Law: an alert's duration does not depend on the time step; hourly
         # steps count whole hours, so each of the ten days' two edges may be
         # off by half an hour: within 10 % or 5 h.
