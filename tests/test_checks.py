@@ -344,8 +344,8 @@ def _two_trackers(demo_module, cables=()):
     from pvsource import bank as bank_model
     from pvsource.system import ControllerGroups
     base = make_system(demo_module, groups=((4, 2), (3, 3)), cables=cables)
-    east = Controller(name="east", kind="mppt", max_input_v=150.0, max_output_a=40.0, max_input_isc_a=30.0)
-    west = Controller(name="west", kind="mppt", max_input_v=150.0, max_output_a=30.0, max_input_isc_a=30.0)
+    east = make_controller("mppt", name="east", max_input_v=150.0, max_output_a=40.0, max_input_isc_a=30.0)
+    west = make_controller("mppt", name="west", max_input_v=150.0, max_output_a=30.0, max_input_isc_a=30.0)
     return replace(base, bank=bank_model.make_bank("lfp", 8, 1, 280.0, 0.5, 25.0),
                    controllers=(ControllerGroups(east, ("g1",)), ControllerGroups(west, ("g2",))))
 
