@@ -80,6 +80,11 @@ class Check:
     advisory : bool
         True for a check that warns of lost energy rather than a hazard or a
         code rule: it never fails ``check`` nor excludes a design.
+    unverified : bool
+        True for a check that must be made but cannot be: a run whose
+        ampacity is unknown (no size, or no table value, and no
+        ``ampacity_a``). ``passed`` is None, and ``check``'s result is not a
+        pass (:func:`verdict_of`).
     """
 
     name: str
@@ -93,6 +98,7 @@ class Check:
     rule: str = ""
     data: dict = field(default_factory=dict)
     advisory: bool = False
+    unverified: bool = False
 
     @property
     def failed(self) -> bool:
@@ -101,9 +107,9 @@ class Check:
 
     @property
     def verdict(self) -> str:
-        """Status code for the edges: ``pass``, ``fail``, ``advisory`` (failed but advisory) or ``none``."""
+        """Status code for the edges: ``pass``, ``fail``, ``advisory`` (failed but advisory), ``unverified`` or ``none``."""
         if self.passed is None:
-            return "none"
+            return "unverified" if self.unverified else "none"
         if self.passed:
             return "pass"
         return "advisory" if self.advisory else "fail"
@@ -341,6 +347,7 @@ def design_currents(system: System, defaults: amp.Installation = amp.Installatio
 
 #: The rules of the conductor check, in words, by the size's standard.
 AMPACITY_RULE = "ampacity: the conductor must carry 125 % of the circuit's maximum current"
+UNVERIFIED_RULE = "ampacity unknown: a conductor whose rating is unknown cannot be shown to carry its current"
 PROTECTION_RULE = ("overload protection: the conductor's current-carrying capacity must be at least the rating of "
                    "the fuse or breaker the circuit needs (IEC 60364-4-43 433.1: I_B <= I_n <= I_z, "
                    "I_2 <= 1.45 I_z)")
@@ -351,11 +358,13 @@ def conductor_current_checks(system: System, defaults: amp.Installation = amp.In
     checks = []
     for d in design_currents(system, defaults):
         run = next(r for r in system.cables if r.name == d["run"])
-        if d["ampacity_limit_a"] is None and run.size is None:
-            continue
         limit = d["ampacity_limit_a"]
         if limit is None:
-            against, rule = "nothing: no table value for this run; give its ampacity_a", AMPACITY_RULE
+            # A conductor whose rating is unknown cannot be passed: it is reported, and the result is no pass.
+            why = ("no size (resistance_ohm_per_km only), so no table to read" if run.size is None else
+                   f"no table value for {run.size.label} {run.material} in this installation")
+            against, rule = (f"nothing: {why}; give the run's size or its ampacity_a (the cable's own rating)",
+                             UNVERIFIED_RULE)
         elif d["protection"] is None:
             against, rule = f"{d['ampacity_basis']}: min(termination value, 1.25 x corrected ampacity)", AMPACITY_RULE
         else:
@@ -372,7 +381,7 @@ def conductor_current_checks(system: System, defaults: amp.Installation = amp.In
             "IEC 60364-4-43 433.1 for metric sizes",
             "max", f"{d['current_basis']}, x 1.25 for the conductor; against {against}", rule,
             {"circuit_current_a": d["circuit_current_a"], "ampacity_a": d["ampacity_a"],
-             "protection": d["protection"], "protection_a": d["protection_a"]}))
+             "protection": d["protection"], "protection_a": d["protection_a"]}, unverified=limit is None))
     return checks
 
 
@@ -507,9 +516,22 @@ def protection_checks(system: System, defaults: amp.Installation = amp.Installat
 
 
 def all_passed(checks: list[Check]) -> bool | None:
-    """True when every check with a limit passes, False when any non-advisory one fails, None with nothing to compare."""
+    """True when every check with a limit passes; False when any non-advisory one fails or is unverified; None
+    with nothing to compare."""
+    if any(c.unverified for c in checks):
+        return False
     verdicts = [c.passed for c in checks if c.passed is not None and not c.advisory]
     return all(verdicts) if verdicts else None
+
+
+def verdict_of(checks: list[Check]) -> str:
+    """The result as a code: ``fail`` (a check fails), ``unverified`` (none fails, but one could not be made),
+    ``pass``, or ``none`` (nothing to compare)."""
+    if any(c.failed for c in checks):
+        return "fail"
+    if any(c.unverified for c in checks):
+        return "unverified"
+    return {True: "pass", None: "none"}[all_passed(checks)]
 
 
 def design_checks(system: System, min_air_c: float, max_air_c: float,

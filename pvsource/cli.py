@@ -791,7 +791,7 @@ def check(
             raise InputError(name, None, with_hint(f"expected {lo:g} to {hi:g} degC, got {value!r}", hint))
     if min_temp >= max_temp:
         raise InputError("--min-air-c", None, f"must be below --max-air-c ({max_temp:g} degC)")
-    from pvsource.checks import all_passed, cell_rise, design_checks, design_currents
+    from pvsource.checks import all_passed, cell_rise, design_checks, design_currents, verdict_of
     from pvsource.config import load_system
     from pvsource.module import model_notes
     from pvsource.terminal import render_checks
@@ -803,7 +803,7 @@ def check(
     rec = {"system": system.name, "min_air_c": min_temp, "max_air_c": max_temp, "cell_rise_c": rise_c,
            "cell_rise_basis": rise_basis,
            "checks": [c.record() for c in checks], "design_currents": design_currents(system, inst),
-           "all_passed": all_passed(checks),
+           "all_passed": all_passed(checks), "verdict": verdict_of(checks),
            "notes": model_notes(system.module),
            "cautions": cautions.for_command("check", system)}
     _emit_json(rec) if as_json else typer.echo(render_checks(system, rec))

@@ -486,6 +486,8 @@ def checks_section(checks, t_min: float, t_max: float) -> str:
                    None: '<span class="badge none">no limit</span>'}[c.passed]
         if c.passed is False and c.advisory:
             verdict = '<span class="badge advice">advisory</span>'
+        if c.unverified:
+            verdict = '<span class="badge fail">unverified</span>'
         bound = "" if c.limit is None else ("at most " if c.sense == "max" else "at least ") + fmt(c.limit, 1, c.unit)
         rows.append((_esc(check_label(c.name)), _esc(fmt(c.value, 1, c.unit)), _esc(bound or "not given"),
                      pct(c.margin) if c.margin is not None else "", verdict, _esc(c.basis)))

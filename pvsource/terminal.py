@@ -325,9 +325,12 @@ def render_checks(system: System, rec: dict) -> str:
              + (", from the module's NOCT)" if "NOCT" in rec.get("cell_rise_basis", "") else ")")]
     lines.append(_rule("Checks"))
     for c in rec["checks"]:
-        state = {"pass": "pass", "fail": "FAIL", "advisory": "note", "none": "----"}[c["verdict"]]
-        limit = "no limit given" if c["limit"] is None else f"{'<=' if c['sense'] == 'max' else '>='} " \
-                                                             f"{c['limit']:.2f} {c['unit']}"
+        state = {"pass": "pass", "fail": "FAIL", "advisory": "note", "none": "----",
+                 "unverified": "UNVERIFIED"}[c["verdict"]]
+        if c["limit"] is not None:
+            limit = f"{'<=' if c['sense'] == 'max' else '>='} {c['limit']:.2f} {c['unit']}"
+        else:
+            limit = "ampacity unknown" if c["verdict"] == "unverified" else "no limit given"
         margin = "" if c["margin"] is None else f"  margin {100 * c['margin']:+.1f} %"
         lines.append(f"  [{state}] {c['name']}: {c['value']:.2f} {c['unit']} ({limit}){margin}")
         lines.append(f"         {c['detail']}")
@@ -339,8 +342,10 @@ def render_checks(system: System, rec: dict) -> str:
             lines.append(f"  {d['run']:<24} circuit {d['circuit_current_a']:7.2f} A   conductor "
                          f"{d['conductor_current_a']:7.2f} A   {rating}")
     lines.extend(f"\nNOTE: {n}" for n in rec.get("notes", ()))
-    verdict = {True: "all checks pass", False: "some checks FAIL (exit code 1)", None: "nothing to compare"}
-    lines.append(f"\n{verdict[rec['all_passed']]}")
+    verdict = {"pass": "all checks pass", "fail": "some checks FAIL (exit code 1)", "none": "nothing to compare",
+               "unverified": "NOT VERIFIED: no check fails, but a conductor's ampacity is unknown, so the design "
+                             "is not shown safe (exit code 1)"}
+    lines.append(f"\n{verdict[rec['verdict']]}")
     lines.append(render_caution_list(rec["cautions"]))
     return "\n".join(lines)
 

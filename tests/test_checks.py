@@ -145,9 +145,11 @@ def test_conductor_check_needs_a_size_or_a_rating(demo_module):
     names = [c.name for c in checks]
     assert names[:2] == ["max_string_voc", "min_string_vmp"]
     current = [c for c in checks if c.name.startswith("conductor_current")]
-    assert len(current) == 1
+    assert len(current) == 2
     assert current[0].value == pytest.approx(1.5625 * 3 * 9.8)
     assert current[0].passed is False and current[0].margin < 0
+    # The home run has neither a size nor a rating: reported as unverified, never skipped.
+    assert current[1].unverified and current[1].passed is None
 
 
 def test_hot_vmp_at_the_controller_input_subtracts_the_cable_drop(demo_module):
@@ -392,3 +394,31 @@ def test_the_interconnect_carries_every_controllers_output(demo_module):
     assert currents["east out"]["circuit_current_a"] == pytest.approx(40.0)
     assert currents["west feeder"]["circuit_current_a"] == pytest.approx(1.25 * 3 * 9.8)
     assert currents["links"]["circuit_current_a"] == pytest.approx(40.0 + 30.0)
+
+
+def test_a_run_without_a_known_ampacity_is_unverified_not_passed(demo_module):
+    # A run given only by resistance_ohm_per_km has no size, so no table: its conductor check cannot be made.
+    # It must be reported, and the result is not a pass; its own ampacity_a makes it checkable.
+    from pvsource.checks import all_passed, verdict_of
+    from pvsource.wiring import CableRun
+    run = CableRun("feeder", "feeder", 10.0, 2.0)
+    checks = design_checks(make_system(demo_module, groups=((2, 3),), cables=(run,)), -10.0, 35.0)
+    c = next(c for c in checks if c.name == "conductor_current[feeder]")
+    assert c.unverified and c.passed is None and c.verdict == "unverified" and not c.failed
+    assert c.value == pytest.approx(1.5625 * 3 * 9.8)   # NEC 690.8: 3 strings x Isc 9.8 A x 1.25 x 1.25
+    assert "size" in c.detail and "ampacity_a" in c.detail and c.reason().startswith("ampacity unknown")
+    # No limit in the file for the voltages (no controller, mpp load): without the run nothing compares.
+    assert all_passed(checks) is False and verdict_of(checks) == "unverified"
+    rated = design_checks(make_system(demo_module, groups=((2, 3),), cables=(replace(run, ampacity_a=60.0),)),
+                          -10.0, 35.0)
+    c = next(c for c in rated if c.name == "conductor_current[feeder]")
+    assert c.passed is True and c.limit == 60.0 and verdict_of(rated) == "pass"
+    # A sized run the tables do not hold (400 mm2 copper: IEC 60364-5-52 stops at 300) is unverified too.
+    from pvsource.conductors import parse_size
+    big = design_checks(make_system(demo_module, groups=((2, 3),),
+                                    cables=(replace(run, size=parse_size("400 mm2")),)), -10.0, 35.0)
+    assert next(c for c in big if c.name == "conductor_current[feeder]").unverified
+    # A failure still reads as a failure when another check is unverified.
+    small = CableRun("lead", "feeder", 10.0, 2.0, size=parse_size("1.5 mm2"))
+    both = design_checks(make_system(demo_module, groups=((2, 3),), cables=(run, small)), -10.0, 35.0)
+    assert verdict_of(both) == "fail"

@@ -722,6 +722,33 @@ def test_an_unlikely_value_runs_with_a_one_line_note(capsys, tmp_path):
     assert code == 0 and err.startswith(f"pvsource: note: {path}: [array].irradiance_w_m2: ") and "700 W/m2" in err
 
 
+def test_check_does_not_pass_runs_it_cannot_judge(capsys, tmp_path):
+    # The two-faces example gives its runs by resistance_ohm_per_km only: no size, so no ampacity. Before,
+    # check said "nothing to compare" and exited 0; now each run is an unverified finding and exit 1.
+    code, out, _ = run(capsys, "check", TWO_FACES, "--min-air-c", "-20", "--max-air-c", "40", "--json")
+    rec = json.loads(out)
+    unverified = [c["name"] for c in rec["checks"] if c["verdict"] == "unverified"]
+    assert code == 1 and rec["verdict"] == "unverified" and rec["all_passed"] is False
+    assert unverified == ["conductor_current[east home run]", "conductor_current[west home run]",
+                          "conductor_current[combiner to tracker]"]
+    code, out, _ = run(capsys, "check", TWO_FACES, "--min-air-c", "-20", "--max-air-c", "40")
+    assert code == 1 and "[UNVERIFIED] conductor_current[east home run]" in out and "NOT VERIFIED" in out
+    # Each run's own rating makes it checkable: 2 strings x 9.8 A x 1.5625 = 30.6 A on the east home run
+    # (NEC 690.8) against 35 A, and so on; nothing else has a limit, so the result is a pass.
+    text = (DATA / "example-two-faces.toml").read_text().replace(
+        'file = "modules/ashgrove-ag300.toml"', f'file = "{(DATA / "modules" / "ashgrove-ag300.toml").as_posix()}"')
+    text = text.replace("resistance_ohm_per_km = 5.09\n", "resistance_ohm_per_km = 5.09\nampacity_a = 35\n")
+    text = text.replace("resistance_ohm_per_km = 5.09    # about 4 mm2 copper\n",
+                        "resistance_ohm_per_km = 5.09\nampacity_a = 35\n")
+    text = text.replace("resistance_ohm_per_km = 1.95    # about 10 mm2 copper\n",
+                        "resistance_ohm_per_km = 1.95\nampacity_a = 50\n")
+    path = tmp_path / "rated.toml"
+    path.write_text(text)
+    code, out, _ = run(capsys, "check", str(path), "--min-air-c", "-20", "--max-air-c", "40", "--json")
+    rec = json.loads(out)
+    assert code == 0 and rec["verdict"] == "pass" and rec["all_passed"] is True
+
+
 def test_check_names_each_controllers_checks(capsys):
     # The east/west example: each face on its own tracker. 3 modules x 40.1 V x
     # (1 + 0.0029 x 40) = 134.3 V at -15 degC (NEC 690.7(A)(1), by hand) on each.
