@@ -77,6 +77,9 @@ class AlertKind:
         ``"max"`` (the value must not exceed the limit) or ``"min"``.
     basis : str
         The standard, or "common practice", it rests on.
+    about : str
+        The JSON key naming what it is about where there can be several
+        (``run``, ``controller``); "" where there is one.
     """
 
     name: str
@@ -85,21 +88,22 @@ class AlertKind:
     label: str
     sense: str
     basis: str
+    about: str = ""
 
 
 ALERTS = (
     AlertKind("pv_input_over_max_v", 0, "V", "PV input above the controller's maximum voltage", "max",
-              "NEC 690.7(A): the maximum voltage is Voc at the cells' temperature"),
+              "NEC 690.7(A): the maximum voltage is Voc at the cells' temperature", "controller"),
     AlertKind("charge_below_min_temp", 1, "degC", "charging possible below the bank's minimum charging temperature",
               "min", "the chemistry's min_charge_temp_c (common practice)"),
     AlertKind("charge_over_bank_rate", 2, "A", "charge current above the bank's rate", "max",
               "the chemistry's max_charge_c_rate x capacity"),
     AlertKind("pv_input_over_max_isc", 3, "A", "PV short-circuit current above the controller's input rating", "max",
-              "NEC 690.8(A): the array's Isc at the point's conditions"),
+              "NEC 690.8(A): the array's Isc at the point's conditions", "controller"),
     AlertKind("bank_over_absorption_v", 4, "V", "bank voltage above its absorption voltage", "max",
               "the chemistry's absorption voltage at the bank's temperature (IEEE Std 1361)"),
     AlertKind("cable_over_ampacity", 5, "A", "cable current above its ampacity", "max",
-              "NEC 310.14 and 110.14(C); IEC 60364-5-52"),
+              "NEC 310.14 and 110.14(C); IEC 60364-5-52", "run"),
     AlertKind("string_reverse_over_fuse", 6, "A", "reverse current into a string above the module's rating", "max",
               "the module's maximum series fuse (IEC 61730-2 reverse current test; NEC 690.9)"),
 )
@@ -144,16 +148,43 @@ def _measure(name, value, limit, active, subject="") -> Measure:
     return Measure(BY_NAME[name], value, np.broadcast_to(np.asarray(limit, float), value.shape), active, subject)
 
 
-def start_floor_v(system: System, bank_emf_v):
-    """The lowest array voltage at which the controller can push charge into the bank [V].
+def start_floor_v(controller, bank_emf_v):
+    """The lowest array voltage at which ``controller`` can push charge into the bank [V].
 
     A tracker needs its input above the bank by its headroom and above its
     own minimum; a switch or a wire needs the bank's EMF plus the diode drop.
     """
-    c = system.controller
+    c = controller
     if c.tracks:
         return np.maximum(bank_emf_v + c.min_headroom_v, c.min_input_v or 0.0)
     return bank_emf_v + c.diode_drop_v
+
+
+def controller_inputs(system: System, frame):
+    """Each controller, its name, and the open-circuit voltage and short-circuit current at its input [V], [A].
+
+    One controller for the whole array sees the array's own ``source_v_oc``
+    and ``source_i_sc``. Several each see their own groups: the highest of
+    their groups' open-circuit voltages (exact for one group; for groups of
+    unequal strings on one input, the voltage before they share it) and the
+    sum of their short-circuit currents, from each group's irradiance and
+    cell temperature on the row.
+    """
+    if not system.several_controllers:
+        for a in system.controllers:
+            yield a.controller, "", _col(frame, "source_v_oc"), _col(frame, "source_i_sc")
+        return
+    from pvsource.module import key_points, parameters_at
+
+    names = system.group_names
+    g = np.stack([_col(frame, f"group_{n}_irradiance_w_m2") for n in names], axis=-1)
+    t = np.stack([_col(frame, f"group_{n}_cell_temp_c") for n in names], axis=-1)
+    own = key_points(parameters_at(system.module.parameters, g, t))
+    for a in system.controllers:
+        k = [names.index(n) for n in a.groups]
+        voc = (system.n_series[k] * own["v_oc"][:, k]).max(axis=-1)
+        isc = (system.n_parallel[k] * own["i_sc"][:, k]).sum(axis=-1)
+        yield a.controller, a.name, voc, isc
 
 
 def _rms_on(frame, current):
@@ -163,24 +194,42 @@ def _rms_on(frame, current):
 
 
 def _run_currents(system: System, frame):
-    """Each run's current at every row [A], by its role (None where the point says nothing about it)."""
-    from pvsource.wiring import PV_SIDE_ROLES
+    """Each run and its current at every row [A], by its role; runs the point says nothing about are left out.
 
+    A string lead carries one string's current, a home run its group's, a
+    feeder its controller's groups' (the whole array's with one controller).
+    Behind a tracker the bank runs carry its smoothed output; behind a switch
+    or a wire, the array's current. With several controllers a bank run
+    carries its own controller's output, which a row gives only as
+    ``controller_<name>_charge_current_a``; the interconnects carry the total.
+    """
     strings = {g.name: g.strings for g in system.groups}
-    bank_side = None
-    if "charge_current_a" in frame and system.controller is not None and system.controller.tracks:
-        bank_side = np.abs(_col(frame, "charge_current_a"))  # the converter's smoothed output
+    group_i = {n: _col(frame, f"group_{n}_i_a") for n in system.group_names}
+    charge = _col(frame, "charge_current_a")
+    several = system.several_controllers
     for run in system.cables:
-        if run.role in PV_SIDE_ROLES or bank_side is None:
-            if run.role == "string":
-                i = np.abs(_col(frame, f"group_{run.group}_i_a")) / strings[run.group]
-            elif run.role == "home-run":
-                i = np.abs(_col(frame, f"group_{run.group}_i_a"))
-            else:
-                i = np.abs(_col(frame, "i"))  # feeder; and the bank side of a switch or a wire
-            yield run, _rms_on(frame, i)
-        else:
-            yield run, bank_side
+        mine = _run_controller(system, run)
+        if run.role == "string":
+            yield run, _rms_on(frame, np.abs(group_i[run.group]) / strings[run.group])
+        elif run.role == "home-run":
+            yield run, _rms_on(frame, np.abs(group_i[run.group]))
+        elif run.role == "feeder" or charge is None or not (several or mine.controller.tracks):
+            # The PV current: a feeder's, or the whole load side's without a bank or behind a switch or a wire.
+            feeds = mine.groups if mine is not None and run.role == "feeder" else system.group_names
+            yield run, _rms_on(frame, np.abs(sum(group_i[n] for n in feeds)))
+        elif run.role == "interconnect" or not several:
+            yield run, np.abs(charge)  # a tracker's smoothed output, or every controller's together
+        elif f"controller_{mine.name}_charge_current_a" in frame:
+            yield run, np.abs(_col(frame, f"controller_{mine.name}_charge_current_a"))
+
+
+def _run_controller(system: System, run):
+    """The controller (``ControllerGroups``) a run belongs to, or None where there is none."""
+    if run.group is not None:
+        return system.controller_of(run.group)
+    if len(system.controllers) == 1:
+        return system.controllers[0]
+    return next((a for a in system.controllers if a.name == run.controller), None)
 
 
 def measures(system: System, frame) -> list[Measure]:
@@ -202,18 +251,23 @@ def measures(system: System, frame) -> list[Measure]:
     from pvsource.wiring import run_ampacity
 
     out = []
-    c, b = system.controller, system.bank
-    voc, isc = _col(frame, "source_v_oc"), _col(frame, "source_i_sc")
-    if c is not None and c.max_input_v is not None:
-        out.append(_measure("pv_input_over_max_v", voc, c.max_input_v, _over(voc, c.max_input_v)))
-    if c is not None and c.max_input_isc_a is not None:
-        out.append(_measure("pv_input_over_max_isc", isc, c.max_input_isc_a, _over(isc, c.max_input_isc_a)))
-    if b is not None and "bank_emf_v" in frame:
-        emf, temp = _col(frame, "bank_emf_v"), _col(frame, "bank_temp_c")
+    b = system.bank
+    emf = _col(frame, "bank_emf_v")
+    could = np.zeros(len(frame), bool)
+    for c, name, voc, isc in controller_inputs(system, frame):
+        if c.max_input_v is not None:
+            out.append(_measure("pv_input_over_max_v", voc, c.max_input_v, _over(voc, c.max_input_v), name))
+        if c.max_input_isc_a is not None:
+            out.append(_measure("pv_input_over_max_isc", isc, c.max_input_isc_a, _over(isc, c.max_input_isc_a),
+                                name))
+        if emf is not None:
+            with np.errstate(invalid="ignore"):
+                could |= (isc > 0.0) & (voc > start_floor_v(c, emf))
+    if b is not None and emf is not None:
+        temp = _col(frame, "bank_temp_c")
         charge, r = _col(frame, "charge_current_a"), _col(frame, "bank_r_ohm")
         chem = b.chemistry
         with np.errstate(invalid="ignore"):
-            could = (isc > 0.0) & (voc > start_floor_v(system, emf))
             cold = could & (temp < chem.min_charge_temp_c)
         out.append(_measure("charge_below_min_temp", temp, chem.min_charge_temp_c, cold))
         rate = chem.max_charge_c_rate * b.capacity_ah
@@ -265,15 +319,19 @@ def message(m: Measure, k: int) -> str:
                                  "input rating",
         "bank_over_absorption_v": f"the bank's terminals reach {v:.2f} V, above its {lim:.2f} V absorption voltage: "
                                   "nothing regulates the charge",
-        "cable_over_ampacity": f"{m.subject}: {v:.1f} A, above the conductor's {lim:.1f} A ampacity",
+        "cable_over_ampacity": f"{v:.1f} A, above the conductor's {lim:.1f} A ampacity",
         "string_reverse_over_fuse": f"{v:.2f} A flows backwards into a string, above the module's {lim:g} A maximum "
                                     "series fuse",
     }[m.kind.name]
-    return f"{m.kind.label}: {text} ({m.kind.basis})"
+    return f"{m.kind.label}: {m.subject + ': ' if m.subject else ''}{text} ({m.kind.basis})"
 
 
 def point_alerts(system: System, frame, k: int = 0) -> list[dict]:
-    """The alerts that fire at row ``k`` as JSON-ready dicts: name, value, limit, unit, message (and run)."""
+    """The alerts that fire at row ``k`` as JSON-ready dicts: name, value, limit, unit, message.
+
+    Where there can be several of one alert, the dict also names what it is
+    about: the ``run`` of a cable, the ``controller`` when there are several.
+    """
     out = []
     for m in measures(system, frame):
         if not m.active[k]:
@@ -281,7 +339,7 @@ def point_alerts(system: System, frame, k: int = 0) -> list[dict]:
         rec = {"name": m.kind.name, "value": float(m.value[k]), "limit": float(m.limit[k]), "unit": m.kind.unit,
                "message": message(m, k)}
         if m.subject:
-            rec["run"] = m.subject
+            rec[m.kind.about] = m.subject
         out.append(rec)
     return out
 

@@ -8,7 +8,7 @@ import pytest
 from pvlib import pvsystem
 
 import reference as ref
-from conftest import DEMO_DATASHEET, run_cli
+from conftest import DEMO_DATASHEET, ROOT, run_cli
 from pvsource.alerts import ALERTS, alert_codes, alert_hours, names, point_alerts
 from pvsource.array import StringGroup
 from pvsource.bank import make_bank
@@ -365,3 +365,31 @@ def test_season_text_leads_with_alert_hours():
     text = render_season(System(module=None, groups=()), summary, "out")
     assert text.splitlines()[2].startswith("ALERT: PV input above the controller's maximum voltage: 50.0 h")
     assert "ampacity" not in text.split("Energy over the span")[0]
+
+
+def test_several_controllers_each_see_their_own_groups():
+    import pandas as pd
+
+    from pvsource.config import load_system
+    from pvsource.system import ControllerGroups
+
+    # The east-west example, both trackers rated 130 V here: at -20 degC and
+    # 800 W/m2 the east face's three modules exceed it; the west face, in
+    # diffuse light at 40 degC, does not. Each controller is judged on its own
+    # groups, not on the two faces together.
+    base = load_system(ROOT / "data" / "example-east-west.toml")
+    controllers = tuple(ControllerGroups(replace(a.controller, max_input_v=130.0), a.groups)
+                        for a in base.controllers)
+    system = replace(base, controllers=controllers)
+    g, t = {"east": 800.0, "west": 200.0}, {"east": -20.0, "west": 40.0}
+    frame = pd.DataFrame({**{f"group_{n}_irradiance_w_m2": [g[n]] for n in g},
+                          **{f"group_{n}_cell_temp_c": [t[n]] for n in t},
+                          **{f"group_{n}_i_a": [0.0] for n in g}})
+    got = {a["controller"]: a for a in point_alerts(system, frame) if a["name"] == "pv_input_over_max_v"}
+    # Reference: pvlib singlediode (Lambert W) on the module's parameters at
+    # each face's conditions, three modules in series.
+    voc = {n: 3 * float(ref.key_points(ref.diode_at(system.module.parameters, g[n], t[n]))["v_oc"]) for n in g}
+    assert voc["east"] > 130.0 > voc["west"]
+    assert list(got) == ["east tracker"]
+    assert got["east tracker"]["value"] == pytest.approx(voc["east"], rel=1e-6)
+    assert got["east tracker"]["message"].startswith("PV input above the controller's maximum voltage: east tracker:")
