@@ -307,7 +307,7 @@ def names(code: int) -> list[str]:
 
 def message(m: Measure, k: int) -> str:
     """One alert at row ``k`` in words, with its value, its limit and why it matters."""
-    v, lim, u = float(m.value[k]), float(m.limit[k]), m.kind.unit
+    v, lim = float(m.value[k]), float(m.limit[k])
     text = {
         "pv_input_over_max_v": f"the array's open-circuit voltage {v:.1f} V at these cells is above the controller's "
                                f"{lim:g} V maximum input; the controller sees it at every start-up, whatever its "
