@@ -24,6 +24,7 @@ from pvsource.bank import CHEMISTRIES, Bank, make_bank
 from pvsource.bank import charge_voltages_v as bank_charge_voltages
 from pvsource.controller import DEFAULT_EFFICIENCY_CURVE, KINDS, Controller, make_controller
 from pvsource.errors import InputError, note
+from pvsource.generator import MAX_STOP_SOC, Generator
 from pvsource.inputs import MAX_TOML_BYTES, check_toml_shape, read_bounded
 from pvsource.module import Datasheet, DiodeParameters, Module, fit_datasheet, module_from_parameters
 from pvsource.names import did_you_mean, nearest
@@ -431,6 +432,73 @@ def parse_bank(table: Table) -> Bank:
         raise InputError(where, field, exc.expected) from None
 
 
+def _pairs(table: Table, key: str, example: str) -> tuple[tuple[float, float], ...]:
+    """A list of [x, y] number pairs, x strictly rising; at least two."""
+    table.used.add(key)
+    raw = table.data[key]
+    ok = isinstance(raw, list) and len(raw) >= 2 and all(
+        isinstance(pt, list) and len(pt) == 2 and all(isinstance(v, (int, float)) and not isinstance(v, bool)
+                                                      and math.isfinite(v) for v in pt) for pt in raw)
+    if not ok:
+        raise InputError(table.where, table.field(key), f"expected a list of {example}")
+    xs = [float(pt[0]) for pt in raw]
+    if any(b <= a for a, b in zip(xs, xs[1:])):
+        raise InputError(table.where, table.field(key), "the first values of the pairs must rise")
+    return tuple((float(x), float(y)) for x, y in raw)
+
+
+def parse_generator(table: Table) -> Generator:
+    """A ``[generator]``: when it runs, its charger, and how its fuel is counted."""
+    where = table.where
+    soc_hint = lambda v: "a state of charge is a fraction: 30 % is 0.3" if 1.0 < v <= 100.0 else None  # noqa: E731
+    start = table.number("start_soc", minimum=0.0, maximum=1.0, hint=soc_hint)
+    stop = table.number("stop_soc", minimum=0.0, maximum=1.0, hint=soc_hint)
+    if stop <= start:
+        raise InputError(where, table.field("stop_soc"), f"must be above start_soc ({start:g}), got {stop:g}")
+    if stop > MAX_STOP_SOC:
+        raise InputError(where, table.field("stop_soc"),
+                         f"must be at most {MAX_STOP_SOC:g}, got {stop:g}: the bank's acceptance tapers to nothing "
+                         "at full charge, so a charge to full would never end")
+    if table.has("charger_current_a") and table.has("charger_power_w"):
+        raise InputError(where, table.field("charger_power_w"), "give charger_current_a or charger_power_w, not both")
+    if not (table.has("charger_current_a") or table.has("charger_power_w")):
+        table._misspelt("charger_current_a")
+        raise InputError(where, table.field("charger_current_a"),
+                         "is missing: give the charger's DC current into the bank (or charger_power_w)")
+    current = table.number("charger_current_a", float("nan"), positive=True, maximum=1.0e5)
+    power = table.number("charger_power_w", float("nan"), positive=True, maximum=1.0e7)
+    rated = table.number("rated_power_w", float("nan"), positive=True, maximum=1.0e7)
+    if table.has("fuel_l_per_h") and table.has("fuel_curve"):
+        raise InputError(where, table.field("fuel_curve"), "give fuel_l_per_h or fuel_curve, not both")
+    fuel = table.number("fuel_l_per_h", float("nan"), positive=True, maximum=1000.0)
+    curve = ()
+    if table.has("fuel_curve"):
+        curve = _pairs(table, "fuel_curve", "[load fraction, l/h] pairs, e.g. [[0.25, 0.9], [0.5, 1.4], [1.0, 2.4]]")
+        if curve[0][0] < 0.0 or curve[-1][0] > 1.0:
+            raise InputError(where, table.field("fuel_curve"), "load fractions must lie from 0 to 1 (rated power)")
+        rates = [r for _, r in curve]
+        if min(rates) <= 0.0 or any(b < a for a, b in zip(rates, rates[1:])):
+            raise InputError(where, table.field("fuel_curve"),
+                             "fuel rates [l/h] must be above 0 and must not fall as the load rises")
+        if math.isnan(rated):
+            raise InputError(where, table.field("rated_power_w"),
+                             "is missing: a fuel_curve's load fractions refer to the rated power")
+    if math.isnan(fuel) and not curve and math.isnan(rated):
+        raise InputError(where, table.field("fuel_l_per_h"),
+                         "is missing: give fuel_l_per_h, a fuel_curve with rated_power_w, or rated_power_w alone "
+                         "for the linear fuel law")
+    gen = Generator(
+        start_soc=start, stop_soc=stop,
+        charger_current_a=None if math.isnan(current) else current,
+        charger_power_w=None if math.isnan(power) else power,
+        charger_efficiency=table.number("charger_efficiency", Generator.charger_efficiency, minimum=0.5, maximum=1.0),
+        min_run_h=table.number("min_run_h", 0.0, minimum=0.0, maximum=48.0),
+        rated_power_w=None if math.isnan(rated) else rated,
+        fuel_l_per_h=None if math.isnan(fuel) else fuel, fuel_curve=curve, name=table.text("name", ""))
+    table.finish()
+    return gen
+
+
 def parse_load(table: Table) -> Load:
     kind = table.text("kind", "mpp", choices=LOAD_KINDS)
     if kind == "mpp":
@@ -458,7 +526,7 @@ def parse_system(data: dict, where: str, base_dir: Path) -> System:
     """Build a :class:`System` from parsed TOML; errors name ``where`` and the field."""
     top = Table(where, "", data)
     name = top.text("name", "")
-    top.used.update({"module", "array", "group", "cable", "load", "controller", "bank", "site"})
+    top.used.update({"module", "array", "group", "cable", "load", "controller", "bank", "site", "generator"})
     unknown = sorted(set(data) - top.used)
     if unknown:
         raise InputError(where, f"[{unknown[0]}]",
@@ -516,8 +584,11 @@ def parse_system(data: dict, where: str, base_dir: Path) -> System:
         one, assigned = None, tuple(ControllerGroups(c, g) for g, c in labelled)
     else:
         one, assigned = (labelled[0][1] if labelled else None), ()
+    generator = parse_generator(Table(where, "[generator]", data["generator"])) if "generator" in data else None
+    if generator is not None and bank is None:
+        raise InputError(where, "[generator]", "a generator charges a [bank]; add one, or remove the generator")
     return System(module=module, groups=tuple(groups), cables=tuple(cables), load=load, name=name, source=where,
-                  controller=one, bank=bank, site=site, controllers=assigned)
+                  controller=one, bank=bank, site=site, controllers=assigned, generator=generator)
 
 
 def _controller_labels(data) -> list[str]:

@@ -13,6 +13,7 @@ import numpy as np
 from pvsource.array import StringGroup
 from pvsource.bank import Bank
 from pvsource.controller import Controller
+from pvsource.generator import Generator
 from pvsource.module import Module
 from pvsource.wiring import CableRun, GroupWiring, group_wiring
 
@@ -113,6 +114,8 @@ class System:
         tables, or filled from ``controller`` (one controller, every group).
     bank : Bank or None
         The battery bank; with a bank, the controller charges it and ``load`` is unused.
+    generator : Generator or None
+        A backup generator that carries the load and charges the bank when it runs low.
     name : str
     source : str
         Where the description came from (a file name), for messages.
@@ -128,6 +131,7 @@ class System:
     bank: Bank | None = None
     site: Site | None = None
     controllers: tuple[ControllerGroups, ...] = ()
+    generator: Generator | None = None
 
     def __post_init__(self):
         # One controller is the common case and the older form: its
