@@ -46,6 +46,9 @@ FULL_SOC = 0.99  # a day "reaches full charge" when the state of charge gets her
 ENERGY_KEYS = ("poa_insolation_kwh_m2", "energy_mpp_kwh", "energy_generated_kwh", "energy_delivered_kwh",
                "energy_stored_kwh", "wiring_loss_kwh", "controller_loss_kwh", "bank_internal_loss_kwh",
                "curtailed_kwh", "mpp_shortfall_kwh", "load_kwh", "unmet_load_kwh")
+# With a generator, per month too: its hours and starts add up like energies.
+GENERATOR_KEYS = ("generator_hours", "generator_starts", "generator_energy_kwh", "generator_load_kwh",
+                  "generator_charger_loss_kwh", "generator_bank_loss_kwh", "generator_stored_kwh", "generator_fuel_l")
 
 
 @dataclass(frozen=True)
@@ -86,15 +89,24 @@ def group_conditions(system: System, weather: pd.DataFrame, transposition: str =
 
 
 @kernel
-def _soc_kernel(grid, free, emf, loads, per_ah, coulombic, soc0, limits, regulated):  # pragma: no cover - compiled
+def _soc_kernel(grid, free, emf, loads, per_ah, coulombic, soc0, limits, regulated, gen,
+                gen_power_w):  # pragma: no cover - compiled
     # limits: controller current, bank charge current, acceptance start, R,
     # absorption V, float V, float state of charge.
     i_ctrl, i_rate, start, r_bank, v_abs, v_float, float_soc = limits
+    # gen: present (0/1), start and stop state of charge, shortest run [h],
+    # charger current [A], running at the start (0/1), hours run so far, step [h].
+    has_gen, g_start, g_stop, g_min_h, g_amps, g_running, g_run_h, step_h = gen
+    running = g_running > 0.0
+    run_h = g_run_h
     k_max = free.shape[0] - 1
     n = loads.shape[0]
     soc_path = np.empty(n)
     unmet = np.zeros(n)
     cap = np.full(n, np.inf)
+    run_frac = np.zeros(n)
+    starts = np.zeros(n, np.int32)
+    gen_a = np.zeros(n)
     soc = soc0
     j = 0
     for k in range(n):
@@ -108,8 +120,9 @@ def _soc_kernel(grid, free, emf, loads, per_ah, coulombic, soc0, limits, regulat
         i_free = free[j, k] + (free[j + 1, k] - free[j, k]) * w
         e = emf[j, k] + (emf[j + 1, k] - emf[j, k]) * w
         load_a = loads[k] / e
-        # What fills the bank within the step, the load served on the way included.
-        room = load_a + (1.0 - soc) / (per_ah * coulombic)
+        # What fills the bank within the step, the load served on the way
+        # included (unless a running generator carries it).
+        room = (0.0 if running else load_a) + (1.0 - soc) / (per_ah * coulombic)
         floating = soc >= float_soc
         # The grid carries only the smooth, unlimited current: the limits
         # apply here, exact in the state of charge.
@@ -118,6 +131,15 @@ def _soc_kernel(grid, free, emf, loads, per_ah, coulombic, soc0, limits, regulat
         if limit == BANK_FULL or limit == NONE_FULL:
             cap[k] = room
             i_charge = room  # past full, an unregulated charge is not stored
+        if has_gen > 0.0:
+            # The generator's charger tops the array up to the bank's own limit, whatever the controller.
+            i_bank = regulate(np.inf, SOURCE, soc, e, r_bank, np.inf, i_rate, v_float if floating else v_abs, start,
+                              np.inf, floating, True)[0]
+            soc, running, run_h, run_frac[k], starts[k], gen_a[k], lost_ah = generator_step(
+                soc, running, run_h, i_charge, load_a, min(g_amps, gen_power_w[k] / e), i_bank, step_h,
+                step_h / per_ah, coulombic, g_start, g_stop, g_min_h)
+            unmet[k] = lost_ah / step_h * e
+            continue
         net = i_charge - load_a
         soc += net * per_ah * (coulombic if net > 0.0 else 1.0)
         if soc < 0.0:
@@ -126,11 +148,11 @@ def _soc_kernel(grid, free, emf, loads, per_ah, coulombic, soc0, limits, regulat
             soc = 0.0
         elif soc > 1.0:
             soc = 1.0
-    return soc_path, unmet, soc, cap
+    return soc_path, unmet, soc, cap, run_frac, starts, gen_a, running, run_h
 
 
 def integrate_soc(charge_grid_a, emf_grid_v, load_w, step_h: float, capacity_ah: float, coulombic: float,
-                  soc0: float, grid=None, limits=None, regulated: bool = False):
+                  soc0: float, grid=None, limits=None, regulated: bool = False, generator=None):
     """State of charge at the start of every step, and the load left unmet [W].
 
     Coulomb counting, with charge scaled by the coulombic efficiency; the
@@ -160,6 +182,10 @@ def integrate_soc(charge_grid_a, emf_grid_v, load_w, step_h: float, capacity_ah:
         charge [-]); none by default.
     regulated : bool
         Whether the controller regulates (False for a direct connection).
+    generator : (Generator, bool, float), optional
+        A backup generator, whether it runs at the first step and the hours it
+        has run by then (:func:`generator_step`); the bank's ``limits`` apply
+        to its charger.
 
     Returns
     -------
@@ -169,16 +195,125 @@ def integrate_soc(charge_grid_a, emf_grid_v, load_w, step_h: float, capacity_ah:
     cap_a : array (N,)
         Where the bank fills within a step, the charge current that just
         fills it (load included); infinite elsewhere.
+    generator_run : dict, only with a generator
+        ``running`` (share of each step run), ``starts`` (per step),
+        ``charge_a`` (the charger's current, step mean) and the state at the
+        end: ``final_running``, ``final_run_h``.
     """
+    from pvsource.generator import charger_limits
+
     grid = np.asarray(SOC_GRID if grid is None else grid, dtype=float)
     if limits is None:
         limits, regulated = (np.inf, np.inf, 0.0, 1.0, np.inf, np.inf, np.inf), False
-    soc_path, unmet, final, cap = _soc_kernel(grid, np.ascontiguousarray(charge_grid_a, dtype=float),
-                                              np.ascontiguousarray(emf_grid_v, dtype=float),
-                                              np.ascontiguousarray(load_w, dtype=float), step_h / capacity_ah,
-                                              float(coulombic), float(soc0), tuple(float(v) for v in limits),
-                                              bool(regulated))
-    return soc_path, unmet, float(final), cap
+    loads = np.ascontiguousarray(load_w, dtype=float)
+    gen_tuple, power = (0.0,) * 7 + (float(step_h),), np.zeros(len(loads))
+    if generator is not None:
+        gen, running, run_h = generator
+        amps, power = charger_limits(gen, loads)
+        gen_tuple = (1.0, gen.start_soc, gen.stop_soc, gen.min_run_h, amps, float(running), float(run_h),
+                     float(step_h))
+    soc_path, unmet, final, cap, run_frac, starts, gen_a, running, run_h = _soc_kernel(
+        grid, np.ascontiguousarray(charge_grid_a, dtype=float), np.ascontiguousarray(emf_grid_v, dtype=float),
+        loads, step_h / capacity_ah, float(coulombic), float(soc0), tuple(float(v) for v in limits),
+        bool(regulated), gen_tuple, np.ascontiguousarray(power, dtype=float))
+    if generator is None:
+        return soc_path, unmet, float(final), cap
+    return soc_path, unmet, float(final), cap, {"running": run_frac, "starts": starts, "charge_a": gen_a,
+                                                "final_running": bool(running), "final_run_h": float(run_h)}
+
+
+@kernel
+def generator_step(soc, running, run_h, i_array, load_a, i_gen_max, i_bank_max, step_h, capacity_ah, coulombic,
+                   start_soc, stop_soc, min_run_h):  # pragma: no cover - compiled
+    """One step of the bank with a backup generator, its start and stop placed within the step.
+
+    The array's current comes first; while the generator runs it carries the
+    load and its charger tops the bank up to the bank's own limit:
+    ``I_gen = min(i_gen_max, max(i_bank_max - i_array, 0))``. It starts when
+    the state of charge falls to ``start_soc`` and stops once it has reached
+    ``stop_soc`` and run ``min_run_h`` hours, at the moment within the step
+    where both hold. So run time is counted in hours, whatever the step.
+    Currents are those at the step's start, held through it.
+
+    Parameters
+    ----------
+    soc : float
+        State of charge at the step's start [-].
+    running : bool
+        Whether the generator runs at the step's start.
+    run_h : float
+        Hours it has run since it last started [h].
+    i_array, load_a : float
+        The array's charge current and the load's current at the bank's EMF [A].
+    i_gen_max : float
+        What the charger can deliver [A].
+    i_bank_max : float
+        The bank's charge limit at this state of charge [A].
+    step_h, capacity_ah, coulombic : float
+        Step [h], bank capacity [Ah], coulombic efficiency of charging [-].
+    start_soc, stop_soc, min_run_h : float
+        The generator's settings.
+
+    Returns
+    -------
+    soc, running, run_h : the state at the step's end
+    run_fraction : float
+        Share of the step it ran [-].
+    starts : int
+        Starts within the step.
+    gen_a : float
+        The charger's current into the bank, averaged over the step [A].
+    unmet_ah : float
+        Load the empty bank could not serve [Ah] (only with ``start_soc`` 0 and no charge).
+    """
+    i_gen = min(i_gen_max, max(i_bank_max - i_array, 0.0))
+    t = 0.0
+    on_h = 0.0
+    gen_ah = 0.0
+    starts = 0
+    flips = 0
+    while t < step_h and flips < 64:
+        left = step_h - t
+        if running:
+            net = i_array + i_gen
+            rate = net * (coulombic if net > 0.0 else 1.0) / capacity_ah
+            need = max(min_run_h - run_h, 0.0)
+            if soc < stop_soc:
+                need = max(need, (stop_soc - soc) / rate if rate > 0.0 else np.inf)
+            dt = min(need, left)
+            i_seg = i_gen
+            if rate > 0.0 and soc + rate * dt > 1.0:
+                # Kept running past full by min_run_h: the charger gives only what fits.
+                i_seg = max(min((1.0 - soc) * capacity_ah / (coulombic * dt) - i_array, i_gen), 0.0)
+                net = i_array + i_seg
+                rate = net * (coulombic if net > 0.0 else 1.0) / capacity_ah
+            soc += rate * dt
+            gen_ah += i_seg * dt
+            run_h += dt
+            on_h += dt
+            t = step_h if dt >= left else t + dt
+            if need <= left:
+                running = False
+                flips += 1
+        elif soc <= start_soc:
+            running = True
+            run_h = 0.0
+            starts += 1
+            flips += 1
+        else:
+            net = i_array - load_a
+            rate = net * (coulombic if net > 0.0 else 1.0) / capacity_ah
+            need = (soc - start_soc) / -rate if rate < 0.0 else np.inf
+            dt = min(need, left)
+            soc = start_soc if need <= left else soc + rate * dt
+            t = step_h if dt >= left else t + dt
+    unmet_ah = 0.0
+    if soc < 0.0:
+        unmet_ah = -soc * capacity_ah
+        soc = 0.0
+    return min(soc, 1.0), running, run_h, on_h / step_h, starts, gen_ah / step_h, unmet_ah
+
+
 
 
 def charge_grid_a(system: System, g, t, done=lambda k: None, chunk_size: int = CHUNK_SIZE):
@@ -370,7 +505,11 @@ def run_season(system: System, weather: pd.DataFrame, *, transposition: str = "p
 
 def _solve_span(system: System, weather: pd.DataFrame, load_w: np.ndarray, step_h: float, state,
                 transposition: str):
-    """Every step of one chunk, and the time loop's state at its end (the state of charge; None without a bank)."""
+    """Every step of one chunk, and the time loop's state at its end.
+
+    The state is the state of charge (None without a bank); with a generator,
+    (state of charge, whether the generator runs, hours it has run since it started).
+    """
     g, t, poa = group_conditions(system, weather, transposition)
     soc_path = unmet = None
     if system.bank is not None:
@@ -383,11 +522,17 @@ def _solve_span(system: System, weather: pd.DataFrame, load_w: np.ndarray, step_
         limits = (c.output_limit_a,
                   float(bank_model.max_charge_current_a(b)), b.chemistry.absorption_start_soc,
                   float(bank_model.internal_resistance_ohm(b)), float(v_abs), float(v_float), FLOAT_SOC)
-        soc_path, unmet, state, cap = integrate_soc(charge_grid, emf_grid, load_w, step_h, b.capacity_ah,
-                                                    b.chemistry.coulombic_efficiency, state, soc_grid(system),
-                                                    limits, c.regulates)
+        gen = system.generator
+        soc, *gen_state = state if isinstance(state, tuple) else (state, False, 0.0)
+        soc_path, unmet, soc, cap, *run = integrate_soc(
+            charge_grid, emf_grid, load_w, step_h, b.capacity_ah, b.chemistry.coulombic_efficiency, soc,
+            soc_grid(system), limits, c.regulates, None if gen is None else (gen, *gen_state))
         del charge_grid, emf_grid
         steps = operating_points(system, g, t, soc=soc_path, charge_cap_a=cap, drift_check=False)
+        state = soc
+        if gen is not None:
+            steps = _with_generator(steps, gen, run[0], load_w)
+            state = (soc, run[0]["final_running"], run[0]["final_run_h"])
     else:
         steps = operating_points(system, g, t, drift_check=False)
     steps.index = weather.index
@@ -402,6 +547,15 @@ def _solve_span(system: System, weather: pd.DataFrame, load_w: np.ndarray, step_
 def step_hours(weather: pd.DataFrame) -> float:
     """The weather's step [h]: as its reader measured it, else the median spacing of its stamps."""
     return float(weather.attrs.get("step_h") or _step_hours(weather.index))
+
+
+def _with_generator(steps: pd.DataFrame, gen, run: dict, load_w) -> pd.DataFrame:
+    """The steps with the generator's columns: share of the step run, starts, and its energy accounts."""
+    from pvsource.generator import step_accounts
+
+    accounts = step_accounts(gen, run["running"], run["charge_a"], load_w, steps["bank_emf_v"].to_numpy(),
+                             steps["bank_r_ohm"].to_numpy(), steps["charge_current_a"].to_numpy())
+    return steps.assign(generator_running=run["running"], generator_start=run["starts"], **accounts)
 
 
 def _step_hours(index) -> float:
@@ -426,6 +580,17 @@ def _energies(steps: pd.DataFrame, step_h: float) -> dict:
         "load_kwh": kwh("load_w"),
         "unmet_load_kwh": kwh("unmet_load_w"),
     }
+    if "generator_w" in steps:
+        out.update({
+            "generator_hours": float(steps["generator_running"].sum() * step_h),
+            "generator_starts": int(steps["generator_start"].sum()),
+            "generator_energy_kwh": kwh("generator_w"),
+            "generator_load_kwh": kwh("generator_load_w"),
+            "generator_charger_loss_kwh": kwh("generator_charger_loss_w"),
+            "generator_bank_loss_kwh": kwh("generator_bank_loss_w"),
+            "generator_stored_kwh": kwh("generator_stored_w"),
+            "generator_fuel_l": float(steps["generator_fuel_l_per_h"].sum() * step_h),
+        })
     gen, avail = out["energy_generated_kwh"], out["energy_mpp_kwh"]
     for key in ("wiring_loss", "controller_loss", "bank_internal_loss"):
         out[f"{key}_pct"] = 100.0 * out[f"{key}_kwh"] / gen if gen > 0 else None
