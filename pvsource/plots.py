@@ -192,34 +192,80 @@ def _month_label(month: str) -> str:
     return names[int(tail) - 1] if tail.isdigit() and 1 <= int(tail) <= 12 else month
 
 
+# The load's sources with a generator, in the order they are drawn on.
+LOAD_PARTS = (
+    ("bank", "load supplied by the array and bank", "#7a9e7e"),
+    ("generator_load_kwh", "load carried by the generator", "#8c5a3c"),
+    ("generator_charge", "generator charging the bank", "#d9b99b"),
+    ("unmet_load_kwh", "load not met", "#b3261e"),
+)
+
+
 def monthly_energy_figure(summary: dict, path) -> Path:
-    """Each month's energy at the groups' MPPs, split into where it went (stacked columns)."""
+    """Each month's energy at the groups' MPPs, split into where it went (stacked columns).
+
+    With a generator, a second panel splits each month's load by where it
+    came from (the bank, the generator, or nowhere) and adds what the
+    generator put into the bank, each month's run hours written above it.
+    """
     months = summary["monthly"]
     labels = [_month_label(m["month"]) for m in months]
-    fig, ax = plt.subplots(figsize=(8.0, 4.2))
-    bottom = np.zeros(len(months))
+    if months and "generator_hours" in months[0]:
+        fig, (ax, ax_gen) = plt.subplots(2, 1, figsize=(8.0, 8.4), gridspec_kw={"hspace": 0.85})
+        _generator_panel(ax_gen, months, labels)
+    else:
+        fig, ax = plt.subplots(figsize=(8.0, 4.2))
     parts = SEASON_PARTS
     if "min_soc" not in summary:
         # No bank: what reached the end of the feeder went to the load.
         parts = (("energy_delivered_kwh", "delivered to the load", SEASON_PARTS[0][2]), *SEASON_PARTS[1:])
+    columns = []
     for key, label, colour in parts:
         if key == "mismatch_kwh":
             values = np.array([max(m["energy_mpp_kwh"] - m["energy_generated_kwh"] - (m["curtailed_kwh"] or 0.0), 0.0)
                                for m in months])
         else:
             values = np.array([m.get(key) or 0.0 for m in months])
+        columns.append((values, label, colour, None))
+    _stacked_columns(ax, labels, columns, "Where each month's available energy went", 3)
+    return save_atomically(fig, path)
+
+
+def _stacked_columns(ax, labels: list, parts: list, title: str, ncol: int) -> np.ndarray:
+    """Stacked columns per month from (values, label, colour, hatch) parts; the columns' tops [kWh]."""
+    bottom = np.zeros(len(labels))
+    for values, label, colour, hatch in parts:
         # A part that never happened stays out of the legend.
         ax.bar(labels, values, bottom=bottom, color=colour, width=0.72, label=label if values.any() else None,
-               edgecolor="white", lw=0.4)
+               edgecolor="white", lw=0.4, hatch=hatch)
         bottom += values
     ax.set_ylabel("energy [kWh]")
     ax.set_xlabel("month")
     ax.spines[["top", "right"]].set_visible(False)
     ax.grid(True, axis="y", color="#e3e3e3", lw=0.6)
     # Under the axes: the columns fill the plot, a legend inside would cover them.
-    ax.legend(fontsize=7.5, frameon=False, ncol=3, loc="upper center", bbox_to_anchor=(0.5, -0.2))
-    ax.set_title("Where each month's available energy went", fontsize=10, loc="left")
-    return save_atomically(fig, path)
+    ax.legend(fontsize=7.5, frameon=False, ncol=ncol, loc="upper center", bbox_to_anchor=(0.5, -0.2))
+    ax.set_title(title, fontsize=10, loc="left")
+    return bottom
+
+
+def _generator_panel(ax, months: list, labels: list) -> None:
+    """Each month's load by source and the generator's charge into the bank, run hours above each column."""
+    def part(m, key):
+        if key == "bank":
+            return max((m.get("load_kwh") or 0.0) - (m.get("unmet_load_kwh") or 0.0) - m["generator_load_kwh"], 0.0)
+        if key == "generator_charge":
+            return m["generator_stored_kwh"] + m["generator_bank_loss_kwh"]
+        return m.get(key) or 0.0
+
+    tops = _stacked_columns(ax, labels, [(np.array([part(m, key) for m in months]), label, colour,
+                                          "//" if key == "generator_charge" else None)
+                                         for key, label, colour in LOAD_PARTS],
+                            "The load and the generator's share (its run hours above each month)", 2)
+    for x, (top, m) in enumerate(zip(tops, months)):
+        if m["generator_hours"] > 0:
+            ax.text(x, top, f"{m['generator_hours']:.0f} h", ha="center", va="bottom", fontsize=7, color="#5b3a26")
+    ax.set_ylim(0, max(float(tops.max()), 1e-9) * 1.12)
 
 
 def wiring_loss_heatmap(steps, path) -> Path:

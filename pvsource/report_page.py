@@ -25,7 +25,8 @@ EMPTY_SOC = 0.005
 
 FIGURE_CAPTIONS = {
     "monthly_energy.png": "Where each month's available energy went: stored, lost on the way, curtailed, or left on "
-                          "the curves.",
+                          "the curves. With a generator, below: each month's load by where it came from, what the "
+                          "generator put into the bank, and its run hours.",
     "wiring_loss_heatmap.png": "Cable loss as a share of the power generated, by hour of day and month.",
     "charge_duration.png": "How many hours of the span the bank saw at least each charge current.",
     "state_of_charge.png": "The bank's state of charge: the range within each day and its daily mean.",
@@ -235,6 +236,13 @@ def findings(system, summary: dict, checks) -> str:
         items.append(("warn", "Bank emptied.", "The state of charge reached "
                       f"{pct(summary['min_soc'])} during the span; a real system disconnects its loads first, "
                       "so plan for a low-voltage disconnect and more storage or generation."))
+    if summary.get("generator_hours"):
+        share = f" ({pct(summary['generator_load_kwh'] / load)} of the load)" if load > 0 else ""
+        items.append(("info", "Generator ran.",
+                      f"{fmt(summary['generator_hours'], 0, 'h')} in {summary['generator_starts']} starts: it carried "
+                      f"{fmt(summary['generator_load_kwh'], 1, 'kWh')} of load{share}, put "
+                      f"{fmt(summary['generator_stored_kwh'], 1, 'kWh')} into the bank and burnt "
+                      f"{fmt(summary['generator_fuel_l'], 0, 'l')} of fuel."))
     for c in checks:
         if c.passed is None:
             items.append(("info", "Not checked.", f"{check_label(c.name)}: no limit in the system file to compare "
@@ -259,6 +267,9 @@ def headline(system, summary: dict, checks) -> str:
         tiles.append((pct(met), "of the load met", met < 1.0 - UNMET_SHARE_NOTED))
     if summary.get("min_soc") is not None:
         tiles.append((pct(summary["min_soc"], 0), "lowest state of charge", summary["min_soc"] <= EMPTY_SOC))
+    if summary.get("generator_hours") is not None:
+        tiles.append((fmt(summary["generator_hours"], 0, "h"), "generator running", False))
+        tiles.append((fmt(summary["generator_fuel_l"], 0, "l"), "generator fuel", False))
     if checked:
         tiles.append((f"{checked - failed} / {checked}", "design checks with a limit passed", failed > 0))
     else:
@@ -364,12 +375,34 @@ def _equipment_block(system, summary: dict) -> str:
         if b.overrides:
             rows.append(("preset values replaced", ", ".join(k.replace("_", " ") for k, _ in b.overrides)))
         parts.append(f"<div><h3>Battery bank</h3>{pairs(rows)}</div>")
+    if system.generator is not None:
+        parts.append(f"<div><h3>Backup generator</h3>{pairs(_generator_rows(system.generator))}</div>")
         load = summary.get("load_kwh") or 0.0
         text = (f"The bank feeds a load of {fmt(load, 1, 'kWh')} over the span, from the weather file's load column."
                 if load > 0 else "The bank feeds no load (the weather file has no load column).")
     else:
         text = f"The array feeds {LOAD_WORDS.get(system.load.kind, system.load.kind)}."
     return f"<div class=pair>{''.join(parts)}</div><h3>Load</h3><p>{_esc(text)}</p>"
+
+
+FUEL_WORDS = {"constant": "a constant rate", "curve": "the given curve against load",
+              "linear": "the linear law of a diesel set (0.08145 l/h per kW rated + 0.246 l/kWh)"}
+
+
+def _generator_rows(gen) -> list:
+    rows = [("name", gen.name or "not named"),
+            ("starts at / stops at state of charge", f"{pct(gen.start_soc, 0)} / {pct(gen.stop_soc, 0)}"),
+            ("shortest run", fmt(gen.min_run_h, 1, "h"))]
+    if gen.charger_current_a is not None:
+        rows.append(("charger current into the bank", fmt(gen.charger_current_a, 0, "A")))
+    else:
+        rows.append(("charger power into the bank", fmt(gen.charger_power_w, 0, "W")))
+    rows.append(("charger efficiency", pct(gen.charger_efficiency, 0)))
+    if gen.rated_power_w is not None:
+        rows.append(("rated power", fmt(gen.rated_power_w, 0, "W")))
+    rate = f"{fmt(gen.fuel_l_per_h, 2, 'l/h')}" if gen.fuel_model == "constant" else FUEL_WORDS[gen.fuel_model]
+    rows.append(("fuel use", rate))
+    return rows
 
 
 ENERGY_ROWS = (("energy_mpp_kwh", "available at the groups' maximum power points"),
@@ -384,7 +417,10 @@ CONTROLLER_KEYS = ("controller_loss_kwh", "curtailed_kwh")
 
 
 def relevant(system, key: str) -> bool:
-    """Whether an energy line applies to the system: bank lines need a bank, controller lines a controller."""
+    """Whether an energy line applies to the system: bank lines need a bank, controller lines a controller,
+    generator lines a generator."""
+    if key.startswith("generator_"):
+        return system.generator is not None
     if key in BANK_KEYS:
         return system.bank is not None
     if key in CONTROLLER_KEYS:
@@ -424,13 +460,32 @@ def energy_section(system, summary: dict) -> str:
             out += "<div><h3>Hours by what limited the charge</h3>" + pairs(
                 [(k, fmt(v, 0, "h")) for k, v in limits.items()]) + "</div>"
         out += "</div>"
+    if summary.get("generator_hours") is not None:
+        out += "<h3>Backup generator</h3>" + _generator_energy(summary)
     return f'<section id="energy"><h2>Energy</h2>{out}</section>'
+
+
+def _generator_energy(summary: dict) -> str:
+    """The generator's output and where it went; the lines add up to its output."""
+    made = summary["generator_energy_kwh"]
+    share = lambda v: pct(v / made) if made > 0 else "n/a"  # noqa: E731
+    rows = [(_esc(label), fmt(summary[key]), share(summary[key])) for key, label in (
+        ("generator_load_kwh", "carried the load"), ("generator_stored_kwh", "stored in the bank"),
+        ("generator_bank_loss_kwh", "lost in the bank's resistance"),
+        ("generator_charger_loss_kwh", "lost in the charger"))]
+    per_kwh = summary["generator_fuel_l"] / made if made > 0 else None
+    stats = [("running", fmt(summary["generator_hours"], 1, "h")), ("starts", fmt(summary["generator_starts"], 0)),
+             ("fuel", fmt(summary["generator_fuel_l"], 1, "l")), ("fuel per kWh of output", fmt(per_kwh, 3, "l"))]
+    return ("<div class=pair><div>" + table(("generator output", "energy [kWh]", "share of its output"), rows,
+                                            numeric=(1, 2), foot=("output", fmt(made), "")) + "</div><div>"
+            + pairs(stats) + "</div></div>")
 
 
 MONTH_COLUMNS = (("energy_mpp_kwh", "available at MPPs [kWh]", 1), ("energy_generated_kwh", "generated [kWh]", 1),
                  ("wiring_loss_kwh", "cable loss [kWh]", 2), ("controller_loss_kwh", "controller loss [kWh]", 1),
                  ("curtailed_kwh", "curtailed [kWh]", 1), ("energy_stored_kwh", "stored [kWh]", 1),
-                 ("load_kwh", "load [kWh]", 1), ("unmet_load_kwh", "unmet load [kWh]", 1))
+                 ("load_kwh", "load [kWh]", 1), ("unmet_load_kwh", "unmet load [kWh]", 1),
+                 ("generator_hours", "generator [h]", 1), ("generator_fuel_l", "generator fuel [l]", 1))
 
 
 def monthly_section(system, summary: dict) -> str:

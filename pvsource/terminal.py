@@ -418,6 +418,13 @@ def render_season(system: System, summary: dict, folder, notes=()) -> str:
         limits = ", ".join(f"{k} {v:,.0f} h" for k, v in summary.get("hours_by_limit", {}).items())
         lines.append(f"  hours by stage: {stages}")
         lines.append(f"  hours by limit: {limits}")
+    if "generator_hours" in summary:
+        lines.append(_rule("Backup generator"))
+        lines.append(f"  ran {_num(summary['generator_hours'], 1, 'h')} in {summary['generator_starts']} starts; "
+                     f"output {_num(summary['generator_energy_kwh'], 1, 'kWh')}, of which "
+                     f"{_num(summary['generator_load_kwh'], 1, 'kWh')} carried the load and "
+                     f"{_num(summary['generator_stored_kwh'], 1, 'kWh')} was stored; "
+                     f"fuel {_num(summary['generator_fuel_l'], 1, 'l')}")
     lines.append(_rule("Month by month [kWh]"))
     lines.append(f"  {'month':<8}{'at MPPs':>10}{'generated':>11}{'cables':>9}{'curtailed':>11}{'stored':>9}")
     for m in summary["monthly"]:

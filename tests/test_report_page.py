@@ -220,3 +220,66 @@ def test_an_advisory_check_is_a_warning_not_a_failure(winter_run):
     page = render_page(system, result.summary, (), [clipped], [], -5.0, 20.0)
     assert "Advisory." in _section(page, "findings") and "Check failed." not in page
     assert 'badge advice">advisory' in _section(page, "checks") and '<tr class="fail">' not in page
+
+
+@pytest.fixture(scope="module")
+def generator_run(winter_run):
+    from pvsource.generator import Generator
+
+    system, weather, _ = winter_run
+    system = replace(system, generator=Generator(start_soc=0.25, stop_soc=0.8, charger_current_a=35.0,
+                                                 min_run_h=1.0, rated_power_w=2000.0, name="backup set"))
+    return system, weather, run_season(system, weather)
+
+
+def test_the_report_shows_the_generators_share(generator_run, tmp_path):
+    system, weather, result = generator_run
+    s = result.summary
+    write_report(tmp_path, system, result, weather)
+    page = (tmp_path / "report.html").read_text()
+    text = _text(page)
+    assert "Backup generator" in _text(_section(page, "system")) and "25 % / 80 %" in text
+    assert "Generator ran." in _text(_section(page, "findings"))
+    energy = _text(_section(page, "energy"))
+    for label, key in (("carried the load", "generator_load_kwh"), ("stored in the bank", "generator_stored_kwh"),
+                       ("lost in the charger", "generator_charger_loss_kwh")):
+        assert re.search(rf"{label}\s+{re.escape(f'{s[key]:,.1f}')}", energy), label
+    assert f"{s['generator_fuel_l']:,.1f} l" in energy
+    # Month by month: the generator's hours and fuel, each month's figures and their sum.
+    monthly = _section(page, "monthly")
+    assert "generator [h]" in monthly and "generator fuel [l]" in monthly
+    for m in s["monthly"]:
+        assert f"{m['generator_hours']:,.1f}" in _text(monthly)
+    assert f"{s['generator_hours']:,.1f}" in _text(re.search(r"<tfoot>(.*?)</tfoot>", monthly, flags=re.S).group(1))
+    # Labels stay words with the generator's lines too.
+    body = _text(re.sub(r"<section id=notes>.*?</section>", "", page, flags=re.S))
+    assert re.findall(r"\b[a-z]+(?:_[a-z0-9]+)+\b", body) == []
+
+
+def test_the_monthly_figure_adds_the_generators_panel_with_its_legend_off_the_data(generator_run, tmp_path,
+                                                                                   monkeypatch):
+    import matplotlib.pyplot as plt
+
+    from pvsource import plots
+
+    seen = []
+
+    def keep(fig, path):
+        fig.canvas.draw()
+        renderer = fig.canvas.get_renderer()
+        legends = [ax.get_legend() for ax in fig.axes if ax.get_legend() is not None]
+        covered = [ax.get_title(loc="left") for legend in legends for ax in fig.axes
+                   if legend.get_window_extent(renderer).overlaps(ax.get_window_extent(renderer))]
+        labels = [t.get_text() for ax in fig.axes for t in (ax.get_legend().get_texts() if ax.get_legend() else [])]
+        hours = [t.get_text() for ax in fig.axes for t in ax.texts]
+        seen.append((len(fig.axes), covered, labels, hours))
+        plt.close(fig)
+        return path
+
+    monkeypatch.setattr(plots, "save_atomically", keep)
+    summary = generator_run[2].summary
+    plots.monthly_energy_figure(summary, tmp_path / "monthly.png")
+    axes, covered, labels, hours = seen[0]
+    assert axes == 2 and covered == []
+    assert "load carried by the generator" in labels and "generator charging the bank" in labels
+    assert hours == [f"{m['generator_hours']:.0f} h" for m in summary["monthly"] if m["generator_hours"] > 0]
