@@ -61,6 +61,13 @@ def test_bad_generator_values_name_the_field(tmp_path, edit, field, words):
     assert exc.value.field == field and words in exc.value.expected, exc.value.one_line()
 
 
+def test_the_shipped_example_has_a_generator():
+    from conftest import DATA
+
+    gen = load_system(DATA / "example-hut-generator.toml").generator
+    assert (gen.start_soc, gen.stop_soc, gen.charger_current_a, gen.fuel_model) == (0.3, 0.85, 40.0, "curve")
+
+
 def test_a_generator_needs_a_bank(tmp_path):
     from test_config import GOOD
 
