@@ -53,6 +53,11 @@ CASES = {
     "cell temperature in kelvin": ("point {c}/cell-temp-in-kelvin.toml", ["[array].cell_temp_c", "kelvin", "44.9"]),
     "irradiance in lux": ("point {c}/irradiance-in-lux.toml", ["[array].irradiance_w_m2", "lux"]),
     "bank temperature in degF": ("point {c}/bank-temp-in-fahrenheit.toml", ["[bank].temp_c", "degF", "35.0"]),
+    # a backup generator
+    "generator stops below its start": ("season {c}/generator-stop-below-start.toml {c}/w-good.csv --out {out}",
+                                        ["[generator].stop_soc", "above start_soc"]),
+    "generator fuel curve without a rating": ("point {c}/generator-curve-without-rating.toml",
+                                              ["[generator].rated_power_w", "rated power"]),
     # datasheets
     "empty datasheet": ("fit {c}/ds-empty.toml", ["ds-empty.toml", "empty"]),
     "datasheet vmp above voc": ("fit {c}/ds-vmp-above-voc.toml", ["[module].v_mp"]),
