@@ -24,9 +24,17 @@ STRING_FUSES = ("With three or more strings in parallel, a faulted string takes 
 CLOSING = ("These results are estimates from a model; the design must follow local electrical codes and be "
            "reviewed and installed by licensed practitioners.")
 
-# The full sets, for the season report that covers everything.
+# The full sets (every caution the tool has), for reference; a result shows only its own (for_command).
 GENERAL = (PV_LIVE, DC_ARC, BATTERY_FAULT, CONDUCTOR, CLOSING)
 WIRING = (COLD_VOC, DROP_IS_EFFICIENCY, BATTERY_CABLES, STRING_FUSES, TERMINATION)
+
+#: What each command computes decides its cautions: conductor sizes and losses, design checks against the
+#: site's extremes, the live array a measurement or check is made on, and the system's bank and strings.
+COMMANDS = ("quick-wire", "wire", "check", "point", "sweep", "season", "explore")
+_CONDUCTORS = ("quick-wire", "wire", "check", "season", "explore")   # ampacity or losses of sized runs
+_ON_THE_ARRAY = ("point", "check")                                  # an operating point, a check on the array
+_COLD = ("check", "season", "explore")                              # the string Voc against the site's cold
+_BATTERY_CABLES = ("wire", "check", "season", "explore")            # bank cables sized or checked
 
 
 def for_command(command: str, system=None) -> list[str]:
@@ -34,21 +42,29 @@ def for_command(command: str, system=None) -> list[str]:
 
     Parameters
     ----------
-    command : {"quick-wire", "wire", "check", "point"}
+    command : one of :data:`COMMANDS`
+        ``season`` and ``explore`` report cable losses and the design checks
+        (as ``check`` does, against the weather's extremes); ``sweep``
+        reports power and efficiency against one variable.
     system : System, optional
         Adds the battery cautions when it has a bank, and the string-fuse
-        caution from three strings in parallel.
+        caution from three strings in parallel on one controller.
     """
+    if command not in COMMANDS:
+        raise ValueError(f"no cautions for {command!r}")
     items = []
-    if command in ("quick-wire", "wire", "check"):
+    if command in _CONDUCTORS:
         items += [CONDUCTOR, DROP_IS_EFFICIENCY, TERMINATION]
-    if command in ("point", "check"):
+    if command == "sweep":
+        items += [CONDUCTOR, DROP_IS_EFFICIENCY]
+    if command in _ON_THE_ARRAY:
         items += [PV_LIVE, DC_ARC]
-    if command == "check":
+    if command in _COLD:
         items.append(COLD_VOC)
     if system is not None and command != "quick-wire":
         if system.bank is not None or system.load.kind == "battery":
-            items += [BATTERY_FAULT] + ([BATTERY_CABLES] if command in ("wire", "check") else [])
-        if command in ("wire", "check") and sum(g.strings for g in system.groups) >= 3:
+            items += [BATTERY_FAULT] + ([BATTERY_CABLES] if command in _BATTERY_CABLES else [])
+        parts = system.parts() if hasattr(system, "parts") else (system,)
+        if command in _BATTERY_CABLES and max(sum(g.strings for g in p.groups) for p in parts) >= 3:
             items.append(STRING_FUSES)
     return [*items, CLOSING]

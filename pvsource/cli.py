@@ -417,7 +417,8 @@ def sweep(
     if as_json:
         _emit_json({"variable": over, "unit": design["unit"], "changes": design["changes"],
                     "replaced": design["replaced"], "design_point": design, "rows": records,
-                    "plot": str(plot) if plot is not None else None})
+                    "plot": str(plot) if plot is not None else None,
+                    "cautions": cautions.for_command("sweep", system)})
     else:
         typer.echo(render_sweep(system, rows, design, plot))
 
@@ -466,6 +467,7 @@ def _season_outputs(system, weather, out: Path, force: bool, transposition: str,
         summary = {k: v for k, v in result.summary.items()}
         summary["out"] = str(folder)
         summary["notes"] = list(result.notes)
+        summary["cautions"] = cautions.for_command("season", system)
         _emit_json(summary)
     else:
         typer.echo(render_season(system, result.summary, folder, result.notes))
@@ -661,9 +663,9 @@ def explore(
     _unpriced_notes(ranked, prices)
     rows = json_ready(ranked.to_dict(orient="records"))
     if as_json:
-        _emit_json({"rows": rows, "out": str(folder)})
+        _emit_json({"rows": rows, "out": str(folder), "cautions": cautions.for_command("explore", system)})
     else:
-        typer.echo(render_explore(ranked, folder, years))
+        typer.echo(render_explore(ranked, folder, years, cautions.for_command("explore", system)))
 
 
 # Each priced part of an explore result: the option that prices it, the column it prices, its words and unit.

@@ -576,7 +576,7 @@ def render_page(system, summary: dict, notes, checks, figures, t_min: float, t_m
     where = f" at {site.name or 'the site'} ({site.latitude:g}°, {site.longitude:g}°)" if site else ""
     notes_html = ("<section id=notes><h2>Notes on this study</h2><ul>"
                   + "".join(f"<li>{_esc(n)}</li>" for n in notes) + "</ul></section>") if notes else ""
-    caution_items = "".join(f"<li>{_esc(c)}</li>" for c in (*cautions.WIRING, *cautions.GENERAL))
+    caution_items = "".join(f"<li>{_esc(c)}</li>" for c in cautions.for_command("season", system))
     stamp = datetime.now(timezone.utc).strftime("%Y-%m-%d %H:%M UTC")
     return f"""<!doctype html><html lang="en"><head><meta charset="utf-8">
 <meta name="viewport" content="width=device-width, initial-scale=1">

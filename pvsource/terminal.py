@@ -145,7 +145,7 @@ def render_point(system: System, rec: dict) -> str:
         lines.append("\nNOTE: current flows back into the array: the load's voltage is above what the array "
                      "can reach at these conditions.")
     lines.extend(f"\nNOTE: {n}" for n in rec.get("notes", ()))
-    lines.append(render_caution_list(rec.get("cautions", cautions.GENERAL)))
+    lines.append(render_caution_list(rec.get("cautions") or cautions.for_command("point", system)))
     return "\n".join(lines)
 
 
@@ -170,8 +170,6 @@ def _sizes_line(r: dict) -> list[str]:
     return lines
 
 
-def render_cautions(extra=()) -> str:
-    return _rule("Cautions") + "\n" + "\n".join(f"  ! {c}" for c in (*extra, *cautions.GENERAL))
 
 
 def fit_record(module: Module) -> dict:
@@ -382,7 +380,7 @@ def render_sweep(system: System, rows, design: dict, plot) -> str:
                  "peaks at m = 1 with 50 % efficiency. An open circuit has no ratio (n/a).")
     if plot is not None:
         lines.append(f"plot written to {plot}")
-    lines.append(render_cautions())
+    lines.append(render_caution_list(cautions.for_command("sweep", system)))
     return "\n".join(lines)
 
 
@@ -435,11 +433,11 @@ def render_season(system: System, summary: dict, folder, notes=()) -> str:
         lines.append(_rule("Notes"))
         lines.extend(f"  - {n}" for n in notes)
     lines.append(f"\nTables, figures and report.html written to {folder}")
-    lines.append(render_cautions(cautions.WIRING))
+    lines.append(render_caution_list(cautions.for_command("season", system)))
     return "\n".join(lines)
 
 
-def render_explore(ranked, folder, years: float | None = None) -> str:
+def render_explore(ranked, folder, years: float | None = None, caution_items=None) -> str:
     """The ranked table of ``pvsource explore``: the choices, what each delivers, leaves unmet, runs the
     generator and holds in reserve, and its lifetime cost (the parts are columns of the results files)."""
     from pvsource.explore import COST_COLUMNS, RESULTS
@@ -472,5 +470,5 @@ def render_explore(ranked, folder, years: float | None = None) -> str:
                  "over the mean daily load.")
     lines.append("* on the front: no other combination is both cheaper over its life and delivers more.")
     lines.append(f"Results written to {folder}")
-    lines.append(render_cautions(cautions.WIRING))
+    lines.append(render_caution_list(caution_items or cautions.for_command("explore")))
     return "\n".join(lines)

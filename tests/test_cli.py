@@ -542,6 +542,18 @@ def test_demo_days_shortens_the_year(capsys, tmp_path):
     # Two days of hourly steps, from the first hour of the synthetic year.
     assert rec["steps"] == 48 and rec["step_h"] == 1.0
     assert rec["start"][:16].replace("T", " ") == "2025-01-01 00:00"
+    # Issue 13 section 5: the study shows the cautions that fit it (the demo: a bank, two strings), not all
+    # ten, in --json, in the report page and in the terminal; the deferral to local codes closes each.
+    from pvsource import cautions
+    from pvsource.demo import demo_system
+    assert rec["cautions"] == cautions.for_command("season", demo_system())
+    assert cautions.DC_ARC not in rec["cautions"] and cautions.STRING_FUSES not in rec["cautions"]
+    assert rec["cautions"][-1] == cautions.CLOSING
+    from pvsource.report_page import _esc
+    page = (tmp_path / "demo" / "report.html").read_text()
+    assert all(_esc(c) in page for c in rec["cautions"]) and _esc(cautions.DC_ARC) not in page
+    code, out, err = run(capsys, "demo", "--days", "1", "--out", str(tmp_path / "text"))
+    assert code == 0 and out.rstrip().endswith(cautions.CLOSING) and cautions.PV_LIVE not in out
     code, out, err = run(capsys, "demo", "--days", "0", "--out", str(tmp_path / "none"))
     assert code == 2 and out == "" and err.count("\n") == 1 and "--days" in err
     assert not (tmp_path / "none").exists()
