@@ -539,8 +539,16 @@ def read_fleet(source) -> list[tuple[str, Path, Path]]:
 
 
 def fleet_table(results: list[tuple[str, dict]]) -> pd.DataFrame:
-    """One row per system: the annual summary's energies and the bank's extremes."""
+    """One row per system: the annual summary's energies, the bank's extremes, and the hours of each alert.
+
+    An alert gets its ``alert_hours.NAME`` column when it fired in at least one system (0 in the others).
+    """
     keys = ("poa_insolation_kwh_m2", "energy_mpp_kwh", "energy_generated_kwh", "energy_delivered_kwh",
             "energy_stored_kwh", "wiring_loss_kwh", "controller_loss_kwh", "curtailed_kwh", "unmet_load_kwh",
             "min_soc", "days_reaching_full")
-    return pd.DataFrame([{"name": name, **{k: summary.get(k) for k in keys}} for name, summary in results])
+    from pvsource.alerts import ALERTS
+
+    fired = [a.name for a in ALERTS if any(s.get("alert_hours", {}).get(a.name, 0.0) > 0 for _, s in results)]
+    return pd.DataFrame([{"name": name, **{k: summary.get(k) for k in keys},
+                          **{f"alert_hours.{a}": summary.get("alert_hours", {}).get(a, 0.0) for a in fired}}
+                         for name, summary in results])

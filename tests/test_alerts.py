@@ -393,3 +393,13 @@ def test_several_controllers_each_see_their_own_groups():
     assert list(got) == ["east tracker"]
     assert got["east tracker"]["value"] == pytest.approx(voc["east"], rel=1e-6)
     assert got["east tracker"]["message"].startswith("PV input above the controller's maximum voltage: east tracker:")
+
+
+def test_fleet_table_has_a_column_per_alert_that_fired_anywhere():
+    from pvsource.explore import fleet_table
+
+    quiet = {"energy_mpp_kwh": 1.0, "alert_hours": {"pv_input_over_max_v": 0.0, "cable_over_ampacity": 0.0}}
+    loud = {"energy_mpp_kwh": 2.0, "alert_hours": {"pv_input_over_max_v": 12.5, "cable_over_ampacity": 0.0}}
+    table = fleet_table([("quiet", quiet), ("loud", loud)])
+    assert [c for c in table.columns if c.startswith("alert_")] == ["alert_hours.pv_input_over_max_v"]
+    assert table["alert_hours.pv_input_over_max_v"].tolist() == [0.0, 12.5]
