@@ -88,8 +88,15 @@ def read_bounded(path, limit_bytes: int, kind: str, option: str | None = None) -
                 raise InputError(where, None, f"is a device, not a {kind} file")
             if stat.S_ISREG(info.st_mode) and info.st_size > limit_bytes:
                 raise too_big
-            # Streams have no size, and a file may grow while read: count as we go.
-            data = _read_stream(f, limit_bytes)
+            if stat.S_ISREG(info.st_mode):
+                # One read of the size the file has: joining blocks would hold it twice.
+                data = f.read(info.st_size + 1)
+                if len(data) > info.st_size:  # it grew while read: count the rest as it comes
+                    rest = _read_stream(f, limit_bytes - len(data))
+                    data = None if rest is None else data + rest
+            else:
+                # Streams have no size: count as we go.
+                data = _read_stream(f, limit_bytes)
     except IsADirectoryError:
         raise InputError(where, None, f"is a folder, not a {kind} file") from None
     except OSError as exc:
