@@ -18,6 +18,7 @@ from __future__ import annotations
 
 import csv
 import datetime
+import codecs
 import io
 import re
 from pathlib import Path
@@ -104,8 +105,12 @@ def read_weather(path, *, columns: dict | None = None, tz: str | None = None,
     data = read_bounded(path, int(max_mb * MB), "weather", "--max-weather-mb")
     kind = "EPW" if path.suffix.lower() == ".epw" else ("TMY3" if _is_tmy3(data) else None)
     if kind is None:
+        # Handed over in a holder the parser empties, so the file's bytes are
+        # freed once parsed, not held through the conversions.
+        holder = [data]
+        del data
         return read_weather_csv(path, columns=columns, tz=tz, policy=policy, time_label=time_label,
-                                time_format=time_format, data=data)
+                                time_format=time_format, data=holder)
     for option, value in (("--column", columns), ("--time-format", time_format)):
         if value:
             raise InputError(option, None, f"applies to plain CSV files only; {where} is {kind}")
@@ -237,8 +242,10 @@ def read_weather_csv(path, *, columns: dict | None = None, tz: str | None = None
     time_format : str, optional
         A strftime pattern for the timestamps (``--time-format``), e.g.
         ``"%d.%m.%Y %H:%M"`` for day-first dates; default ISO 8601.
-    data : bytes, optional
-        The file's content, already read (`read_weather` reads once).
+    data : bytes or list, optional
+        The file's content, already read (`read_weather` reads once); or a
+        one-item list holding it, which is emptied so the bytes can be freed
+        as soon as they are parsed.
 
     Returns
     -------
@@ -260,7 +267,9 @@ def read_weather_csv(path, *, columns: dict | None = None, tz: str | None = None
         raise InputError("--time-label", time_label, f"unknown; expected one of {', '.join(TIME_LABELS)}")
     if data is None:
         data = read_bounded(path, MAX_WEATHER_MB * MB, "weather", "--max-weather-mb")
-    table, rows, sep = _read_table(path, data)
+    holder = data if isinstance(data, list) else [data]
+    del data
+    table, rows, sep = _read_table(path, holder)
     found = _match_columns(where, list(table.columns), columns or {})
     cells = {name: cell for name, (cell, _) in found.items()}
     notes = []
@@ -286,18 +295,44 @@ def _check_policy(policy):
         raise InputError("--bad-rows", policy, f"unknown; expected one of {', '.join(POLICIES)}")
 
 
-def _read_table(path: Path, data: bytes):
+_BLOCK = 1 << 20
+
+
+def _decodes(data: bytes, encoding: str) -> bool:
+    """Whether ``data`` is text in ``encoding``, checked a block at a time.
+
+    Decoding a whole file at once would hold a second copy of it (a
+    one-minute year is about 54 MB); the decoded blocks are dropped.
+    """
+    decoder = codecs.getincrementaldecoder(encoding)()
+    view = memoryview(data)
+    try:
+        for start in range(0, len(view), _BLOCK):
+            decoder.decode(view[start:start + _BLOCK], final=start + _BLOCK >= len(view))
+        if not len(view):
+            decoder.decode(b"", final=True)
+    except UnicodeDecodeError:
+        return False
+    return True
+
+
+def _head(data: bytes, encoding: str, size: int = 65536) -> str:
+    """The start of the text: enough for the header line and the sniffing."""
+    return codecs.getincrementaldecoder(encoding)().decode(data[:size], final=False)
+
+
+def _read_table(path: Path, holder: list):
+    """The CSV's cells, their file line numbers and the separator; empties ``holder`` (the bytes)."""
     where = str(path)
+    data = holder.pop()
     text = encoding = None
     for encoding in ("utf-16",) if data[:2] in (b"\xff\xfe", b"\xfe\xff") else ("utf-8-sig", "cp1252"):
-        try:
-            text = data.decode(encoding)
+        if _decodes(data, encoding):
+            text = _head(data, encoding)
             break
-        except UnicodeDecodeError:
-            pass
-    if text is None or re.search(r"[\x00-\x08\x0e-\x1f]", text[:65536]):
+    if text is None or re.search(r"[\x00-\x08\x0e-\x1f]", text):
         raise InputError(where, None, "is not a text file; expected a CSV (UTF-8 or a spreadsheet export)")
-    if not re.search(r"\S", text):
+    if not re.search(r"\S", text) and (encoding == "utf-16" or not re.search(rb"\S", data)):
         raise InputError(where, None, "is empty; expected a header line and rows of data")
     sep = max((",", ";", "\t"), key=text.split("\n", 1)[0].count)
     try:
@@ -306,6 +341,7 @@ def _read_table(path: Path, data: bytes):
         # (no skipinitialspace: the number parser skips blanks itself, and text columns are stripped)
         table = pd.read_csv(io.BytesIO(data), encoding=encoding, sep=sep, keep_default_na=False, na_values=[""],
                             skip_blank_lines=False, decimal="," if sep == ";" else ".")
+        del data
     except (pd.errors.ParserError, ValueError) as exc:
         line = re.search(r"line (\d+)", str(exc))
         raise InputError(where, f"row {line.group(1)}" if line else None,
@@ -469,13 +505,13 @@ def _tails(arr) -> list:
     width = np.int64 if pa.types.is_large_string(arr.type) else np.int32
     ends = np.frombuffer(arr.buffers()[1], dtype=width)[arr.offset + 1:arr.offset + len(arr) + 1].astype(np.int64)
     data = np.frombuffer(arr.buffers()[2], dtype=np.uint8)
-    # eight bytes per row (two before the tail) make one int64 key: a hash over
-    # numbers, not half a million strings
-    picks = ends[:, None] - np.arange(8, 0, -1)
-    if len(ends) and ends[0] < 8:
-        picks = np.clip(picks, 0, None)
-    keys = pd.unique(np.ascontiguousarray(data[picks]).view(np.int64).ravel())
-    return [k.tobytes()[2:].decode("utf-8", "replace") for k in keys]
+    # eight bytes per row (two before the tail) make one 64-bit key: a hash over
+    # numbers, not half a million strings; built a byte at a time, so the
+    # temporaries are one row-long array, not eight.
+    keys = np.zeros(len(ends), dtype=np.uint64)
+    for k in range(8, 0, -1):
+        keys = (keys << np.uint64(8)) | data[np.maximum(ends - k, 0)].astype(np.uint64)
+    return [int(key).to_bytes(8, "big")[2:].decode("utf-8", "replace") for key in pd.unique(keys)]
 
 
 def _file_zone(offsets, notes: list):
