@@ -288,10 +288,19 @@ def wiring_loss_heatmap(steps, path) -> Path:
     return save_atomically(fig, path)
 
 
+#: Points drawn of a duration curve; more than a figure's width in pixels.
+DURATION_POINTS = 4000
+
+
 def charge_duration_figure(steps, step_h: float, path) -> Path:
     """Charge current sorted from highest: how many hours the bank sees at least each current."""
     current = np.sort(steps["charge_current_a"].to_numpy())[::-1]
     hours = np.arange(1, len(current) + 1) * step_h
+    if len(current) > DURATION_POINTS:
+        # The curve falls monotonically: a few thousand of its points draw it
+        # to the pixel, and a million would cost a path of a million vertices.
+        keep = np.unique(np.linspace(0, len(current) - 1, DURATION_POINTS).round().astype(np.int64))
+        current, hours = current[keep], hours[keep]
     fig, ax = plt.subplots(figsize=(7.0, 3.6))
     ax.plot(hours, current, color=EXACT, lw=1.4)
     ax.fill_between(hours, 0, current, color=EXACT, alpha=0.12)
