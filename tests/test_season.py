@@ -443,6 +443,10 @@ def test_a_study_cut_into_small_chunks_gives_the_same_steps_and_summary(demo_run
     for key in ENERGY_KEYS + ("min_soc", "days_reaching_full", "p95_charge_current_a"):
         assert cut.summary[key] == pytest.approx(whole.summary[key], rel=1e-12, abs=1e-12), key
     assert cut.summary["hours_by_stage"] == pytest.approx(whole.summary["hours_by_stage"])
+    # Keeping only the summary's columns, in arrays sized for the span, changes no figure of the summary.
+    lean = run_season(system, span, chunk_rows=300, keep="summary")
+    assert lean.summary == cut.summary
+    assert len(lean.steps.columns) < len(cut.steps.columns) and lean.steps.index.equals(cut.steps.index)
 
 
 def test_the_summary_columns_give_the_same_summary_as_every_column(demo_run):
