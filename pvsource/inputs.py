@@ -13,9 +13,11 @@ before the parser sees them.
 
 from __future__ import annotations
 
+import codecs
 import contextlib
 import hashlib
 import os
+import re
 import stat
 from dataclasses import dataclass
 from pathlib import Path
@@ -109,6 +111,105 @@ def read_bounded(path, limit_bytes: int, kind: str, option: str | None = None) -
     return data
 
 
+@dataclass(frozen=True)
+class OnDisk:
+    """A regular file checked and hashed a block at a time but left on disk, to be parsed from its path.
+
+    Attributes
+    ----------
+    path : Path
+    head : bytes
+        Its first 64 KiB, for sniffing the format.
+    encodings : tuple of str
+        Those of the encodings asked for that its whole content decodes in.
+    nonblank : bool
+        Whether it holds anything but whitespace.
+    stamp : tuple
+        (inode, size, modification time [ns]) as read; see :meth:`unchanged`.
+    """
+
+    path: Path
+    head: bytes
+    encodings: tuple
+    nonblank: bool
+    stamp: tuple
+
+    def unchanged(self) -> bool:
+        """Whether the file on disk is still the one that was hashed."""
+        try:
+            return _stamp(os.stat(self.path)) == self.stamp
+        except OSError:
+            return False
+
+
+def _stamp(info) -> tuple:
+    return info.st_ino, info.st_size, info.st_mtime_ns
+
+
+HEAD_BYTES = 65536
+
+
+def scan_bounded(path, limit_bytes: int, kind: str, option: str | None = None, encodings=()) -> bytes | OnDisk:
+    """Like :func:`read_bounded`, but a regular file is scanned in blocks and left on disk.
+
+    Its hash, size and the encodings it decodes in are found a block at a
+    time, so a large file is never held whole in memory; the caller parses it
+    from its path and checks :meth:`OnDisk.unchanged` afterwards. Streams,
+    FIFOs and anything else are read once into memory by :func:`read_bounded`.
+
+    Parameters
+    ----------
+    path, limit_bytes, kind, option
+        As for :func:`read_bounded`.
+    encodings : callable or sequence of str
+        The text encodings to try, or a function of the file's head that gives them.
+    """
+    where = str(path)
+    try:
+        info = os.stat(path)
+    except OSError:
+        info = None
+    if info is None or not stat.S_ISREG(info.st_mode):
+        return read_bounded(path, limit_bytes, kind, option)
+    too_big = InputError(where, None, f"is larger than the {_size(limit_bytes)} limit for a {kind} file"
+                         + (f"; raise it with {option}" if option else ""))
+    if info.st_size > limit_bytes:
+        raise too_big
+    digest, size, head, nonblank, decoders = hashlib.sha256(), 0, b"", False, None
+    try:
+        with open(path, "rb") as f:
+            before = _stamp(os.fstat(f.fileno()))
+            while True:
+                block = f.read(MB)
+                if decoders is None:
+                    head = block[:HEAD_BYTES]
+                    names = encodings(head) if callable(encodings) else tuple(encodings)
+                    decoders = {n: codecs.getincrementaldecoder(n)() for n in names}
+                final = not block
+                for name in list(decoders):
+                    try:
+                        decoders[name].decode(block, final=final)
+                    except UnicodeDecodeError:
+                        del decoders[name]
+                if final:
+                    break
+                digest.update(block)
+                size += len(block)
+                nonblank = nonblank or re.search(rb"\S", block) is not None
+                if size > limit_bytes:
+                    raise too_big
+            after = _stamp(os.fstat(f.fileno()))
+    except IsADirectoryError:
+        raise InputError(where, None, f"is a folder, not a {kind} file") from None
+    except OSError as exc:
+        raise InputError(where, None, f"cannot be read ({exc.strerror or exc})") from None
+    if after != before or after[1] != size:
+        raise InputError(where, None, "changed while it was read; run again once it is complete")
+    for seen in _RECORDERS:
+        seen.append(Read(where, kind, digest.hexdigest(), size))
+    return OnDisk(Path(path), head, tuple(decoders), nonblank, after)
+
+
 def _read_stream(f, limit_bytes: int) -> bytes | None:
     """A file, pipe or FIFO to its end; None once it runs past the limit.
 
@@ -123,6 +224,29 @@ def _read_stream(f, limit_bytes: int) -> bytes | None:
         blocks.append(block)
         total += len(block)
     return None
+
+
+def release_memory() -> None:
+    """Hand memory freed by finished work back to the operating system, where the C library allows it.
+
+    glibc keeps freed small and medium blocks in its heap for reuse; after a
+    large parse or a chunk of a study, that is tens of megabytes the process
+    still counts as its own. ``malloc_trim(0)`` returns them. Elsewhere (no
+    glibc) this does nothing.
+    """
+    global _TRIM
+    if _TRIM is None:
+        try:
+            import ctypes
+
+            _TRIM = ctypes.CDLL("libc.so.6").malloc_trim
+        except (OSError, AttributeError):
+            _TRIM = False
+    if _TRIM:
+        _TRIM(0)
+
+
+_TRIM = None
 
 
 def _size(n: int) -> str:

@@ -28,7 +28,7 @@ import pandas as pd
 from pvlib import iotools
 
 from pvsource.errors import InputError
-from pvsource.inputs import MAX_WEATHER_MB, MB, read_bounded
+from pvsource.inputs import MAX_WEATHER_MB, MB, OnDisk, read_bounded, release_memory, scan_bounded
 
 NAMES = ("timestamp", "ghi", "dni", "dhi", "poa_global", "temp_air", "wind_speed", "load_w")
 IRRADIANCE = ("ghi", "dni", "dhi", "poa_global")
@@ -102,8 +102,9 @@ def read_weather(path, *, columns: dict | None = None, tz: str | None = None,
     """
     path, where = Path(path), str(path)
     _check_policy(policy)
-    data = read_bounded(path, int(max_mb * MB), "weather", "--max-weather-mb")
-    kind = "EPW" if path.suffix.lower() == ".epw" else ("TMY3" if _is_tmy3(data) else None)
+    data = scan_bounded(path, int(max_mb * MB), "weather", "--max-weather-mb", encodings=_encodings)
+    head = data.head if isinstance(data, OnDisk) else data
+    kind = "EPW" if path.suffix.lower() == ".epw" else ("TMY3" if _is_tmy3(head) else None)
     if kind is None:
         # Handed over in a holder the parser empties, so the file's bytes are
         # freed once parsed, not held through the conversions.
@@ -114,6 +115,8 @@ def read_weather(path, *, columns: dict | None = None, tz: str | None = None,
     for option, value in (("--column", columns), ("--time-format", time_format)):
         if value:
             raise InputError(option, None, f"applies to plain CSV files only; {where} is {kind}")
+    if isinstance(data, OnDisk):  # a file of a year of hours: small enough to hold
+        data = _whole(data)
     if time_label not in (None, "end"):
         raise InputError("--time-label", time_label, f"{where} is {kind}, whose values are means over the "
                          "hour ending at each label by definition; leave --time-label out")
@@ -279,6 +282,7 @@ def read_weather_csv(path, *, columns: dict | None = None, tz: str | None = None
     for name, cell in cells.items():
         if name != "timestamp":
             values[name], raw[name] = _as_numbers(table[cell], sep)
+    del table  # the cells live on in ``values`` and ``raw``; the rest is freed before the frame is built
     units = {name: _unit(where, name, *found[name]) for name in values}
     frame = _finish(where, times, values, raw, cells, units, rows, policy, notes,
                     f"does not match --time-format {time_format!r}" if time_format else ISO_EXPECTED)
@@ -287,7 +291,9 @@ def read_weather_csv(path, *, columns: dict | None = None, tz: str | None = None
                                     "at their timestamps; if they are means over an interval, say which end "
                                     "the label marks (--time-label start, middle or end)")
     label = time_label or DEFAULT_TIME_LABEL
-    return place_in_time(frame, label, "--time-label" if time_label else "the default for CSV")
+    frame = place_in_time(frame, label, "--time-label" if time_label else "the default for CSV")
+    release_memory()  # the parse's temporaries, several times the frame, are gone
+    return frame
 
 
 def _check_policy(policy):
@@ -321,31 +327,58 @@ def _head(data: bytes, encoding: str, size: int = 65536) -> str:
     return codecs.getincrementaldecoder(encoding)().decode(data[:size], final=False)
 
 
+def _encodings(head: bytes) -> tuple:
+    """The encodings a CSV may be in, in the order tried: UTF-16 by its mark, else UTF-8, else Windows' Latin."""
+    return ("utf-16",) if head[:2] in (b"\xff\xfe", b"\xfe\xff") else ("utf-8-sig", "cp1252")
+
+
+def _whole(source: OnDisk) -> bytes:
+    """The bytes of a file scanned on disk, refused if it changed since."""
+    data = source.path.read_bytes()
+    if not source.unchanged():
+        raise InputError(str(source.path), None, "changed while it was read; run again once it is complete")
+    return data
+
+
 def _read_table(path: Path, holder: list):
-    """The CSV's cells, their file line numbers and the separator; empties ``holder`` (the bytes)."""
+    """The CSV's cells, their file line numbers and the separator; empties ``holder``.
+
+    ``holder`` has the file's bytes, or the :class:`~pvsource.inputs.OnDisk`
+    scan of a regular file, which is then parsed from its path (never held
+    whole in memory).
+    """
     where = str(path)
     data = holder.pop()
-    text = encoding = None
-    for encoding in ("utf-16",) if data[:2] in (b"\xff\xfe", b"\xfe\xff") else ("utf-8-sig", "cp1252"):
-        if _decodes(data, encoding):
-            text = _head(data, encoding)
-            break
+    if isinstance(data, OnDisk):
+        encoding = data.encodings[0] if data.encodings else None
+        text = _head(data.head, encoding) if encoding else None
+        nonblank = data.nonblank
+    else:
+        text = encoding = None
+        for encoding in _encodings(data):
+            if _decodes(data, encoding):
+                text = _head(data, encoding)
+                break
+        nonblank = re.search(rb"\S", data) is not None
     if text is None or re.search(r"[\x00-\x08\x0e-\x1f]", text):
         raise InputError(where, None, "is not a text file; expected a CSV (UTF-8 or a spreadsheet export)")
-    if not re.search(r"\S", text) and (encoding == "utf-16" or not re.search(rb"\S", data)):
+    if not re.search(r"\S", text) and (encoding == "utf-16" or not nonblank):
         raise InputError(where, None, "is empty; expected a header line and rows of data")
     sep = max((",", ";", "\t"), key=text.split("\n", 1)[0].count)
     try:
         # pandas' own parser types the columns: numbers come out as floats at
         # its speed, and only a column that is not all numbers is read as text.
         # (no skipinitialspace: the number parser skips blanks itself, and text columns are stripped)
-        table = pd.read_csv(io.BytesIO(data), encoding=encoding, sep=sep, keep_default_na=False, na_values=[""],
-                            skip_blank_lines=False, decimal="," if sep == ";" else ".")
-        del data
+        table = pd.read_csv(str(data.path) if isinstance(data, OnDisk) else io.BytesIO(data), encoding=encoding,
+                            sep=sep, keep_default_na=False, na_values=[""], skip_blank_lines=False,
+                            decimal="," if sep == ";" else ".", compression=None)
     except (pd.errors.ParserError, ValueError) as exc:
         line = re.search(r"line (\d+)", str(exc))
         raise InputError(where, f"row {line.group(1)}" if line else None,
                          "has more fields than the header") from None
+    if isinstance(data, OnDisk) and not data.unchanged():
+        raise InputError(where, None, "changed while it was read; run again once it is complete")
+    del data
     table.columns = [str(c).strip() for c in table.columns]
     # blank lines are kept as empty rows here, so position + 2 is the file's line
     rows = np.arange(len(table)) + 2

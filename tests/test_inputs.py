@@ -150,3 +150,37 @@ def test_dev_zero_and_hostile_toml_under_a_memory_limit(tmp_path):
     assert "is a device" in lines[0] and "is a device" in lines[1] and "--max-weather-mb" in lines[2]
     assert "dotted parts" in lines[3] and "deeper than" in lines[4]
     assert not (tmp_path / "o1").exists() and not (tmp_path / "o2").exists()
+
+
+def test_a_weather_file_that_changes_while_read_is_refused(tmp_path, monkeypatch):
+    # A regular file is hashed in blocks and parsed from disk; if it is not the
+    # file that was hashed by the time it is parsed, the manifest would lie.
+    import pandas as pd
+
+    from pvsource import weather
+
+    path = tmp_path / "w.csv"
+    path.write_text("\n".join(weather_lines()) + "\n")
+    real = pd.read_csv
+
+    def grows(*args, **kwargs):
+        with open(path, "a") as f:
+            f.write(weather_lines(49)[-1] + "\n")
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(weather.pd, "read_csv", grows)
+    with pytest.raises(InputError, match="changed while it was read"):
+        read_weather(path)
+
+
+def test_a_regular_weather_file_is_hashed_in_blocks_as_a_stream_would_be(tmp_path):
+    # The same content read from disk (scanned in blocks, parsed from the path)
+    # and from memory gives the same frame and the same recorded hash.
+    import hashlib
+
+    plain = tmp_path / "w.csv"
+    plain.write_text("\ufeff" + "\n".join(weather_lines()) + "\n", encoding="utf-8")
+    with recording() as seen:
+        from_disk = read_weather(plain)
+    assert seen[0].sha256 == hashlib.sha256(plain.read_bytes()).hexdigest()
+    assert from_disk.equals(read_weather_csv(plain, data=plain.read_bytes()))
