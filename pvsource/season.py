@@ -25,6 +25,7 @@ from pvsource import bank as bank_model
 from pvsource.alerts import alert_codes, alert_hours
 from pvsource.compiled import kernel
 from pvsource.errors import InputError
+from pvsource.inputs import release_memory
 from pvsource.module import model_notes
 from pvsource.operating import CHUNK_SIZE, operating_points, require_one_controller
 from pvsource.regulation import BANK_FULL, NONE_FULL, SOURCE, regulate
@@ -531,6 +532,7 @@ def run_season(system: System, weather: pd.DataFrame, *, transposition: str = "p
                 kept = _KeptSteps(len(weather), weather.index, summary_columns(steps.columns))
             kept.add(steps)
         del steps
+        release_memory()  # the chunk's temporaries: the next chunk starts from what is kept
         report(k + 1, len(bounds))
     if keep == "all":
         steps = kept[0] if len(kept) == 1 else pd.concat(kept)
