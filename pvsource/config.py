@@ -30,7 +30,8 @@ from pvsource.module import Datasheet, DiodeParameters, Module, fit_datasheet, m
 from pvsource.names import did_you_mean, nearest
 from pvsource.system import LOAD_KINDS, ControllerGroups, Load, Site, System
 from pvsource.units import (
-    CELL_TEMP_RANGE_C, IRRADIANCE_RANGE_W_M2, design_irradiance_note, irradiance_hint, temperature_hint, with_hint,
+    CELL_TEMP_RANGE_C, FOOT_M, IRRADIANCE_RANGE_W_M2, design_irradiance_note, irradiance_hint, temperature_hint,
+    with_hint,
 )
 from pvsource.wiring import GROUP_ROLES, ROLES, CableRun
 
@@ -310,10 +311,17 @@ def parse_cable(table: Table, index: int, group_names, controller_names=(), seve
         ampacity_tables.check_series(size.series, installed, where, {k: table.field(k) for k in installed})
     fuse = table.number("fuse_a", float("nan"), positive=True, maximum=1.0e5)
     interrupting = table.number("fuse_interrupting_a", float("nan"), positive=True, maximum=1.0e7)
+    # Many installers measure in feet: length_ft is the same one-way length, never beside length_m.
+    if table.has("length_ft"):
+        if table.has("length_m"):
+            raise InputError(where, table.field("length_ft"), "give length_m or length_ft, not both")
+        length_m = table.number("length_ft", positive=True, maximum=MAX_LENGTH_M / FOOT_M) * FOOT_M
+    else:
+        length_m = table.number("length_m", positive=True, maximum=MAX_LENGTH_M)
     run = CableRun(
         name=table.text("name", f"cable {index + 1}"),
         role=role,
-        length_m=table.number("length_m", positive=True, maximum=MAX_LENGTH_M),
+        length_m=length_m,
         resistance_ohm_per_km=r_km,
         group=group,
         conductors_in_parallel=table.number("conductors_in_parallel", 1, integer=True, positive=True, maximum=100),

@@ -15,6 +15,7 @@ import numpy as np
 from pvsource import conductors
 from pvsource.errors import InputError
 from pvsource.system import System
+from pvsource.units import FOOT_M
 from pvsource.ampacity import (
     CONTINUOUS_FACTOR, Installation, check_installation, check_series, needed_protection_a,
     smallest_size_for_current,
@@ -29,8 +30,6 @@ OPTIONS_SHOWN = 3
 #: not a requirement; on a low-voltage battery side each per cent of drop is
 #: a larger current's loss, so many designers aim lower there.
 DEFAULT_DROP_BUDGET = 0.03
-#: One foot [m].
-FOOT_M = 0.3048
 
 
 @dataclass(frozen=True)

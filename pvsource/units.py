@@ -27,6 +27,8 @@ KW_M2_TYPED_MAX = 2.0
 # a luminous efficacy near 100 lm/W); values this large are lux, not W/m2.
 LUX_PER_W_M2 = 100.0
 ABSOLUTE_ZERO_C = -273.15
+#: One international foot [m] (exact, by definition).
+FOOT_M = 0.3048
 
 
 def irradiance_hint(value_w_m2: float) -> str | None:

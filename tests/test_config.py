@@ -193,6 +193,18 @@ def test_bad_cable_tables(tmp_path, edit, field, words):
     assert exc.value.field == field and words in exc.value.expected
 
 
+def test_a_run_may_give_its_length_in_feet(tmp_path):
+    # The international foot is 0.3048 m exactly (1959 international yard and pound agreement): 100 ft = 30.48 m.
+    import re
+    text = re.sub(r"length_m = [0-9.]+", "length_ft = 100", GOOD, count=1)
+    assert text != GOOD
+    run = load_system(write(tmp_path, text)).cables[0]
+    assert run.length_m == pytest.approx(30.48, rel=1e-12)
+    with pytest.raises(InputError) as exc:
+        load_system(write(tmp_path, text.replace("length_ft = 100", "length_ft = 100\nlength_m = 30")))
+    assert exc.value.field.endswith("length_ft") and "not both" in exc.value.expected
+
+
 def test_a_run_names_its_protective_device(tmp_path):
     run = load_system(write(tmp_path, GOOD.replace("resistance_ohm_per_km = 3.4",
                                                    'size = "6 mm2"\nprotection = "breaker"'))).cables[0]
