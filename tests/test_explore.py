@@ -375,6 +375,21 @@ def test_each_cost_part_is_the_summary_figure_times_its_price(short_year, monkey
     assert row["autonomy_days"] == pytest.approx(nominal_kwh * (1 - soc_off) / (summary["load_kwh"] / 6.0))
 
 
+def test_usable_energy_ends_where_the_bank_disconnects_its_loads(short_year):
+    # A bank that says where its loads are disconnected (``[bank] min_soc``) is taken at its word;
+    # one that does not gets its chemistry's depth: half of a lead-acid bank (common practice:
+    # 50 % depth of discharge for cycle life), 80 % of a lithium one (common practice).
+    from types import SimpleNamespace
+
+    system = short_year[0]
+    lfp, lead = system.bank.chemistry, SimpleNamespace(key="lead-acid-flooded")
+    assert ex.disconnect_soc(SimpleNamespace(min_soc=0.35, chemistry=lfp)) == 0.35
+    if getattr(system.bank, "min_soc", None) is None:
+        assert ex.disconnect_soc(system.bank) == 0.2
+    assert ex.disconnect_soc(SimpleNamespace(chemistry=lead)) == 0.5
+    assert ex.disconnect_soc(SimpleNamespace(chemistry=SimpleNamespace(key="unknown"))) == 0.0
+
+
 def test_a_summary_without_generator_figures_costs_no_fuel(short_year):
     # Before (or without) a generator the season summary has no generator_* keys: they count as 0.
     system, weather = short_year
