@@ -426,3 +426,44 @@ def test_the_results_csv_is_guarded_like_every_output(capsys, tmp_path, short_ye
                            "tilt_deg=20", "--out", str(out), "--force", "--price-per-kg", "12", "--energy-value", "0.3")
     assert code == 2 and "would overwrite the input" in err and err.count("\n") == 1
     assert weather_file.read_bytes() == before and sorted(p.name for p in out.iterdir()) == ["results.csv"]
+
+
+def test_a_hybrid_hut_prices_its_generator_fuel_and_shows_its_hours(capsys, tmp_path):
+    # The shipped hut with a petrol set, six January days. Its fuel cost is worked by hand from the
+    # season's own fuel total: litres over the span, scaled to a year of 8760 h, x price x years.
+    # A smaller bank starts the set more often and burns more: priced at 2 per litre, that fuel
+    # outweighs the 200 Ah of LFP (8 x 3.2 V, common practice) saved at 400 per kWh.
+    from dataclasses import replace
+
+    from conftest import DATA
+    from pvsource.config import load_system
+    from pvsource.season import run_season
+
+    hut = DATA / "example-hut-generator.toml"
+    system = load_system(hut)
+    weather = synthetic_weather(system).iloc[: 24 * 6]
+    csv = write_weather_csv(weather, tmp_path / "w.csv")
+
+    def explore(out, *prices):
+        return run_cli(capsys, "explore", str(hut), str(csv), "--vary", "bank_capacity_ah=100,300", "--out",
+                       str(tmp_path / out), "--price-per-kg", "12", "--energy-value", "0.3", "--workers", "1",
+                       "--bank-price-per-kwh", "400", *prices)
+
+    code, text, err = explore("fuel", "--fuel-price", "2", "--json")
+    assert code == 0, err
+    rows = {r["bank_capacity_ah"]: r for r in json.loads(text)["rows"]}
+    for capacity, row in rows.items():
+        summary = run_season(replace(system, bank=replace(system.bank, capacity_ah=capacity)), weather).summary
+        assert summary["generator_fuel_l"] > 0
+        assert row["fuel_cost"] == pytest.approx(summary["generator_fuel_l"] * 8760 / 144 * 2.0 * 10.0, rel=1e-9)
+        assert row["generator_hours_per_year"] == pytest.approx(summary["generator_hours"] * 8760 / 144, rel=1e-9)
+    assert rows[100.0]["generator_fuel_l_per_year"] > rows[300.0]["generator_fuel_l_per_year"]
+    assert [r["bank_capacity_ah"] for r in json.loads(text)["rows"]] == [300.0, 100.0]
+    code, text, err = explore("free")
+    assert code == 0 and "--fuel-price-per-l: not given: generator fuel" in err
+    lines = text.splitlines()
+    assert "gen h/yr" in lines[2] and "autonomy d" in lines[2]
+    # Fuel left unpriced, the smaller bank is the cheaper; its row shows its generator hours.
+    first = lines[3].split()
+    assert first[:2] == ["1", "100.0"]
+    assert float(first[5].replace(",", "")) == pytest.approx(round(rows[100.0]["generator_hours_per_year"]))
