@@ -607,7 +607,7 @@ def _with_generator(steps: pd.DataFrame, gen, run: dict, load_w) -> pd.DataFrame
 
     accounts = step_accounts(gen, run["running"], run["charge_a"], load_w, steps["bank_emf_v"].to_numpy(),
                              steps["bank_r_ohm"].to_numpy(), steps["charge_current_a"].to_numpy())
-    return steps.assign(generator_running=run["running"], generator_start=run["starts"], **accounts)
+    return steps.assign(generator_running=run["running"], generator_starts=run["starts"], **accounts)
 
 
 def _step_hours(index) -> float:
@@ -635,7 +635,7 @@ def _energies(steps: pd.DataFrame, step_h: float) -> dict:
     if "generator_w" in steps:
         out.update({
             "generator_hours": float(steps["generator_running"].sum() * step_h),
-            "generator_starts": int(steps["generator_start"].sum()),
+            "generator_starts": int(steps["generator_starts"].sum()),
             "generator_energy_kwh": kwh("generator_w"),
             "generator_load_kwh": kwh("generator_load_w"),
             "generator_charger_loss_kwh": kwh("generator_charger_loss_w"),
@@ -697,7 +697,9 @@ def hourly_table(steps: pd.DataFrame, step_h: float) -> pd.DataFrame:
     - every other number is the hour's mean (NaN steps left out);
     - ``converged`` holds if it held at every step; ``stage`` and ``limit``
       are the ones that held longest; ``alerts`` has the bit of every alert
-      that fired in the hour (:mod:`pvsource.alerts`);
+      that fired in the hour (:mod:`pvsource.alerts`); ``generator_starts``
+      counts the generator's starts within the hour (``generator_running``,
+      a mean, is the share of the hour it ran);
     - ``covered_h`` is the time the row's steps cover [h]: 1 for a complete
       hour, less where steps are missing.
 
@@ -732,6 +734,8 @@ def hourly_table(steps: pd.DataFrame, step_h: float) -> pd.DataFrame:
         col = steps[name].to_numpy()
         if name == "alerts":
             out[name] = np.bitwise_or.reduceat(col, starts)  # every alert that fired within the hour
+        elif name == "generator_starts":
+            out[name] = np.add.reduceat(col, starts)  # a count, not a mean
         elif col.dtype.kind == "b":
             out[name] = np.add.reduceat(~col, starts) == 0
         elif col.dtype.kind in "iuf":

@@ -273,8 +273,15 @@ def test_hourly_and_one_minute_steps_give_the_same_generator_hours(winter_with_g
     m = h.loc[h.index.repeat(60)]
     m.index = m.index + pd.to_timedelta(np.tile(np.arange(60), len(h)), unit="min")
     m.attrs = dict(h.attrs, step_h=1 / 60)
-    a, b = run_season(system, h).summary, run_season(system, m).summary
+    minutes = run_season(system, m)
+    a, b = run_season(system, h).summary, minutes.summary
     assert a["generator_hours"] > 10.0
+    # The clock hours of the minutes count the starts and give each hour's share run.
+    from pvsource.season import hourly_table
+
+    hours = hourly_table(minutes.steps, 1 / 60)
+    assert hours["generator_starts"].sum() == b["generator_starts"]
+    assert hours["generator_running"].sum() == pytest.approx(b["generator_hours"], rel=1e-9)
     assert b["generator_hours"] == pytest.approx(a["generator_hours"], rel=0.02)
     assert abs(b["generator_starts"] - a["generator_starts"]) <= 1
     assert b["generator_fuel_l"] == pytest.approx(a["generator_fuel_l"], rel=0.02)
@@ -287,7 +294,7 @@ def test_chunks_of_months_carry_the_generators_state(winter_with_generator):
 
     system, weather, whole = winter_with_generator
     pieces = run_season(system, weather, chunk_rows=24 * 7)
-    for column in ("soc", "generator_running", "generator_start", "generator_charge_a", "generator_fuel_l_per_h"):
+    for column in ("soc", "generator_running", "generator_starts", "generator_charge_a", "generator_fuel_l_per_h"):
         assert pieces.steps[column].to_numpy() == pytest.approx(whole.steps[column].to_numpy(), abs=1e-9), column
     assert pieces.summary["generator_starts"] == whole.summary["generator_starts"]
 
@@ -313,4 +320,8 @@ def test_the_season_command_writes_the_generator_through(capsys, tmp_path):
     assert monthly["generator_hours"].sum() == pytest.approx(summary["generator_hours"], rel=1e-9)
     steps = pd.read_parquet(tmp_path / "out" / "steps.parquet")
     assert steps["generator_running"].sum() * summary["step_h"] == pytest.approx(summary["generator_hours"], rel=1e-9)
+    # hourly.csv: the hour's starts are counted, its share run is a mean (hourly steps: one row per step).
+    hourly = pd.read_csv(tmp_path / "out" / "hourly.csv")
+    assert hourly["generator_starts"].sum() == summary["generator_starts"]
+    assert hourly["generator_running"].sum() == pytest.approx(summary["generator_hours"], rel=1e-9)
     assert "Backup generator" in (tmp_path / "out" / "report.html").read_text()
