@@ -21,6 +21,9 @@ COLD_VOC = "Voc rises as cells cool: check the string against the site's record 
 BATTERY_CABLES = "Size battery cables and their fuses for the bank's fault current, not for the PV current."
 STRING_FUSES = ("With three or more strings in parallel, a faulted string takes the other strings' current backwards: "
                 "string fuses or a rating for that backfeed are needed (NEC 690.9, or the local equivalent).")
+GENERATOR = ("A generator's exhaust carries carbon monoxide: run it outdoors, away from doors, windows and vents; "
+             "store its fuel as local rules require; connect it only through a transfer switch or interlock so it "
+             "can never feed back into other supplies, and earth and bond it as the local code requires.")
 CLOSING = ("These results are estimates from a model; the design must follow local electrical codes and be "
            "reviewed and installed by licensed practitioners.")
 
@@ -48,7 +51,8 @@ def for_command(command: str, system=None) -> list[str]:
         reports power and efficiency against one variable.
     system : System, optional
         Adds the battery cautions when it has a bank, and the string-fuse
-        caution from three strings in parallel on one controller.
+        caution from three strings in parallel on one controller, and for
+        ``check``, ``season`` and ``explore`` the generator's when it has one.
     """
     if command not in COMMANDS:
         raise ValueError(f"no cautions for {command!r}")
@@ -67,4 +71,6 @@ def for_command(command: str, system=None) -> list[str]:
         parts = system.parts() if hasattr(system, "parts") else (system,)
         if command in _BATTERY_CABLES and max(sum(g.strings for g in p.groups) for p in parts) >= 3:
             items.append(STRING_FUSES)
+        if command in ("check", "season", "explore") and getattr(system, "generator", None) is not None:
+            items.append(GENERATOR)
     return [*items, CLOSING]

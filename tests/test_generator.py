@@ -325,3 +325,14 @@ def test_the_season_command_writes_the_generator_through(capsys, tmp_path):
     assert hourly["generator_starts"].sum() == summary["generator_starts"]
     assert hourly["generator_running"].sum() == pytest.approx(summary["generator_hours"], rel=1e-9)
     assert "Backup generator" in (tmp_path / "out" / "report.html").read_text()
+
+
+def test_a_generator_brings_its_caution(tmp_path):
+    from pvsource import cautions
+    from pvsource.terminal import render_season
+
+    system = load_system(write(tmp_path, GENERATOR))
+    assert cautions.GENERATOR in cautions.for_command("check", system)
+    assert cautions.GENERATOR not in cautions.for_command("check", load_system(write(tmp_path, BANK)))
+    summary = {"start": "a", "end": "b", "steps": 1, "step_h": 1.0, "monthly": []}
+    assert "carbon monoxide" in render_season(system, summary, tmp_path)

@@ -240,6 +240,7 @@ def test_the_report_shows_the_generators_share(generator_run, tmp_path):
     text = _text(page)
     assert "Backup generator" in _text(_section(page, "system")) and "25 % / 80 %" in text
     assert "Generator ran." in _text(_section(page, "findings"))
+    assert "carbon monoxide" in _text(_section(page, "cautions"))
     energy = _text(_section(page, "energy"))
     for label, key in (("carried the load", "generator_load_kwh"), ("stored in the bank", "generator_stored_kwh"),
                        ("lost in the charger", "generator_charger_loss_kwh")):
