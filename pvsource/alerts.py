@@ -187,10 +187,19 @@ def controller_inputs(system: System, frame):
         yield a.controller, a.name, voc, isc
 
 
-def _rms_on(frame, current):
+def _rms_on(frame, current, duty_column="duty"):
     """A switched (PWM) current heats as its RMS: the on-state current times sqrt(duty)."""
-    duty = _col(frame, "duty")
+    duty = _col(frame, duty_column)
     return current if duty is None else current * np.sqrt(np.clip(duty, 0.0, 1.0))
+
+
+def _duty_column(system: System, assigned) -> str:
+    """The duty a run's current is switched with: its own controller's with several (``ctrl_<name>_duty``)."""
+    from pvsource.operating import controller_column
+
+    if system.several_controllers and assigned is not None:
+        return controller_column(assigned.name, "duty")
+    return "duty"
 
 
 def _run_currents(system: System, frame):
@@ -201,26 +210,30 @@ def _run_currents(system: System, frame):
     Behind a tracker the bank runs carry its smoothed output; behind a switch
     or a wire, the array's current. With several controllers a bank run
     carries its own controller's output, which a row gives only as
-    ``controller_<name>_charge_current_a``; the interconnects carry the total.
+    ``ctrl_<name>_charge_current_a`` (:func:`pvsource.operating.controller_column`);
+    the interconnects carry the total.
     """
+    from pvsource.operating import controller_column
+
     strings = {g.name: g.strings for g in system.groups}
     group_i = {n: _col(frame, f"group_{n}_i_a") for n in system.group_names}
     charge = _col(frame, "charge_current_a")
     several = system.several_controllers
     for run in system.cables:
         mine = _run_controller(system, run)
+        duty = _duty_column(system, mine)
         if run.role == "string":
-            yield run, _rms_on(frame, np.abs(group_i[run.group]) / strings[run.group])
+            yield run, _rms_on(frame, np.abs(group_i[run.group]) / strings[run.group], duty)
         elif run.role == "home-run":
-            yield run, _rms_on(frame, np.abs(group_i[run.group]))
+            yield run, _rms_on(frame, np.abs(group_i[run.group]), duty)
         elif run.role == "feeder" or charge is None or not (several or mine.controller.tracks):
             # The PV current: a feeder's, or the whole load side's without a bank or behind a switch or a wire.
             feeds = mine.groups if mine is not None and run.role == "feeder" else system.group_names
-            yield run, _rms_on(frame, np.abs(sum(group_i[n] for n in feeds)))
+            yield run, _rms_on(frame, np.abs(sum(group_i[n] for n in feeds)), duty)
         elif run.role == "interconnect" or not several:
             yield run, np.abs(charge)  # a tracker's smoothed output, or every controller's together
-        elif f"controller_{mine.name}_charge_current_a" in frame:
-            yield run, np.abs(_col(frame, f"controller_{mine.name}_charge_current_a"))
+        elif controller_column(mine.name, "charge_current_a") in frame:
+            yield run, np.abs(_col(frame, controller_column(mine.name, "charge_current_a")))
 
 
 def _run_controller(system: System, run):
@@ -285,7 +298,8 @@ def measures(system: System, frame) -> list[Measure]:
     if ds is not None and ds.max_series_fuse_a is not None:
         backward = np.zeros(len(frame))
         for g in system.groups:
-            j = _rms_on(frame, _col(frame, f"group_{g.name}_i_a")) / g.strings
+            j = _rms_on(frame, _col(frame, f"group_{g.name}_i_a"), _duty_column(system, system.controller_of(g.name)))
+            j = j / g.strings
             backward = np.fmax(backward, -j)
         out.append(_measure("string_reverse_over_fuse", backward, ds.max_series_fuse_a,
                             _over(backward, ds.max_series_fuse_a)))

@@ -579,6 +579,10 @@ def parse_system(data: dict, where: str, base_dir: Path) -> System:
         for label, (_, controller) in zip(_controller_labels(data), labelled):
             if controller.kind is None:
                 raise InputError(where, f"{label}.kind", "a [bank] needs a controller: kind = direct, pwm or mppt")
+            if several and not controller.regulates:
+                raise InputError(where, f"{label}.kind",
+                                 f"a {controller.kind} connection cannot share the bank with other controllers "
+                                 "(nothing would regulate it): use pwm or mppt, or one [controller]")
             if controller.max_input_v is not None and controller.max_input_v <= float(v_abs):
                 raise InputError(where, f"{label}.max_input_v",
                                  f"{controller.max_input_v:g} V is not above the bank's {float(v_abs):.1f} V "

@@ -381,6 +381,8 @@ def _drift(net: Network, point: Point, acc: Accounts, views: dict, check: bool) 
 def _solve_chunk(system: System, g_w_m2, t_c, soc=None, bank_temp_c=None, drift_check: bool = True,
                  charge_cap_a=None, floating=None) -> dict:
     """All outputs for one chunk of conditions, as a dict of 1-D arrays."""
+    if system.several_controllers:
+        return _solve_shared_chunk(system, g_w_m2, t_c, soc, bank_temp_c, drift_check, charge_cap_a, floating)
     state = parameters_at(system.module.parameters, g_w_m2, t_c)
     net = Network(state, system.n_series, system.n_parallel, system.wiring.r_string_ohm, system.wiring.r_home_ohm)
     keys = _key_points(system, net)
@@ -390,6 +392,101 @@ def _solve_chunk(system: System, g_w_m2, t_c, soc=None, bank_temp_c=None, drift_
     drift, drift_converged = _drift(net, point, acc, views, drift_check)
     return _columns(system, g_w_m2, t_c, keys, point, acc, views, drift,
                     keys.converged & point.converged & drift_converged, soc, bank_temp_c)
+
+
+#: Each controller's own columns when several share the bank, as ``ctrl_<name>_<key>``.
+CONTROLLER_KEYS = ("charge_current_a", "stage", "limit", "input_v", "curtailed_w", "loss_w", "generated_w", "v",
+                   "i_a", "duty")
+CONTROLLER_PREFIX = "ctrl_"
+# A part's column for each of a controller's own keys.
+_PART_KEY = {"input_v": "controller_input_v", "loss_w": "controller_loss_w", "i_a": "i"}
+# Columns that add up over the controllers' parts.
+_SUMMED = ("i", "p", "generated_w", "string_loss_w", "home_run_loss_w", "feeder_loss_w", "controller_loss_w",
+           "curtailed_w")
+# Columns of one bus, which several controllers do not share: each has its own (``ctrl_<name>_v``).
+_NO_COMMON_BUS = ("v", "thevenin_e_v", "thevenin_r_ohm", "norton_i_a", "matching_ratio", "load_side_r_ohm",
+                  "load_side_matching_ratio", "share_load_emf_a", "superposition_total_a", "drift_low_i_exact_a",
+                  "drift_low_error", "drift_high_i_exact_a", "drift_high_error", "duty", "controller_input_v")
+
+
+def controller_column(name: str, key: str) -> str:
+    """The column of one controller's own ``key`` (one of :data:`CONTROLLER_KEYS`) with several controllers."""
+    return f"{CONTROLLER_PREFIX}{name}_{key}"
+
+
+def _solve_shared_chunk(system: System, g_w_m2, t_c, soc, bank_temp_c, drift_check, charge_cap_a, floating) -> dict:
+    """One chunk of a system whose groups share several controllers into one bank (:mod:`pvsource.sharing`).
+
+    Each controller's part (:meth:`System.parts`) is solved as its own array
+    and accounted with its own books; the bank's side is split once for all
+    (:class:`pvsource.sharing.SharedCharge`), and the columns add up.
+    """
+    from pvsource.sharing import solve_shared
+
+    parts = system.parts()
+    index = {name: k for k, name in enumerate(system.group_names)}
+    cols = [np.array([index[n] for n in part.group_names]) for part in parts]
+    state = parameters_at(system.module.parameters, g_w_m2, t_c)
+    whole = Network(state, system.n_series, system.n_parallel, system.wiring.r_string_ohm, system.wiring.r_home_ohm)
+    keys = _key_points(system, whole)
+    nets = [Network(parameters_at(system.module.parameters, g_w_m2[:, c], t_c[:, c]), part.n_series,
+                    part.n_parallel, part.wiring.r_string_ohm, part.wiring.r_home_ohm) for part, c in zip(parts, cols)]
+    n = len(g_w_m2)
+    bank_pt = bank_point(system, np.broadcast_to(system.bank.soc if soc is None else soc, (n,)), bank_temp_c,
+                         charge_cap_a, floating)
+    r_interconnect = sum(r.loop_resistance_ohm for r in system.cables if r.role == "interconnect")
+    shared = solve_shared(nets, [part.controller for part in parts], bank_pt,
+                          [part.wiring.r_feeder_ohm for part in parts], [part.wiring.r_bank_ohm for part in parts],
+                          r_interconnect)
+    out, residual = {}, np.zeros(len(bank_pt.emf_v))
+    converged = keys.converged & shared.converged
+    for part, c, net, charge, seen in zip(parts, cols, nets, shared.charges, shared.banks):
+        ctrl = part.controller
+        branch = None if ctrl.tracks else (seen.emf_v + ctrl.diode_drop_v, seen.r_ohm + part.wiring.r_load_side_ohm)
+        point = Point(charge.x_v, charge.bus_v, charge.duty, charge.converged, branch, part.wiring.r_feeder_ohm,
+                      charge, seen)
+        acc = _accounting(part, net, point)
+        views = _linear_views(part, net, point, acc)
+        drift, drift_converged = _drift(net, point, acc, views, drift_check)
+        own = _columns(part, g_w_m2[:, c], t_c[:, c], _key_points(part, net), point, acc, views, drift,
+                       point.converged & drift_converged, soc, bank_temp_c)
+        converged &= own["converged"]
+        residual = np.maximum(residual, np.abs(own["energy_balance_residual"]))
+        for key in CONTROLLER_KEYS:
+            out[controller_column(ctrl.name, key)] = own[_PART_KEY.get(key, key)]
+        for key in _SUMMED:
+            out[key] = out.get(key, 0.0) + own[key]
+        out["bank_loss_w"] = out.get("bank_loss_w", 0.0) + own["bank_loss_w"]
+        out["kvl_residual_v"] = np.maximum(out.get("kvl_residual_v", 0.0), own["kvl_residual_v"])
+        out["kcl_residual_a"] = np.maximum(out.get("kcl_residual_a", 0.0), own["kcl_residual_a"])
+        out.update({k: a for k, a in own.items() if k.startswith(("group_", "share_")) and k != "share_load_emf_a"})
+    out["bank_loss_w"] = out["bank_loss_w"] + shared.shared_cable_loss_w
+    delivered = shared.stored_w + shared.bank_internal_loss_w
+    cable = out["string_loss_w"] + out["home_run_loss_w"] + out["feeder_loss_w"] + out["bank_loss_w"]
+    generated = out["generated_w"]
+    rated_w = float((system.n_series * system.n_parallel).sum()) * float(system.module.fit.stc["p_mp"])
+    # Each part's books close to their own residual; splitting the bank's
+    # side anew is an identity, so only its rounding is added here.
+    split = (generated - cable - out["controller_loss_w"] - delivered) / (
+        np.abs(generated) + cable + np.abs(out["controller_loss_w"]) + np.abs(delivered) + 1e-3 * rated_w)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        efficiency = np.where(generated > 0.0, delivered / generated, np.nan)
+    nan = np.full(len(residual), np.nan)
+    out.update({
+        "source_v_oc": keys.v_oc, "source_i_sc": keys.i_sc, "source_v_mp": keys.v_mp,
+        "source_i_mp": keys.i_mp, "source_p_mp": keys.p_mp, "groups_p_mp_w": keys.groups_p_mp_w,
+        "parallel_mismatch_w": keys.groups_p_mp_w - keys.p_mp, **{k: nan for k in _NO_COMMON_BUS},
+        "load_v": bank_pt.emf_v + shared.charge_current_a * bank_pt.r_ohm, "delivered_w": delivered,
+        "cable_loss_w": cable, "efficiency": efficiency, "mpp_shortfall_w": keys.groups_p_mp_w - generated,
+        "energy_balance_residual": residual + np.abs(split), "converged": converged,
+        "charge_current_a": shared.charge_current_a, "stored_w": shared.stored_w,
+        "bank_internal_loss_w": shared.bank_internal_loss_w, "bank_emf_v": bank_pt.emf_v,
+        "bank_r_ohm": bank_pt.r_ohm, "bank_target_v": bank_pt.target_v, "bank_soc": bank_pt.soc,
+        "bank_temp_c": np.broadcast_to(system.bank.temp_c if bank_temp_c is None else bank_temp_c,
+                                       residual.shape).astype(float),
+        "bank_max_charge_a": bank_pt.max_charge_a, "stage": shared.stage, "limit": shared.limit,
+    })
+    return out
 
 
 def _columns(system, g_w_m2, t_c, keys: KeyPoints, point: Point, acc: Accounts, views: dict, drift: dict,
@@ -441,14 +538,6 @@ def _columns(system, g_w_m2, t_c, keys: KeyPoints, point: Point, acc: Accounts, 
     return out
 
 
-def require_one_controller(system: System) -> None:
-    """Refuse, in one line, a system whose groups share several controllers where only one is solved."""
-    if system.several_controllers:
-        raise InputError(system.source or "system", "[[controller]]",
-                         f"{len(system.controllers)} controllers: `check` handles them, but operating points and "
-                         "season studies are solved for one controller only so far; give one [controller]")
-
-
 def _frame_from_chunks(system: System, g, t, chunk_size: int, soc=None, bank_temp_c=None,
                        drift_check: bool = True, charge_cap_a=None, floating=None) -> pd.DataFrame:
     """Solve chunk by chunk into one preallocated column-major block.
@@ -479,7 +568,8 @@ def _frame_from_chunks(system: System, g, t, chunk_size: int, soc=None, bank_tem
     frame = pd.DataFrame(block, columns=columns, copy=False)
     words = {"stage": reg.STAGE_WORDS, "limit": reg.LIMIT_WORDS}
     for name, arr in others.items():
-        frame[name] = pd.Categorical.from_codes(arr, words[name]) if name in words else arr
+        kind = name.rsplit("_", 1)[-1] if name.startswith(CONTROLLER_PREFIX) else name
+        frame[name] = pd.Categorical.from_codes(arr, words[kind]) if kind in words else arr
     return frame
 
 
@@ -534,7 +624,10 @@ def operating_points(system: System, irradiance_w_m2=None, cell_temp_c=None, *, 
     """
     if on_failure not in ("raise", "flag"):
         raise InputError("on_failure", None, f"expected 'raise' or 'flag', got {on_failure!r}")
-    require_one_controller(system)
+    if system.several_controllers and system.bank is None:
+        raise InputError(system.source or "system", "[[controller]]",
+                         "several controllers without a [bank] are input limits for `check` only; "
+                         "give the [bank] they charge to solve an operating point")
     g = _condition_array(system, irradiance_w_m2, "irradiance_w_m2", "irradiance_w_m2", IRRADIANCE_RANGE_W_M2,
                          "W/m2")
     t = _condition_array(system, cell_temp_c, "cell_temp_c", "cell_temp_c", CELL_TEMP_RANGE_C, "degC")
@@ -578,7 +671,7 @@ def operating_points(system: System, irradiance_w_m2=None, cell_temp_c=None, *, 
     eff = frame["efficiency"].to_numpy()[ok]
     if np.any(eff > 1.0 + ENERGY_BALANCE_TOLERANCE):
         raise PhysicsGuardError("an efficiency above 1 was computed; result withheld")
-    if system.bank is not None and not system.controller.tracks:
+    if system.bank is not None and system.controller is not None and not system.controller.tracks:
         # Through a switch or a wire the bank cannot get more than the array's short-circuit current.
         over = frame["charge_current_a"].to_numpy()[ok] > frame["source_i_sc"].to_numpy()[ok] * (1 + 1e-9) + 1e-12
         if np.any(over):
@@ -651,14 +744,47 @@ def point_record(system: System, row: pd.Series) -> dict:
         "converged": r["converged"],
     }
     if system.bank is not None:
-        rec["load"] = {"kind": f"{system.bank.chemistry.key} bank through a {system.controller.kind} controller",
+        rec["load"] = {"kind": f"{system.bank.chemistry.key} bank through {controllers_in_words(system)}",
                        "v": r["load_v"], "i": r["charge_current_a"]}
         rec.update({
             "charge_current_a": r["charge_current_a"], "stage": row["stage"], "limit": row["limit"],
             "stored_w": r["stored_w"], "curtailed_w": r["curtailed_w"],
-            "controller": {"kind": system.controller.kind, "input_v": r["controller_input_v"], "duty": r["duty"]},
+            "controllers": controller_records(system, row),
             "bank": {"chemistry": system.bank.chemistry.key, "emf_v": r["bank_emf_v"], "r_ohm": r["bank_r_ohm"],
                      "target_v": r["bank_target_v"], "max_charge_a": r["bank_max_charge_a"],
                      "soc": r["bank_soc"], "temp_c": r["bank_temp_c"]},
         })
+        if not system.several_controllers:
+            rec["controller"] = {"kind": system.controller.kind, "input_v": r["controller_input_v"], "duty": r["duty"]}
     return rec
+
+
+def controllers_in_words(system: System) -> str:
+    """``a mppt controller``, or ``2 controllers (east tracker: mppt, west tracker: mppt)``."""
+    if not system.several_controllers:
+        return f"a {system.controller.kind} controller"
+    return f"{len(system.controllers)} controllers (" + ", ".join(
+        f"{c.name}: {c.controller.kind}" for c in system.controllers) + ")"
+
+
+def controller_records(system: System, row: pd.Series) -> list[dict]:
+    """Each controller at one operating point: what it charges, its stage and limit, its input, its losses.
+
+    With one controller these are the row's own columns; with several, each
+    controller's ``ctrl_<name>_...`` columns. The charge currents add up to
+    the row's ``charge_current_a``.
+    """
+    out = []
+    for assigned in system.controllers:
+        if system.several_controllers:
+            get = lambda key, a=assigned: row[controller_column(a.name, key)]  # noqa: E731
+        else:
+            own = {"input_v": "controller_input_v", "loss_w": "controller_loss_w", "i_a": "i"}
+            get = lambda key, own=own: row[own.get(key, key)]  # noqa: E731
+        out.append({"name": assigned.name, "kind": assigned.controller.kind, "groups": list(assigned.groups),
+                    "charge_current_a": _clean(get("charge_current_a")), "stage": str(get("stage")),
+                    "limit": str(get("limit")), "input_v": _clean(get("input_v")),
+                    "curtailed_w": _clean(get("curtailed_w")), "loss_w": _clean(get("loss_w")),
+                    "generated_w": _clean(get("generated_w")), "bus_v": _clean(get("v")),
+                    "array_i_a": _clean(get("i_a")), "duty": _clean(get("duty"))})
+    return out

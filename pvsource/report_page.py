@@ -344,8 +344,8 @@ def _module_block(module) -> str:
 
 def _equipment_block(system, summary: dict) -> str:
     parts = []
-    c = system.controller
-    if c is not None:
+    for assigned in system.controllers:
+        c = assigned.controller
         rows = [("name", c.name or "not named"),
                 ("kind", CONTROLLER_WORDS.get(c.kind, "input limits only") if c.kind else "input limits only")]
         for label, value, digits, unit in (("highest input voltage", c.max_input_v, 0, "V"),
@@ -360,6 +360,8 @@ def _equipment_block(system, summary: dict) -> str:
             rows.append(("input headroom above the bank", fmt(c.min_headroom_v, 1, "V")))
         elif c.diode_drop_v:
             rows.append(("blocking diode drop", fmt(c.diode_drop_v, 2, "V")))
+        if system.several_controllers:
+            rows.insert(1, ("tracks the groups", ", ".join(assigned.groups)))
         parts.append(f"<div><h3>Charge controller</h3>{pairs(rows)}</div>")
     b = system.bank
     if b is not None:
@@ -424,7 +426,7 @@ def relevant(system, key: str) -> bool:
     if key in BANK_KEYS:
         return system.bank is not None
     if key in CONTROLLER_KEYS:
-        return system.bank is not None and system.controller is not None and system.controller.kind is not None
+        return system.bank is not None and any(c.controller.kind is not None for c in system.controllers)
     return True
 
 

@@ -78,6 +78,8 @@ def run_flows(system: System, row) -> list[RunFlow]:
 
     Returns the runs in file order.
     """
+    if system.several_controllers:
+        return _shared_flows(system, row)
     flows: dict[int, RunFlow] = {}
     runs = list(enumerate(system.cables))
     for g in system.groups:
@@ -113,10 +115,49 @@ def run_flows(system: System, row) -> list[RunFlow]:
     return [flows[k] for k, _ in runs]
 
 
+def _shared_flows(system: System, row) -> list[RunFlow]:
+    """:func:`run_flows` with several controllers: each controller's part at its own columns, then the
+    interconnects, which carry every controller's charge current from the bank's terminals."""
+    from pvsource.operating import controller_column
+
+    inter = [r for r in system.cables if r.role == "interconnect"]
+    total = float(row["charge_current_a"])
+    node_v = float(row["load_v"]) + total * sum(r.loop_resistance_ohm for r in inter)
+    by_run = {}
+    for assigned, part in zip(system.controllers, system.parts()):
+        own = {key: float(row[controller_column(assigned.name, key)]) for key in ("v", "i_a", "duty", "charge_current_a")}
+        part_row = {**{k: row[k] for k in row.index if k.startswith("group_")}, "v": own["v"], "i": own["i_a"],
+                    "duty": own["duty"], "charge_current_a": own["charge_current_a"], "load_v": node_v}
+        mine = replace(part, cables=tuple(r for r in part.cables if r.role != "interconnect"))
+        by_run.update({f.run.name: f for f in run_flows(mine, part_row)})
+    v = node_v
+    for run in inter:
+        r = run.loop_resistance_ohm
+        by_run[run.name] = RunFlow(run, total, v, r, total * r, total * total * r, v * total)
+        v -= total * r
+    return [by_run[r.name] for r in system.cables]
+
+
+def _on_path(system: System, run: CableRun, group: str) -> bool:
+    """Whether a run lies on the path from a group's strings to the bank (through its own controller)."""
+    if run.group is not None:
+        return run.group == group
+    if not system.several_controllers or run.role == "interconnect":
+        return True
+    return run.controller == system.controller_of(group).name
+
+
+def _battery_paths(system: System) -> list[list[CableRun]]:
+    """The bank-side runs from each controller's output to the bank (with one controller, all of them)."""
+    battery = [r for r in system.cables if circuit_of(system, r) == "battery"]
+    if not system.several_controllers:
+        return [battery]
+    return [[r for r in battery if r.role == "interconnect" or r.controller == c.name] for c in system.controllers]
+
+
 def path_drops(system: System, flows: list[RunFlow]) -> dict[str, float]:
     """Total drop from each group's string terminals to the load [V]."""
-    load_side = sum(f.drop_v for f in flows if f.run.group is None)
-    return {g.name: load_side + sum(f.drop_v for f in flows if f.run.group == g.name) for g in system.groups}
+    return {g.name: sum(f.drop_v for f in flows if _on_path(system, f.run, g.name)) for g in system.groups}
 
 
 @dataclass(frozen=True)
@@ -260,7 +301,7 @@ def _sizing(flow: RunFlow, budget_fraction, max_circuit_current_a: float, defaul
 
 def circuit_of(system: System, run: CableRun) -> str:
     """``"pv"`` or ``"battery"``: a controller separates the two circuits, each with its own drop budget."""
-    if run.role in ("bank", "interconnect") and system.bank is not None and system.controller is not None:
+    if run.role in ("bank", "interconnect") and system.bank is not None and system.controllers:
         return "battery"
     return "pv"
 
@@ -275,13 +316,17 @@ def budget_shares(system: System) -> dict[str, float]:
     circuit = {r.name: circuit_of(system, r) for r in system.cables}
 
     def path_m(group):
-        return sum(r.length_m for r in system.cables if circuit[r.name] == "pv" and r.group in (None, group))
+        return sum(r.length_m for r in system.cables if circuit[r.name] == "pv" and _on_path(system, r, group))
 
-    longest_pv = max([path_m(g.name) for g in system.groups] + [1e-12])
-    battery_m = sum(r.length_m for r in system.cables if circuit[r.name] == "battery") or 1e-12
+    def longest_pv(run):  # a feeder: the longest path through it
+        return max([path_m(g.name) for g in system.groups if _on_path(system, run, g.name)] + [1e-12])
+
+    def battery_m(run):  # the longest bank-side path through it
+        return max([sum(r.length_m for r in path) for path in _battery_paths(system) if run in path] + [1e-12])
+
     shares = {}
     for r in system.cables:
-        whole = battery_m if circuit[r.name] == "battery" else path_m(r.group) if r.group else longest_pv
+        whole = battery_m(r) if circuit[r.name] == "battery" else path_m(r.group) if r.group else longest_pv(r)
         shares[r.name] = r.length_m / whole
     return shares
 
@@ -292,7 +337,7 @@ def circuit_drops(system: System, flows: list[RunFlow]) -> list[dict]:
     pv = [f for f in flows if circuit_of(system, f.run) == "pv"]
     worst = None
     for g in system.groups:
-        path = [f for f in pv if f.run.group in (None, g.name)]
+        path = [f for f in pv if _on_path(system, f.run, g.name)]
         start = next((f.circuit_v for f in path if f.run.group == g.name), None) or \
             next((f.circuit_v for f in path), None)
         if not path or not start:
@@ -302,11 +347,17 @@ def circuit_drops(system: System, flows: list[RunFlow]) -> list[dict]:
             worst = (g.name, drop, start)
     if worst is not None:
         out.append({"circuit": "pv", "worst_group": worst[0], "drop_v": worst[1], "drop_pct": 100.0 * worst[1] / worst[2]})
-    battery = [f for f in flows if circuit_of(system, f.run) == "battery"]
-    if battery and battery[0].circuit_v > 0:
-        drop = sum(f.drop_v for f in battery)
-        out.append({"circuit": "battery", "worst_group": None, "drop_v": drop,
-                    "drop_pct": 100.0 * drop / battery[0].circuit_v})
+    by_run = {f.run.name: f for f in flows}
+    worst = None
+    for path in _battery_paths(system):
+        battery = [by_run[r.name] for r in path]
+        if battery and battery[0].circuit_v > 0:
+            drop = sum(f.drop_v for f in battery)
+            if worst is None or drop / battery[0].circuit_v > worst[0] / worst[1]:
+                worst = (drop, battery[0].circuit_v)
+    if worst is not None:
+        out.append({"circuit": "battery", "worst_group": None, "drop_v": worst[0],
+                    "drop_pct": 100.0 * worst[0] / worst[1]})
     return out
 
 

@@ -27,7 +27,7 @@ from pvsource.compiled import kernel
 from pvsource.errors import InputError
 from pvsource.inputs import release_memory
 from pvsource.module import model_notes
-from pvsource.operating import CHUNK_SIZE, operating_points, require_one_controller
+from pvsource.operating import CHUNK_SIZE, operating_points
 from pvsource.regulation import BANK_FULL, NONE_FULL, SOURCE, regulate
 from pvsource.system import System
 
@@ -341,10 +341,13 @@ def charge_grid_a(system: System, g, t, done=lambda k: None, chunk_size: int = C
     for k, soc in enumerate(grid):
         emf[k] = bank_model.open_circuit_v(system.bank, float(soc))
     lit = np.flatnonzero((np.asarray(g) > 0.0).any(axis=-1))
-    wiring = system.wiring
     # The bank at each grid state of charge is the same in every chunk: build it once, slice it per chunk.
     size = min(chunk_size, lit.size)
     banks = [bank_point(system, np.full(size, float(soc)), None) for soc in grid]
+    wiring = system.wiring
+    if system.several_controllers:
+        _shared_grid(system, g, t, lit, banks, charge, chunk_size)
+        lit = lit[:0]
     for start in range(0, lit.size, chunk_size):
         rows = lit[start:start + chunk_size]
         state = parameters_at(system.module.parameters, g[rows], t[rows])
@@ -357,6 +360,32 @@ def charge_grid_a(system: System, g, t, done=lambda k: None, chunk_size: int = C
     for k in range(k_grid):
         done(k)
     return charge, emf
+
+
+def _shared_grid(system: System, g, t, lit, banks, charge, chunk_size: int) -> None:
+    """:func:`charge_grid_a` with several controllers: each within its own output limit, their sum
+    (:func:`pvsource.sharing.free_total_a`); the time loop applies the bank's limits to it."""
+    from pvsource.charging import array_side
+    from pvsource.module import parameters_at
+    from pvsource.network import Network
+    from pvsource.sharing import free_total_a
+
+    parts = system.parts()
+    index = {name: k for k, name in enumerate(system.group_names)}
+    cols = [[index[name] for name in part.group_names] for part in parts]
+    r_interconnect = sum(r.loop_resistance_ohm for r in system.cables if r.role == "interconnect")
+    for start in range(0, lit.size, chunk_size):
+        rows = lit[start:start + chunk_size]
+        nets = [Network(parameters_at(system.module.parameters, g[rows][:, c], t[rows][:, c]), part.n_series,
+                        part.n_parallel, part.wiring.r_string_ohm, part.wiring.r_home_ohm)
+                for part, c in zip(parts, cols)]
+        sides = [array_side(net, part.wiring.r_feeder_ohm) if part.controller.tracks else None
+                 for net, part in zip(nets, parts)]
+        for k, whole in enumerate(banks):
+            bank_pt = whole if rows.size == len(whole.emf_v) else whole.head(rows.size)
+            charge[k, rows] = free_total_a(nets, [p.controller for p in parts], bank_pt,
+                                           [p.wiring.r_feeder_ohm for p in parts],
+                                           [p.wiring.r_bank_ohm for p in parts], r_interconnect, sides)
 
 
 #: Rows a chunk of the season study aims at: whole calendar months are joined
@@ -493,7 +522,6 @@ def run_season(system: System, weather: pd.DataFrame, *, transposition: str = "p
     """
     if keep not in ("all", "summary"):
         raise ValueError(f"keep must be 'all' or 'summary', not {keep!r}")
-    require_one_controller(system)
     notes = list(weather.attrs.get("notes", []))
     notes.extend(model_notes(system.module))
     step_h = step_hours(weather)
@@ -570,8 +598,9 @@ def _solve_span(system: System, weather: pd.DataFrame, load_w: np.ndarray, step_
         from pvsource.charging import FLOAT_SOC
 
         v_abs, v_float = bank_model.charge_voltages_v(b)
-        c = system.controller
-        limits = (c.output_limit_a,
+        # Several controllers: each one's own limit is in the grid already, and all of them regulate.
+        c = system.controller or system.controllers[0].controller
+        limits = (np.inf if system.several_controllers else c.output_limit_a,
                   float(bank_model.max_charge_current_a(b)), b.chemistry.absorption_start_soc,
                   float(bank_model.internal_resistance_ohm(b)), float(v_abs), float(v_float), FLOAT_SOC)
         gen = system.generator
@@ -673,6 +702,41 @@ def _span_stats(steps: pd.DataFrame, step_h: float, whole_span: bool = True) -> 
     return out
 
 
+def controller_summaries(system: System, steps: pd.DataFrame, step_h: float, whole_span: bool = True) -> list[dict]:
+    """Each controller's energy and hours by limit over the steps (its stage too for the ``whole_span``).
+
+    ``energy_stored_kwh`` is the bank's EMF times the controller's own
+    current (with one controller, the stored energy itself), so the
+    controllers' stored energies add up to the span's.
+    """
+    from pvsource.operating import controller_column
+
+    if system.bank is None or "charge_current_a" not in steps:
+        return []
+    kwh = lambda values: float(np.nansum(values) * step_h / 1000.0)  # noqa: E731
+    out = []
+    for assigned in system.controllers:
+        if system.several_controllers:
+            col = lambda key, a=assigned: controller_column(a.name, key)  # noqa: E731
+            current = steps[col("charge_current_a")].to_numpy()
+            stored = steps["bank_emf_v"].to_numpy() * current
+        else:
+            col = {"loss_w": "controller_loss_w"}.get
+            col = lambda key, own=col: own(key) or key  # noqa: E731
+            current, stored = steps["charge_current_a"].to_numpy(), steps["stored_w"].to_numpy()
+        rec = {"name": assigned.name, "groups": list(assigned.groups),
+               "energy_generated_kwh": kwh(steps[col("generated_w")].to_numpy()),
+               "energy_stored_kwh": kwh(stored), "curtailed_kwh": kwh(steps[col("curtailed_w")].to_numpy()),
+               "controller_loss_kwh": kwh(steps[col("loss_w")].to_numpy()),
+               "charge_ah": float(np.nansum(current) * step_h),
+               "peak_charge_current_a": float(np.nanmax(current)) if len(current) else 0.0,
+               "hours_by_limit": _hours_by(steps[col("limit")], step_h)}
+        if whole_span:
+            rec["hours_by_stage"] = _hours_by(steps[col("stage")], step_h)
+        out.append(rec)
+    return out
+
+
 def _hours_by(codes: pd.Series, step_h: float) -> dict:
     """Hours in each stage or limit that occurs, longest first, by its words."""
     return {str(k): float(v) * step_h for k, v in codes.value_counts().items() if v > 0}
@@ -764,6 +828,8 @@ def summarise(system: System, steps: pd.DataFrame, step_h: float) -> dict:
     summary = {"steps": int(len(steps)), "step_h": step_h, "start": str(steps.index[0]), "end": str(steps.index[-1])}
     summary.update(_energies(steps, step_h))
     summary.update(_span_stats(steps, step_h))
+    if system.bank is not None:
+        summary["controllers"] = controller_summaries(system, steps, step_h)
     codes = steps["alerts"].to_numpy() if "alerts" in steps else alert_codes(system, steps)
     monthly = []
     # Months of the weather's own local calendar. The steps are in time
@@ -776,6 +842,8 @@ def summarise(system: System, steps: pd.DataFrame, step_h: float) -> dict:
         row = {"month": f"{month[start] // 12:04d}-{month[start] % 12 + 1:02d}"}
         row.update(_energies(part, step_h))
         row.update(_span_stats(part, step_h, whole_span=False))
+        if system.bank is not None:
+            row["controllers"] = controller_summaries(system, part, step_h, whole_span=False)
         row["alert_hours"] = alert_hours(codes[start:stop], step_h)
         monthly.append(row)
     summary["monthly"] = monthly

@@ -771,7 +771,7 @@ def test_check_names_each_controllers_checks(capsys):
     for tracker in ("east tracker", "west tracker"):
         voc = by_name[f"max_string_voc[{tracker}]"]
         assert voc["value"] == pytest.approx(3 * 40.1 * 1.116) and voc["controller"] == tracker
-        assert by_name[f"controller_input_isc[{tracker}]"]["value"] == pytest.approx(1.25 * 2 * 9.8)
+        assert by_name[f"controller_input_isc[{tracker}]"]["value"] == pytest.approx(1.25 * 1 * 9.8)
     assert code == 0 and rec["all_passed"] is True
 
 
@@ -797,3 +797,19 @@ def test_explore_help_names_every_cost_and_its_default(capsys):
     for words in ("--bank-price-per-kwh", "nominal energy (capacity x nominal voltage)", "--fuel-price-per-l",
                   "--unmet-value-per-kwh", "Default 10: a well-kept bank's service life"):
         assert words in text, words
+
+
+def test_point_json_lists_each_controller_and_the_bank_current_is_their_sum(capsys):
+    code, out, _ = run(capsys, "point", str(DATA / "example-east-west.toml"), "--json")
+    rec = json.loads(out)
+    assert code == 0
+    names = [c["name"] for c in rec["controllers"]]
+    assert names == ["east tracker", "west tracker"]
+    for c in rec["controllers"]:
+        assert {"name", "charge_current_a", "stage", "limit", "input_v", "curtailed_w", "loss_w"} <= set(c)
+    # Kirchhoff's current law at the bank's terminals: the bank takes the controllers' sum.
+    assert rec["charge_current_a"] == pytest.approx(sum(c["charge_current_a"] for c in rec["controllers"]),
+                                                    rel=1e-12)
+    assert abs(rec["residuals"]["energy_balance"]) < 1e-9
+    code, out, _ = run(capsys, "point", str(DATA / "example-east-west.toml"))
+    assert "east tracker (mppt)" in out and "the controllers' sum" in out
