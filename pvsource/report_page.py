@@ -464,6 +464,16 @@ def energy_section(system, summary: dict) -> str:
         out += "</div>"
     if summary.get("generator_hours") is not None:
         out += "<h3>Backup generator</h3>" + _generator_energy(summary)
+    controllers = summary.get("controllers") or []
+    if len(controllers) > 1:
+        rows = [(_esc(f"{c['name']} ({', '.join(c['groups'])})"), fmt(c["energy_generated_kwh"]),
+                 fmt(c["energy_stored_kwh"]), fmt(c["curtailed_kwh"]), fmt(c["controller_loss_kwh"]),
+                 fmt(c["peak_charge_current_a"], 1, "A"),
+                 _esc(", ".join(f"{k} {v:,.0f} h" for k, v in c["hours_by_limit"].items())))
+                for c in controllers]
+        out += "<h3>Each controller</h3>" + table(
+            ("controller (its groups)", "generated [kWh]", "stored [kWh]", "curtailed [kWh]", "lost in it [kWh]",
+             "peak charge", "hours by what limited it"), rows, numeric=(1, 2, 3, 4, 5))
     return f'<section id="energy"><h2>Energy</h2>{out}</section>'
 
 
