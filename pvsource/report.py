@@ -245,9 +245,7 @@ def write_report(out: Path, system: System, result: SeasonResult, weather, steps
     written.append(atomic_write(out / "hourly.csv", lambda tmp: write_csv(tmp, hourly)))
     del hourly
     written.append(write_text(out / "summary.json", json.dumps(json_ready(summary), indent=2, allow_nan=False)))
-    # A table per month has one column per figure: nested figures (alert hours) become ``key.name`` columns.
-    monthly = [{f"{k}.{n}" if isinstance(v, dict) else k: x for k, v in m.items()
-                for n, x in (v.items() if isinstance(v, dict) else [(None, v)])} for m in json_ready(summary["monthly"])]
+    monthly = [_month_columns(m) for m in json_ready(summary["monthly"])]
     header = list(monthly[0]) if monthly else []
     csv_text = ",".join(header) + "\n" + "".join(
         ",".join("" if m[k] is None else str(m[k]) for k in header) + "\n" for m in monthly)
@@ -296,3 +294,23 @@ def write_season(out: Path, system: System, weather, *, transposition: str = "pe
         writer.discard()
         raise
     return result, write_report(out, system, result, weather, streamed=writer)
+
+
+def _month_columns(month: dict) -> dict:
+    """One month as a table row with one column per figure.
+
+    Nested figures (alert hours) become ``key.name`` columns; each
+    controller's own figures ``controller[name].key`` (its hours by limit,
+    which differ from month to month, stay in ``summary.json``).
+    """
+    out = {}
+    for key, value in month.items():
+        if isinstance(value, dict):
+            out.update({f"{key}.{name}": x for name, x in value.items()})
+        elif isinstance(value, list):
+            for item in value:
+                out.update({f"controller[{item['name']}].{name}": x for name, x in item.items()
+                            if name != "name" and not isinstance(x, (list, dict))})
+        else:
+            out[key] = value
+    return out

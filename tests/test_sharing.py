@@ -175,3 +175,31 @@ def test_a_season_of_two_trackers_is_twice_one(demo_module):
     for m in a["monthly"]:
         assert sum(c["curtailed_kwh"] for c in m["controllers"]) == pytest.approx(m["curtailed_kwh"], rel=1e-9,
                                                                                   abs=1e-12)
+
+
+def test_the_season_command_writes_each_controller_per_month(capsys, tmp_path):
+    # The shipped east/west example over a week of the demo's synthetic weather
+    # spanning two months: each month's controllers add up to the month
+    # (stored energy is E x I_k, and the bank current is their sum).
+    import json
+
+    from conftest import DATA, run_cli, write_weather_csv
+    from pvsource.config import load_system
+    from pvsource.demo import synthetic_weather
+
+    system = load_system(DATA / "example-east-west.toml")
+    weather = synthetic_weather(system)
+    week = weather[(weather.index >= pd.Timestamp("2025-05-28", tz=weather.index.tz))
+                   & (weather.index < pd.Timestamp("2025-06-04", tz=weather.index.tz))]
+    csv = write_weather_csv(week, tmp_path / "w.csv")
+    code, out, err = run_cli(capsys, "season", str(DATA / "example-east-west.toml"), str(csv), "--out",
+                             str(tmp_path / "out"), "--json")
+    assert code == 0, err
+    summary = json.loads(out)
+    assert [c["name"] for c in summary["controllers"]] == ["east tracker", "west tracker"]
+    monthly = pd.read_csv(tmp_path / "out" / "monthly.csv")
+    assert len(monthly) == 2
+    both = sum(monthly[f"controller[{n}].energy_stored_kwh"] for n in ("east tracker", "west tracker"))
+    assert both.to_numpy() == pytest.approx(monthly["energy_stored_kwh"].to_numpy(), rel=1e-9)
+    assert monthly["energy_stored_kwh"].sum() == pytest.approx(summary["energy_stored_kwh"], rel=1e-9)
+    assert "Each controller" in (tmp_path / "out" / "report.html").read_text()
