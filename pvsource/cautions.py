@@ -33,7 +33,7 @@ WIRING = (COLD_VOC, DROP_IS_EFFICIENCY, BATTERY_CABLES, STRING_FUSES, TERMINATIO
 
 #: What each command computes decides its cautions: conductor sizes and losses, design checks against the
 #: site's extremes, the live array a measurement or check is made on, and the system's bank and strings.
-COMMANDS = ("quick-wire", "wire", "check", "point", "sweep", "season", "explore")
+COMMANDS = ("quick-wire", "wire", "check", "point", "sweep", "season", "explore", "fleet")
 _CONDUCTORS = ("quick-wire", "wire", "check", "season", "explore")   # ampacity or losses of sized runs
 _ON_THE_ARRAY = ("point", "check")                                  # an operating point, a check on the array
 _COLD = ("check", "season", "explore")                              # the string Voc against the site's cold
@@ -48,7 +48,8 @@ def for_command(command: str, system=None) -> list[str]:
     command : one of :data:`COMMANDS`
         ``season`` and ``explore`` report cable losses and the design checks
         (as ``check`` does, against the weather's extremes); ``sweep``
-        reports power and efficiency against one variable.
+        reports power and efficiency against one variable; ``fleet`` each
+        system's energy and cable losses (see :func:`for_systems`).
     system : System, optional
         Adds the battery cautions when it has a bank, and the string-fuse
         caution from three strings in parallel on one controller, and for
@@ -61,6 +62,8 @@ def for_command(command: str, system=None) -> list[str]:
         items += [CONDUCTOR, DROP_IS_EFFICIENCY, TERMINATION]
     if command == "sweep":
         items += [CONDUCTOR, DROP_IS_EFFICIENCY]
+    if command == "fleet":              # energy and cable losses per system, no checks
+        items.append(DROP_IS_EFFICIENCY)
     if command in _ON_THE_ARRAY:
         items += [PV_LIVE, DC_ARC]
     if command in _COLD:
@@ -74,3 +77,9 @@ def for_command(command: str, system=None) -> list[str]:
         if command in ("check", "season", "explore") and getattr(system, "generator", None) is not None:
             items.append(GENERATOR)
     return [*items, CLOSING]
+
+
+def for_systems(command: str, systems) -> list[str]:
+    """The cautions of one result over several systems: each system's, once each, in order, :data:`CLOSING` last."""
+    items = [c for system in systems for c in for_command(command, system)]
+    return [*dict.fromkeys(c for c in items if c != CLOSING), CLOSING]

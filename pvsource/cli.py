@@ -730,11 +730,16 @@ def fleet(
         _atomic_frame(folder / "fleet.parquet", table)
         write_text(folder / "fleet.csv", table.to_csv(index=False))
         run.finish([folder / "fleet.parquet", folder / "fleet.csv"], weathers)
+    fleet_cautions = cautions.for_systems("fleet", systems)
     if as_json:
-        _emit_json({"rows": json_ready(table.to_dict(orient="records")), "out": str(folder)})
+        _emit_json({"rows": json_ready(table.to_dict(orient="records")), "out": str(folder),
+                    "cautions": fleet_cautions})
     else:
+        from pvsource.terminal import render_caution_list
+
         typer.echo(table.to_string(index=False, float_format=lambda v: f"{v:,.1f}"))
         typer.echo(f"\nFleet table written to {folder}")
+        typer.echo(render_caution_list(fleet_cautions))
 
 
 def _atomic_frame(path: Path, frame) -> None:

@@ -151,12 +151,18 @@ def test_fleet_runs_every_member_and_tabulates_them(capsys, tmp_path, short_year
     assert code == 0, err
     rows = json.loads(text)["rows"]
     assert [r["name"] for r in rows] == ["north-barn", "south-barn"]
+    # Issue 13 section 5: a fleet result too ends with the deferral to local codes; its cautions are those
+    # of its systems (the demo's bank), each once.
+    from pvsource import cautions
+    assert json.loads(text)["cautions"] == [cautions.DROP_IS_EFFICIENCY, cautions.BATTERY_FAULT, cautions.CLOSING]
     assert rows[0]["energy_stored_kwh"] == pytest.approx(rows[1]["energy_stored_kwh"])
     manifest = tmp_path / "manifest.csv"
     manifest.write_text("name,system,weather\na,fleet/north-barn.toml,fleet/north-barn.csv\n"
                         "b,fleet/south-barn.toml,fleet/missing.csv\n")
     code, _, err = run_cli(capsys, "fleet", str(manifest), "--out", str(tmp_path / "out2"))
     assert code == 2 and "row 3" in err and "missing.csv" in err
+    code, text, err = run_cli(capsys, "fleet", str(members), "--out", str(tmp_path / "out3"))
+    assert code == 0 and text.rstrip().endswith(cautions.CLOSING)
 
 
 def test_fleet_and_explore_read_weather_with_the_season_options(capsys, tmp_path, short_year):
