@@ -77,21 +77,36 @@ def telling_hours(steps, count: int = 4) -> list[tuple[int, str]]:
 
 
 def iv_curves(system: System, steps, count: int = 4) -> list:
-    """The array's I-V curves at telling steps, with the operating point and its Thevenin tangent."""
+    """The array's I-V curves at telling steps, with the operating point and its Thevenin tangent.
+
+    With several controllers each has its own array and bus: each
+    controller's curve at the sunniest and the dim step (``ctrl_<name>_v``, ``_i_a``).
+    """
+    from pvsource.operating import controller_column
+
+    several = system.several_controllers
     picked = telling_hours(steps, count)
+    if several:
+        picked = [p for p in picked if p[1] in ("sunniest", "dim")]
     if not picked:
         return []
     rows = steps.iloc[[k for k, _ in picked]]
-    names = [g.name for g in system.groups]
-    g = rows[[f"group_{n}_irradiance_w_m2" for n in names]].to_numpy(float)
-    t = rows[[f"group_{n}_cell_temp_c" for n in names]].to_numpy(float)
-    found = array_curves(system, g, t)
-    _, tangent = thevenin_at(system, g, t, rows["v"].to_numpy(float))
-    return [{"label": f"{why}: {steps.index[k].strftime('%Y-%m-%d %H:%M')}, {g[n].mean():.0f} W/m², "
-                      f"cells {t[n].mean():.0f} °C",
-             "v": found.v[n], "i": found.i[n], "p": found.p[n], "v_op": float(rows["v"].iloc[n]),
-             "i_op": float(rows["i"].iloc[n]), "e_th_v": float(tangent.e_v[n]), "r_th_ohm": float(tangent.r_ohm[n])}
-            for n, (k, why) in enumerate(picked)]
+    out = []
+    for assigned, part in zip(system.controllers, system.parts()) if several else [(None, system)]:
+        names = [g.name for g in part.groups]
+        g = rows[[f"group_{n}_irradiance_w_m2" for n in names]].to_numpy(float)
+        t = rows[[f"group_{n}_cell_temp_c" for n in names]].to_numpy(float)
+        v_op, i_op = (rows[controller_column(assigned.name, "v")], rows[controller_column(assigned.name, "i_a")]) \
+            if several else (rows["v"], rows["i"])
+        found = array_curves(part, g, t)
+        _, tangent = thevenin_at(part, g, t, v_op.to_numpy(float))
+        who = f"{assigned.name}, " if several else ""
+        out.extend({"label": f"{who}{why}: {steps.index[k].strftime('%Y-%m-%d %H:%M')}, {g[n].mean():.0f} W/m², "
+                             f"cells {t[n].mean():.0f} °C",
+                    "v": found.v[n], "i": found.i[n], "p": found.p[n], "v_op": float(v_op.iloc[n]),
+                    "i_op": float(i_op.iloc[n]), "e_th_v": float(tangent.e_v[n]),
+                    "r_th_ohm": float(tangent.r_ohm[n])} for n, (k, why) in enumerate(picked))
+    return out
 
 
 def iso_stamps(index) -> np.ndarray:

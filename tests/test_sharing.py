@@ -203,3 +203,12 @@ def test_the_season_command_writes_each_controller_per_month(capsys, tmp_path):
     assert both.to_numpy() == pytest.approx(monthly["energy_stored_kwh"].to_numpy(), rel=1e-9)
     assert monthly["energy_stored_kwh"].sum() == pytest.approx(summary["energy_stored_kwh"], rel=1e-9)
     assert "Each controller" in (tmp_path / "out" / "report.html").read_text()
+
+
+def test_several_controllers_without_a_bank_are_refused_at_a_point(demo_module):
+    from pvsource.errors import InputError
+
+    system = _two_on_one_bank(demo_module, ((3, 1), (3, 1)), (30.0, 10.0), None)
+    with pytest.raises(InputError) as exc:
+        operating_points(system, 800.0, 40.0)
+    assert exc.value.field == "[[controller]]" and "[bank]" in exc.value.expected
