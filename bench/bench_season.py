@@ -83,6 +83,18 @@ def prepare(folder: Path, freq: str) -> tuple[Path, Path, Path, int]:
     return system_file, csv, setup_file, len(weather)
 
 
+def prepared(folder: Path, freq: str) -> tuple[Path, Path, Path, int]:
+    """:func:`prepare`, run in a child process.
+
+    On Linux a child's peak resident memory starts from its parent's size at
+    the fork, so the process that starts the measured runs must stay small.
+    """
+    done = subprocess.run([sys.executable, __file__, "--prepare", str(folder), freq],
+                          capture_output=True, text=True, check=True)
+    system_file, csv, setup_file, rows = json.loads(done.stdout)
+    return Path(system_file), Path(csv), Path(setup_file), rows
+
+
 def run_measured(command: list[str]) -> dict:
     """Wall-clock seconds from start to exit of one process, and its own peak resident memory [MB].
 
@@ -110,7 +122,7 @@ def main():
     folder = Path(args.keep or tempfile.mkdtemp(prefix="bench-season-"))
     folder.mkdir(parents=True, exist_ok=True)
     try:
-        system_file, csv, setup_file, rows = prepare(folder, args.freq)
+        system_file, csv, setup_file, rows = prepared(folder, args.freq)
         ours_cmd = lambda out: [sys.executable, "-m", "pvsource", "season", str(system_file), str(csv),  # noqa: E731
                                 "--out", str(out), "--json"]
         theirs_cmd = [sys.executable, "-c", MODELCHAIN, str(csv), str(setup_file)]
@@ -143,4 +155,7 @@ def main():
 
 
 if __name__ == "__main__":
-    main()
+    if len(sys.argv) == 4 and sys.argv[1] == "--prepare":
+        print(json.dumps([str(x) if isinstance(x, Path) else x for x in prepare(Path(sys.argv[2]), sys.argv[3])]))
+    else:
+        main()

@@ -8,7 +8,9 @@ The weather is the demo's synthetic weather at one-minute steps, one
 invented year after another (2025, 2026, ...), written as CSV files with
 offset timestamps; each span runs as its own process, timed by the wall
 clock from start to exit, with its own peak resident memory from the
-operating system (os.wait4), reading and every output file included.
+operating system (os.wait4), reading and every output file included. The
+weather is written by a separate process, so the measuring process stays
+small (a child's peak memory starts from its parent's size at the fork).
 
 Run: python bench/bench_season_memory.py [--years 0.25 0.5 1 2 3] [--freq 1min] [--keep DIR]
 """
@@ -26,7 +28,22 @@ from bench_season import run_measured  # noqa: E402
 
 
 def weather_csv(folder: Path, years: float, freq: str) -> tuple[Path, int]:
-    """The demo's weather for ``years`` years from 2025 as a CSV; its path and row count."""
+    """The demo's weather for ``years`` years from 2025 as a CSV; its path and row count.
+
+    Written by a child process: a measured run is started from this process,
+    and on Linux a child's peak resident memory starts from its parent's
+    size at the fork, so this process must stay small.
+    """
+    import json
+    import subprocess
+
+    done = subprocess.run([sys.executable, __file__, "--write", str(years), freq, str(folder)],
+                          capture_output=True, text=True, check=True)
+    path, rows = json.loads(done.stdout)
+    return Path(path), rows
+
+
+def _write(years: float, freq: str, folder: Path) -> tuple[Path, int]:
     import math
 
     import pandas as pd
@@ -84,4 +101,10 @@ def main():
 
 
 if __name__ == "__main__":
-    main()
+    if len(sys.argv) == 5 and sys.argv[1] == "--write":
+        import json
+
+        path, rows = _write(float(sys.argv[2]), sys.argv[3], Path(sys.argv[4]))
+        print(json.dumps([str(path), rows]))
+    else:
+        main()
