@@ -54,6 +54,9 @@ _SCALARS = {
     "min_charge_temp_c": (lambda x: -60 <= x <= 70, "a temperature from -60 to 70 [degC]"),
     "absorption_start_soc": (lambda x: 0.5 <= x < 1, "a state of charge from 0.5 to below 1"),
     "coulombic_efficiency": (lambda x: 0 < x <= 1, "a fraction above 0 and at most 1"),
+    "tail_current_c_rate": (lambda x: 0 < x <= 1, "a charge rate above 0 and at most 1 [1/h]"),
+    "max_absorption_h": (lambda x: 0 < x <= 24, "a time above 0 and at most 24 [h]"),
+    "rebulk_soc": (lambda x: 0.3 <= x < 1, "a state of charge from 0.3 to below 1"),
 }
 _TABLES = ("ocv_soc", "ocv_v_per_cell")
 #: Names of every preset value, as accepted in ``overrides``.
@@ -83,6 +86,11 @@ class Chemistry:
     absorption_start_soc : float
         State of charge from which the bank's charge acceptance tapers to
         zero at full charge: the constant-voltage stage [fraction].
+    tail_current_c_rate, max_absorption_h : float
+        Absorption ends when the current held at the absorption voltage has
+        tapered to this rate times capacity [1/h], or after this long [h].
+    rebulk_soc : float
+        From float, back to bulk only below this state of charge [fraction].
     sources : tuple of (str, str)
         Each preset name with its source; ``"override"`` where the user set it.
     """
@@ -100,6 +108,9 @@ class Chemistry:
     min_charge_temp_c: float
     coulombic_efficiency: float
     absorption_start_soc: float
+    tail_current_c_rate: float
+    max_absorption_h: float
+    rebulk_soc: float
     sources: tuple[tuple[str, str], ...] = ()
 
     def source(self, name: str) -> str:

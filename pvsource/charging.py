@@ -49,10 +49,12 @@ class BankPoint:
     emf_v, r_ohm : Thevenin EMF [V] and internal resistance [ohm]
     soc : state of charge [-]
     absorption_v, float_v : the regulation voltages [V]
-    floating : True where the controller holds the float voltage
+    stage : the controller's stage as the step begins, codes of :mod:`pvsource.regulation`
+        (bulk, absorption or float: float holds the float voltage)
     max_charge_a : the bank's maximum charge current (0 where charging is not allowed) [A]
     accept_start_soc : where the bank's acceptance starts to taper [-] (a scalar)
     cap_a : in a season study, the current that fills the bank within the step [A]
+    hold_a : in a season study, the constant-voltage current averaged over the step [A]
     """
 
     emf_v: np.ndarray
@@ -60,10 +62,11 @@ class BankPoint:
     soc: np.ndarray
     absorption_v: np.ndarray
     float_v: np.ndarray
-    floating: np.ndarray
+    stage: np.ndarray
     max_charge_a: np.ndarray
     accept_start_soc: float
     cap_a: np.ndarray | None = None
+    hold_a: np.ndarray | None = None
 
     def head(self, m: int) -> "BankPoint":
         """The first ``m`` conditions."""
@@ -73,11 +76,15 @@ class BankPoint:
     @property
     def target_v(self):
         """The regulation voltage of the stage in force [V]."""
-        return np.where(self.floating, self.float_v, self.absorption_v)
+        return np.where(self.stage == reg.FLOAT, self.float_v, self.absorption_v)
 
     def room_a(self):
         """What still fits in the bank this step (a season study's cap); infinite by default [A]."""
         return np.full_like(self.emf_v, np.inf) if self.cap_a is None else self.cap_a
+
+    def hold(self):
+        """The constant-voltage current averaged over a season's step; infinite by default [A]."""
+        return np.full_like(self.emf_v, np.inf) if self.hold_a is None else self.hold_a
 
 
 @dataclass(frozen=True)
@@ -157,8 +164,8 @@ def solve_charging(net: Network, controller: Controller, bank: BankPoint, r_feed
     free = controller.free(net, bank, r_feeder_ohm, r_bank_cables_ohm, array)
     i_bank, stage, limit = reg.regulate_arrays(
         free.current_a, free.limit, bank.soc, bank.emf_v, bank.r_ohm, controller.output_limit_a,
-        bank.max_charge_a, bank.target_v, bank.accept_start_soc, bank.room_a(), bank.floating,
-        controller.regulates)
+        bank.max_charge_a, bank.absorption_v, bank.float_v, bank.accept_start_soc, bank.room_a(), bank.hold(),
+        bank.stage, controller.regulates)
     op = controller.operate(net, free, bank, i_bank, r_feeder_ohm, r_bank_cables_ohm)
     short = ~op.reached
     if short.any():

@@ -131,23 +131,28 @@ def _load_branch(system: System):
     return th[0], th[1] + system.wiring.r_load_side_ohm
 
 
-def bank_point(system: System, soc, temp_c, cap_a=None, floating=None) -> BankPoint:
+def bank_point(system: System, soc, temp_c, history: dict | None = None) -> BankPoint:
     """The bank's Thevenin equivalent, charge voltages and charge limit at each condition.
 
-    ``floating`` says where the controller holds the float voltage; by
-    default where the state of charge is at least :data:`~pvsource.charging.FLOAT_SOC`
-    (a single point has no history to say which stage holds).
+    ``history`` holds what a season's time loop found at each step
+    (``stage``, ``cap_a``, ``hold_a``; see :func:`operating_points`). Without
+    it, the stage is float where the state of charge is at least
+    :data:`~pvsource.charging.FLOAT_SOC`, else bulk (a single point has no
+    history to say which stage holds).
     """
+    history = history or {}
+    stage, cap_a, hold_a = (history.get(k) for k in ("stage", "cap_a", "hold_a"))
     b = system.bank
     emf, r = bank_model.thevenin(b, soc, temp_c)
     v_abs, v_float = bank_model.charge_voltages_v(b, temp_c)
     soc_now = np.broadcast_to(b.soc if soc is None else soc, np.shape(emf))
-    floating = soc_now >= FLOAT_SOC if floating is None else floating
-    shape = np.broadcast_shapes(np.shape(emf), np.shape(v_abs), np.shape(floating))
+    stage = np.where(soc_now >= FLOAT_SOC, reg.FLOAT, reg.BULK) if stage is None else stage
+    shape = np.broadcast_shapes(np.shape(emf), np.shape(v_abs), np.shape(stage))
     as_array = lambda a, kind=float: np.array(np.broadcast_to(a, shape), dtype=kind)  # noqa: E731
     return BankPoint(as_array(emf), as_array(r), as_array(soc_now), as_array(v_abs), as_array(v_float),
-                     as_array(floating, bool), as_array(bank_model.max_charge_current_a(b, temp_c)),
-                     b.chemistry.absorption_start_soc, None if cap_a is None else as_array(cap_a))
+                     as_array(stage, np.int8), as_array(bank_model.max_charge_current_a(b, temp_c)),
+                     b.chemistry.absorption_start_soc, None if cap_a is None else as_array(cap_a),
+                     None if hold_a is None else as_array(hold_a))
 
 
 @dataclass(frozen=True)
@@ -225,8 +230,7 @@ def _key_points(system: System, net: Network) -> KeyPoints:
                      converged & oc_ideal.converged & mp_ideal.converged, oc_ideal if no_cables else None)
 
 
-def _operating_point(system: System, net: Network, keys: KeyPoints, soc, bank_temp_c, charge_cap_a,
-                     floating=None) -> Point:
+def _operating_point(system: System, net: Network, keys: KeyPoints, soc, bank_temp_c, history=None) -> Point:
     """The exact operating point: into the load, or through the controller into the bank."""
     wiring = system.wiring
     branch = _load_branch(system)
@@ -235,7 +239,7 @@ def _operating_point(system: System, net: Network, keys: KeyPoints, soc, bank_te
         sol = solve_max_power(net, r_load_side, open_circuit=keys.open_circuit) if branch is None else \
             solve_thevenin(net, branch[0], branch[1])
         return Point(sol.x_v, sol.bus_v, np.ones(len(sol.bus_v)), sol.converged, branch, r_load_side)
-    bank_pt = bank_point(system, soc, bank_temp_c, charge_cap_a, floating)
+    bank_pt = bank_point(system, soc, bank_temp_c, history)
     charge = solve_charging(net, system.controller, bank_pt, wiring.r_feeder_ohm, wiring.r_bank_ohm)
     # For the linear views, the direct and PWM branch is the bank behind its
     # cables and diode; a tracker's input looks like a resistor.
@@ -379,14 +383,14 @@ def _drift(net: Network, point: Point, acc: Accounts, views: dict, check: bool) 
 
 
 def _solve_chunk(system: System, g_w_m2, t_c, soc=None, bank_temp_c=None, drift_check: bool = True,
-                 charge_cap_a=None, floating=None) -> dict:
+                 history=None) -> dict:
     """All outputs for one chunk of conditions, as a dict of 1-D arrays."""
     if system.several_controllers:
-        return _solve_shared_chunk(system, g_w_m2, t_c, soc, bank_temp_c, drift_check, charge_cap_a, floating)
+        return _solve_shared_chunk(system, g_w_m2, t_c, soc, bank_temp_c, drift_check, history)
     state = parameters_at(system.module.parameters, g_w_m2, t_c)
     net = Network(state, system.n_series, system.n_parallel, system.wiring.r_string_ohm, system.wiring.r_home_ohm)
     keys = _key_points(system, net)
-    point = _operating_point(system, net, keys, soc, bank_temp_c, charge_cap_a, floating)
+    point = _operating_point(system, net, keys, soc, bank_temp_c, history)
     acc = _accounting(system, net, point)
     views = _linear_views(system, net, point, acc)
     drift, drift_converged = _drift(net, point, acc, views, drift_check)
@@ -414,7 +418,7 @@ def controller_column(name: str, key: str) -> str:
     return f"{CONTROLLER_PREFIX}{name}_{key}"
 
 
-def _solve_shared_chunk(system: System, g_w_m2, t_c, soc, bank_temp_c, drift_check, charge_cap_a, floating) -> dict:
+def _solve_shared_chunk(system: System, g_w_m2, t_c, soc, bank_temp_c, drift_check, history) -> dict:
     """One chunk of a system whose groups share several controllers into one bank (:mod:`pvsource.sharing`).
 
     Each controller's part (:meth:`System.parts`) is solved as its own array
@@ -433,7 +437,7 @@ def _solve_shared_chunk(system: System, g_w_m2, t_c, soc, bank_temp_c, drift_che
                     part.n_parallel, part.wiring.r_string_ohm, part.wiring.r_home_ohm) for part, c in zip(parts, cols)]
     n = len(g_w_m2)
     bank_pt = bank_point(system, np.broadcast_to(system.bank.soc if soc is None else soc, (n,)), bank_temp_c,
-                         charge_cap_a, floating)
+                         history)
     r_interconnect = sum(r.loop_resistance_ohm for r in system.cables if r.role == "interconnect")
     shared = solve_shared(nets, [part.controller for part in parts], bank_pt,
                           [part.wiring.r_feeder_ohm for part in parts], [part.wiring.r_bank_ohm for part in parts],
@@ -539,7 +543,7 @@ def _columns(system, g_w_m2, t_c, keys: KeyPoints, point: Point, acc: Accounts, 
 
 
 def _frame_from_chunks(system: System, g, t, chunk_size: int, soc=None, bank_temp_c=None,
-                       drift_check: bool = True, charge_cap_a=None, floating=None) -> pd.DataFrame:
+                       drift_check: bool = True, history=None) -> pd.DataFrame:
     """Solve chunk by chunk into one preallocated column-major block.
 
     One block of the float columns, filled in place, becomes the DataFrame
@@ -554,8 +558,7 @@ def _frame_from_chunks(system: System, g, t, chunk_size: int, soc=None, bank_tem
         sl = slice(start, start + chunk_size)
         part = _solve_chunk(system, g[sl], t[sl], None if soc is None else soc[sl],
                             None if bank_temp_c is None else bank_temp_c[sl], drift_check,
-                            None if charge_cap_a is None else charge_cap_a[sl],
-                            None if floating is None else floating[sl])
+                            None if history is None else {k: a[sl] for k, a in history.items()})
         if block is None:
             columns = [k for k, a in part.items() if np.asarray(a).dtype.kind == "f"]
             others = {k: np.empty(n, np.asarray(a).dtype) for k, a in part.items() if k not in columns}
@@ -574,7 +577,7 @@ def _frame_from_chunks(system: System, g, t, chunk_size: int, soc=None, bank_tem
 
 
 def operating_points(system: System, irradiance_w_m2=None, cell_temp_c=None, *, soc=None, bank_temp_c=None,
-                     charge_cap_a=None, floating=None, drift_check: bool = True, on_failure: str = "raise",
+                     charge_cap_a=None, hold_a=None, stage=None, drift_check: bool = True, on_failure: str = "raise",
                      chunk_size: int = CHUNK_SIZE) -> pd.DataFrame:
     """Exact operating points, linearised equivalents and accounting per condition.
 
@@ -593,10 +596,14 @@ def operating_points(system: System, irradiance_w_m2=None, cell_temp_c=None, *, 
     charge_cap_a : array (N,), optional
         A season study's cap on the charge current: what still fits in the
         bank within each step [A]; infinite where it does not bind.
-    floating : array of bool (N,), optional
-        Where the controller holds the float voltage (a season study's
-        stages); by default where the state of charge is at least
-        :data:`~pvsource.charging.FLOAT_SOC`.
+    hold_a : array (N,), optional
+        A season study's constant-voltage current averaged over each step,
+        where its time loop integrated the taper [A]; infinite elsewhere.
+    stage : array of int (N,), optional
+        The controller's stage as each step begins (a season study's
+        stages, codes of :mod:`pvsource.regulation`); by default float
+        where the state of charge is at least
+        :data:`~pvsource.charging.FLOAT_SOC`, else bulk.
     drift_check : bool
         Solve the exact curve at +/-10 % of the operating voltage to show how
         far the linear model holds (two extra solves); off, those columns are NaN.
@@ -646,13 +653,16 @@ def operating_points(system: System, irradiance_w_m2=None, cell_temp_c=None, *, 
         g, t = np.repeat(g, n_bank, axis=0), np.repeat(t, n_bank, axis=0)
     soc = _bank_condition(system, soc, "soc", (0.0, 1.0), len(g))
     bank_temp_c = _bank_condition(system, bank_temp_c, "bank_temp_c", (-40.0, 70.0), len(g))
-    if charge_cap_a is not None:
-        charge_cap_a = np.array(np.broadcast_to(np.asarray(charge_cap_a, float), (len(g),)))
-        if np.any(np.isnan(charge_cap_a) | (charge_cap_a < 0)):
-            raise InputError("charge_cap_a", None, "expected currents of 0 A or more (inf where no cap)")
-    if floating is not None:
-        floating = np.array(np.broadcast_to(np.asarray(floating, bool), (len(g),)))
-    frame = _frame_from_chunks(system, g, t, chunk_size, soc, bank_temp_c, drift_check, charge_cap_a, floating)
+    history = {}
+    for name, value in (("cap_a", charge_cap_a), ("hold_a", hold_a)):
+        if value is not None:
+            history[name] = np.array(np.broadcast_to(np.asarray(value, float), (len(g),)))
+            if np.any(np.isnan(history[name]) | (history[name] < 0)):
+                raise InputError(name if name == "hold_a" else "charge_cap_a", None,
+                                 "expected currents of 0 A or more (inf where no cap)")
+    if stage is not None:
+        history["stage"] = np.array(np.broadcast_to(np.asarray(stage, np.int8), (len(g),)))
+    frame = _frame_from_chunks(system, g, t, chunk_size, soc, bank_temp_c, drift_check, history or None)
 
     bad = ~frame["converged"].to_numpy()
     if bad.any():

@@ -36,8 +36,8 @@ LIMIT_WORDS = ("source", "controller output current", "bank charge rate", "volta
 
 
 @kernel
-def regulate(i_free_a, free_limit, soc, emf_v, r_ohm, i_ctrl_a, i_rate_a, v_target_v, accept_start_soc, room_a,
-             floating, regulated):  # pragma: no cover - compiled
+def regulate(i_free_a, free_limit, soc, emf_v, r_ohm, i_ctrl_a, i_rate_a, v_abs_v, v_float_v, accept_start_soc,
+             room_a, hold_a, stage_in, regulated):  # pragma: no cover - compiled
     """The bank current, stage code and limit code at one condition.
 
     Parameters
@@ -55,16 +55,28 @@ def regulate(i_free_a, free_limit, soc, emf_v, r_ohm, i_ctrl_a, i_rate_a, v_targ
         The controller's output current limit [A] (infinite if none).
     i_rate_a : float
         The bank's maximum charge current [A] (0 where it may not charge).
-    v_target_v : float
-        The regulation voltage of the stage in force [V].
+    v_abs_v, v_float_v : float
+        The absorption and float voltages [V]; the float voltage is the
+        target when ``stage_in`` is :data:`FLOAT`.
     accept_start_soc : float
         State of charge from which the bank's acceptance tapers to zero at
         full [-]: the bank accepts ``i_rate_a (1 - soc) / (1 - start)``.
     room_a : float
         The current that just fills the bank within the step (infinite at a
         single operating point) [A].
-    floating : bool
-        The controller holds the float voltage, not the absorption voltage.
+    hold_a : float
+        The constant-voltage current averaged over the step, where the time
+        loop integrated it exactly (infinite otherwise) [A]: over a long
+        step the held current falls as the bank fills, or rises as a load
+        drains it; it then replaces the law at the step's start.
+    stage_in : int
+        The controller's stage as the step begins (:data:`BULK`,
+        :data:`ABSORPTION` or :data:`FLOAT`). In absorption or float it is
+        the stage reported whenever the array gives something, whatever
+        binds; from bulk, a binding constant-voltage law reports absorption
+        (unless a time loop's ``hold_a`` says the step only reached the
+        voltage in its second half: the time loop passes absorption for a
+        step mostly held).
     regulated : bool
         False for a direct connection: nothing limits the current, and the
         limit code says which bound it breaks.
@@ -75,8 +87,13 @@ def regulate(i_free_a, free_limit, soc, emf_v, r_ohm, i_ctrl_a, i_rate_a, v_targ
     stage : int
     limit : int
     """
+    floating = stage_in == FLOAT
+    v_target_v = v_float_v if floating else v_abs_v
     share = min(max((1.0 - soc) / (1.0 - accept_start_soc), 0.0), 1.0)
-    i_cv = min(max((v_target_v - emf_v) / r_ohm, 0.0), share * i_rate_a)
+    if hold_a < np.inf:
+        i_cv = hold_a
+    else:
+        i_cv = min(max((v_target_v - emf_v) / r_ohm, 0.0), share * i_rate_a)
     if not regulated:
         i = i_free_a
         if i > room_a:
@@ -107,16 +124,84 @@ def regulate(i_free_a, free_limit, soc, emf_v, r_ohm, i_ctrl_a, i_rate_a, v_targ
             limit = VOLTAGE_REGULATION
         else:
             limit = CONTROLLER_OUTPUT
+        if limit == VOLTAGE_REGULATION and stage_in == BULK and hold_a < np.inf:
+            # A time loop's step that reached the voltage in its second half: mostly bulk.
+            return i_max, BULK, limit
         if limit == BANK_FULL or limit == VOLTAGE_REGULATION:
             # The constant-voltage stage holds even where it lets no current through.
             return i_max, FLOAT if (floating or limit == BANK_FULL) else ABSORPTION, limit
+        if stage_in != BULK:
+            return i_max, stage_in, limit
         return i_max, BULK if i_max > 0.0 else IDLE, limit
-    stage = BULK if i_free_a > 0.0 else (DISCHARGING if i_free_a < 0.0 else IDLE)
+    if i_free_a > 0.0:
+        stage = BULK if stage_in == BULK else stage_in
+    else:
+        stage = DISCHARGING if i_free_a < 0.0 else IDLE
     return i_free_a, stage, free_limit
 
 
 @kernel
-def _regulate_each(i_free, free_limit, soc, emf, r, i_ctrl, i_rate, v_target, start, room, floating,
+def next_stage(stage, absorption_h, limit, i_bank_a, i_free_a, soc_next, step_h, tail_a, max_absorption_h,
+               rebulk_soc):  # pragma: no cover - compiled
+    """The controller's stage after a step, and its time in absorption: the stages' hysteresis.
+
+    - bulk, until the absorption voltage is reached (the constant-voltage law binds);
+    - absorption, until the current held at the absorption voltage has
+      tapered to the tail current, or after the maximum absorption time
+      (counted in hours while the array gives something, so it does not
+      depend on the time step). Either is taken at the step nearest to it:
+      the time loop passes the current half a step ahead, and the last
+      step is the one that brings the time within half a step of the
+      maximum, so whole steps neither lengthen nor shorten absorption on
+      average;
+    - float, until the state of charge falls below the re-bulk threshold.
+
+    A bank that fills within the step floats.
+
+    Parameters
+    ----------
+    stage : int
+        :data:`BULK`, :data:`ABSORPTION` or :data:`FLOAT` as the step began.
+    absorption_h : float
+        Time spent in absorption so far [h].
+    limit : int
+        What bound the step's charge (:func:`regulate`).
+    i_bank_a, i_free_a : float
+        The held charge current half a step after the step's end (or the
+        step's current where nothing is held), and what the controller
+        could have given [A].
+    soc_next : float
+        State of charge at the end of the step [-].
+    step_h : float
+        Step length [h].
+    tail_a, max_absorption_h, rebulk_soc : float
+        Tail current [A], maximum absorption time [h], re-bulk state of charge [-].
+
+    Returns
+    -------
+    stage : int
+    absorption_h : float
+    """
+    if stage == FLOAT:
+        if soc_next < rebulk_soc:
+            return BULK, 0.0
+        return FLOAT, absorption_h
+    if limit == BANK_FULL:
+        return FLOAT, absorption_h
+    if stage == BULK:
+        if limit != VOLTAGE_REGULATION:
+            return BULK, absorption_h
+        # The absorption voltage is reached: this step is the first of absorption.
+        stage, absorption_h = ABSORPTION, 0.0
+    if i_free_a > 0.0:
+        absorption_h += step_h
+    if (limit == VOLTAGE_REGULATION and i_bank_a <= tail_a) or absorption_h + 0.5 * step_h >= max_absorption_h:
+        return FLOAT, absorption_h
+    return ABSORPTION, absorption_h
+
+
+@kernel
+def _regulate_each(i_free, free_limit, soc, emf, r, i_ctrl, i_rate, v_abs, v_float, start, room, hold, stage_in,
                    regulated):  # pragma: no cover - compiled
     n = i_free.shape[0]
     i_bank = np.empty(n)
@@ -124,17 +209,18 @@ def _regulate_each(i_free, free_limit, soc, emf, r, i_ctrl, i_rate, v_target, st
     limit = np.empty(n, np.int8)
     for k in range(n):
         i_bank[k], stage[k], limit[k] = regulate(i_free[k], free_limit[k], soc[k], emf[k], r[k], i_ctrl,
-                                                 i_rate[k], v_target[k], start, room[k], floating[k], regulated)
+                                                 i_rate[k], v_abs[k], v_float[k], start, room[k], hold[k],
+                                                 stage_in[k], regulated)
     return i_bank, stage, limit
 
 
-def regulate_arrays(i_free_a, free_limit, soc, emf_v, r_ohm, i_ctrl_a, i_rate_a, v_target_v, accept_start_soc,
-                    room_a, floating, regulated):
+def regulate_arrays(i_free_a, free_limit, soc, emf_v, r_ohm, i_ctrl_a, i_rate_a, v_abs_v, v_float_v,
+                    accept_start_soc, room_a, hold_a, stage_in, regulated):
     """:func:`regulate` over arrays (N,) that broadcast; returns (i_bank_a, stage, limit), codes as int8."""
     arrays = np.broadcast_arrays(*(np.asarray(a, float) for a in (i_free_a, soc, emf_v, r_ohm, i_rate_a,
-                                                                  v_target_v, room_a)),
-                                 np.asarray(free_limit, np.int64), np.asarray(floating, np.bool_))
-    i_free, soc, emf, r, i_rate, v_target, room, free_limit, floating = (np.ascontiguousarray(a).ravel()
-                                                                         for a in arrays)
-    return _regulate_each(i_free, free_limit, soc, emf, r, float(i_ctrl_a), i_rate, v_target,
-                          float(accept_start_soc), room, floating, bool(regulated))
+                                                                  v_abs_v, v_float_v, room_a, hold_a)),
+                                 np.asarray(free_limit, np.int64), np.asarray(stage_in, np.int64))
+    i_free, soc, emf, r, i_rate, v_abs, v_float, room, hold, free_limit, stage_in = (
+        np.ascontiguousarray(a).ravel() for a in arrays)
+    return _regulate_each(i_free, free_limit, soc, emf, r, float(i_ctrl_a), i_rate, v_abs, v_float,
+                          float(accept_start_soc), room, hold, stage_in, bool(regulated))

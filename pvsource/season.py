@@ -28,7 +28,8 @@ from pvsource.errors import InputError
 from pvsource.inputs import release_memory
 from pvsource.module import model_notes
 from pvsource.operating import CHUNK_SIZE, operating_points
-from pvsource.regulation import BANK_FULL, NONE_FULL, SOURCE, regulate
+from pvsource.regulation import (ABSORPTION, BANK_FULL, BULK, FLOAT, NONE_FULL, SOURCE, VOLTAGE_REGULATION, next_stage,
+                                 regulate)
 from pvsource.system import System
 
 # States of charge at which the charge current is solved before the time loop
@@ -89,77 +90,295 @@ def group_conditions(system: System, weather: pd.DataFrame, transposition: str =
     return np.clip(np.stack(irr, axis=-1), 0.0, 2000.0), np.stack(temp, axis=-1), poa
 
 
+@dataclass(frozen=True)
+class BankState:
+    """What the time loop carries from one step to the next, and from one chunk of a season to the next.
+
+    Attributes
+    ----------
+    soc : float
+        State of charge [-].
+    stage : int
+        The controller's stage (:data:`~pvsource.regulation.BULK`,
+        ``ABSORPTION`` or ``FLOAT``).
+    absorption_h : float
+        Time spent in the current absorption [h].
+    generator_running : bool
+        Whether a backup generator runs.
+    generator_run_h : float
+        Hours it has run since it last started [h].
+    """
+
+    soc: float
+    stage: int = BULK
+    absorption_h: float = 0.0
+    generator_running: bool = False
+    generator_run_h: float = 0.0
+
+
+@dataclass(frozen=True)
+class TimeLoop:
+    """The time loop's result: per step (arrays (N,)) and the state it ends in.
+
+    Attributes
+    ----------
+    soc : state of charge as each step begins [-]
+    mid_soc : the state of charge the step's current belongs to: half way through the step [-]
+    stage : the controller's stage as each step begins (codes)
+    unmet_w : load left unserved [W]
+    cap_a : where the bank fills within a step, the charge current that just
+        fills it (load included); infinite elsewhere [A]
+    hold_a : where a constant voltage holds, the current averaged over the step; infinite elsewhere [A]
+    end : BankState after the last step
+    generator : dict or None
+        With a generator: ``running`` (share of each step run), ``starts``
+        (per step) and ``charge_a`` (the charger's current, step mean).
+    """
+
+    soc: np.ndarray
+    mid_soc: np.ndarray
+    stage: np.ndarray
+    unmet_w: np.ndarray
+    cap_a: np.ndarray
+    hold_a: np.ndarray
+    end: BankState
+    generator: dict | None = None
+
+
 @kernel
-def _soc_kernel(grid, free, emf, loads, per_ah, coulombic, soc0, limits, regulated, gen,
-                gen_power_w):  # pragma: no cover - compiled
+def _cell(grid, j, soc):  # pragma: no cover - compiled
+    # The state of charge moves little per step: walk to its grid cell from the last one.
+    k_max = grid.shape[0] - 1
+    while j > 0 and soc < grid[j]:
+        j -= 1
+    while j < k_max - 1 and soc > grid[j + 1]:
+        j += 1
+    return j
+
+
+@kernel
+def _at(grid, free, emf, j, k, soc):  # pragma: no cover - compiled
+    # The unlimited current and the EMF at a state of charge, interpolated in its grid cell.
+    w = (soc - grid[j]) / (grid[j + 1] - grid[j])
+    return free[j, k] + (free[j + 1, k] - free[j, k]) * w, emf[j, k] + (emf[j + 1, k] - emf[j, k]) * w
+
+
+@kernel
+def _held_step(i_charge, holding, load_a, soc, e, slope_e, cell_top, r_bank, v_target, i_rate, start, per_ah,
+               coulombic, i_cap, tail_a):  # pragma: no cover - compiled
+    # A step at a constant voltage, or one that reaches it. Held, the current
+    # falls as the bank fills, linearly in the state of charge (the
+    # acceptance taper, or Ohm's law on the EMF's slope), so the state of
+    # charge follows an exponential: integrated here exactly, whatever the
+    # step's length. Returns the step's average current, the current at its
+    # end and half a step later, the share of the step before the voltage
+    # was reached (1: never reached, nothing changed), and the share after it
+    # while the current stays above the tail. A load that drains the
+    # bank draws the held current up toward it, but never above what the
+    # source and the limits allow (i_cap): from there the source binds.
+    surplus = i_charge - load_a
+    start_at = 0.0
+    reached = 0.0
+    if holding and v_target <= e and slope_e > 0.0:
+        # The EMF above the target: the load drains the bank, with no
+        # current from the controller, until the EMF falls to it.
+        drop = (e - v_target) / slope_e
+        fall = per_ah * load_a
+        if fall <= drop:
+            return 0.0, 0.0, 0.0, 0.0, 1.0
+        start_at = drop / fall
+        soc -= drop
+        e = v_target
+        i_charge = 0.0
+        surplus = -load_a
+    elif not holding:
+        if surplus <= 0.0:
+            return i_charge, i_charge, i_charge, 1.0, 0.0
+        # Where the held current would fall to what the source now gives.
+        soc_star = 1.0 - i_charge * (1.0 - start) / i_rate
+        if slope_e > 0.0:
+            # The EMF's slope holds within its grid cell only (cell_top: the cell's upper state of charge).
+            soc_law = soc + (v_target - i_charge * r_bank - e) / slope_e
+            if soc_law <= cell_top:
+                soc_star = min(soc_star, soc_law)
+        rise = per_ah * coulombic * surplus
+        if soc + rise <= soc_star or soc_star <= soc:
+            return i_charge, i_charge, i_charge, 1.0, 0.0
+        start_at = (soc_star - soc) / rise
+        reached = start_at
+        e += slope_e * (soc_star - soc)
+        soc = soc_star
+    share = min(max((1.0 - soc) / (1.0 - start), 0.0), 1.0)
+    if share * i_rate < (v_target - e) / r_bank:
+        # The taper, from where it starts (the crossing lands on its start exactly).
+        slope = -i_rate / (1.0 - start) if soc >= start - 1e-12 else 0.0
+    else:
+        slope = -slope_e / r_bank
+    c = per_ah * (coulombic if surplus > 0.0 else 1.0)
+    rest = 1.0 - start_at
+    before = c * surplus * start_at
+    if slope < 0.0 and surplus < 0.0 and i_cap < load_a:
+        t_cap = np.log((i_cap - load_a) / (i_charge - load_a)) / (c * slope)
+        if t_cap < rest:
+            moved = surplus / -slope * (1.0 - np.exp(c * slope * t_cap)) + c * (i_cap - load_a) * (rest - t_cap)
+            return load_a + (before + moved) / c, i_cap, i_cap, reached, rest
+    moved = surplus / -slope * (1.0 - np.exp(c * slope * rest)) if slope < 0.0 else c * surplus * rest
+    i_end = i_charge + slope * moved
+    above = rest
+    if slope < 0.0 and load_a < tail_a < i_charge:
+        above = min(rest, np.log((tail_a - load_a) / (i_charge - load_a)) / (c * slope))
+    return load_a + (before + moved) / c, i_end, load_a + (i_end - load_a) * np.exp(0.5 * c * slope), reached, above
+
+
+@kernel
+def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, absorption_h, limits, stages,
+                regulated, gen, gen_power_w):  # pragma: no cover - compiled
     # limits: controller current, bank charge current, acceptance start, R,
-    # absorption V, float V, float state of charge.
-    i_ctrl, i_rate, start, r_bank, v_abs, v_float, float_soc = limits
+    # absorption V, float V; stages: tail current, maximum absorption time,
+    # re-bulk state of charge.
+    i_ctrl, i_rate, start, r_bank, v_abs, v_float = limits
+    tail_a, max_absorption_h, rebulk_soc = stages
     # gen: present (0/1), start and stop state of charge, shortest run [h],
-    # charger current [A], running at the start (0/1), hours run so far, step [h].
-    has_gen, g_start, g_stop, g_min_h, g_amps, g_running, g_run_h, step_h = gen
+    # charger current [A], running at the start (0/1), hours run so far.
+    has_gen, g_start, g_stop, g_min_h, g_amps, g_running, g_run_h = gen
     running = g_running > 0.0
     run_h = g_run_h
-    k_max = free.shape[0] - 1
     n = loads.shape[0]
     soc_path = np.empty(n)
+    mid_path = np.empty(n)
+    stage_path = np.empty(n, np.int8)
     unmet = np.zeros(n)
     cap = np.full(n, np.inf)
+    hold = np.full(n, np.inf)
     run_frac = np.zeros(n)
     starts = np.zeros(n, np.int32)
     gen_a = np.zeros(n)
-    soc = soc0
     j = 0
     for k in range(n):
         soc_path[k] = soc
-        # The state of charge moves little per step: walk to its grid cell.
-        while j > 0 and soc < grid[j]:
-            j -= 1
-        while j < k_max - 1 and soc > grid[j + 1]:
-            j += 1
-        w = (soc - grid[j]) / (grid[j + 1] - grid[j])
-        i_free = free[j, k] + (free[j + 1, k] - free[j, k]) * w
-        e = emf[j, k] + (emf[j + 1, k] - emf[j, k]) * w
+        stage_path[k] = stage
+        j = _cell(grid, j, soc)
+        i_free, e = _at(grid, free, emf, j, k, soc)
         load_a = loads[k] / e
         # What fills the bank within the step, the load served on the way
         # included (unless a running generator carries it).
         room = (0.0 if running else load_a) + (1.0 - soc) / (per_ah * coulombic)
-        floating = soc >= float_soc
         # The grid carries only the smooth, unlimited current: the limits
         # apply here, exact in the state of charge.
-        i_charge, _, limit = regulate(i_free, SOURCE, soc, e, r_bank, i_ctrl, i_rate,
-                                      v_float if floating else v_abs, start, room, floating, regulated)
-        if limit == BANK_FULL or limit == NONE_FULL:
-            cap[k] = room
-            i_charge = room  # past full, an unregulated charge is not stored
+        i_charge, _, limit = regulate(i_free, SOURCE, soc, e, r_bank, i_ctrl, i_rate, v_abs, v_float, start, room,
+                                      np.inf, stage, regulated)
         if has_gen > 0.0:
+            # The generator's steps: its start and stop placed within the step
+            # (generator_step), the array's current that of the step's start.
+            mid_path[k] = soc
+            if limit == BANK_FULL or limit == NONE_FULL:
+                cap[k] = room
+                i_charge = room
             # The generator's charger tops the array up to the bank's own limit, whatever the controller.
-            i_bank = regulate(np.inf, SOURCE, soc, e, r_bank, np.inf, i_rate, v_float if floating else v_abs, start,
-                              np.inf, floating, True)[0]
+            i_bank = regulate(np.inf, SOURCE, soc, e, r_bank, np.inf, i_rate, v_abs, v_float, start, np.inf, np.inf,
+                              stage, True)[0]
             soc, running, run_h, run_frac[k], starts[k], gen_a[k], lost_ah = generator_step(
                 soc, running, run_h, i_charge, load_a, min(g_amps, gen_power_w[k] / e), i_bank, step_h,
                 step_h / per_ah, coulombic, g_start, g_stop, g_min_h)
             unmet[k] = lost_ah / step_h * e
+            if regulated:
+                stage, absorption_h = next_stage(stage, absorption_h, limit, i_charge, i_free, soc, step_h, tail_a,
+                                                 max_absorption_h, rebulk_soc)
             continue
+        i_end = i_charge
+        held_h = step_h
+        mid = -1.0
+        held = 1.0
+        if limit == BANK_FULL and regulated:
+            # Would fill within the step: unless the constant voltage is reached first.
+            i_charge, _, limit = regulate(i_free, SOURCE, soc, e, r_bank, i_ctrl, i_rate, v_abs, v_float, start,
+                                          np.inf, np.inf, stage, regulated)
+        if limit == NONE_FULL:
+            cap[k] = room
+            i_charge = room  # past full, an unregulated charge is not stored
+        elif regulated and (i_charge > 0.0 or limit == VOLTAGE_REGULATION):
+            v_target = v_float if stage == FLOAT else v_abs
+            slope_e = (emf[j + 1, k] - emf[j, k]) / (grid[j + 1] - grid[j])
+            i_avg, i_end, i_ahead, held, above = _held_step(i_charge, limit == VOLTAGE_REGULATION, load_a, soc, e,
+                                                            slope_e, grid[j + 1], r_bank, v_target, i_rate, start, per_ah, coulombic,
+                                                     min(i_free, min(i_ctrl, i_rate)), tail_a)
+            if held < 1.0 and load_a + (1.0 - soc) / (per_ah * coulombic) < i_avg:
+                # Even so it fills within the step.
+                held = 1.0
+                limit = BANK_FULL
+                cap[k] = room
+                i_charge = room
+            elif held < 1.0:
+                # The constant voltage held for this share of the step: it carries the average current.
+                limit = VOLTAGE_REGULATION
+                held_h = (1.0 - held) * step_h
+                i_charge = i_avg
+                hold[k] = i_avg
+                i_end = i_ahead
+                if stage == BULK:
+                    # The step's label: what most of it was (bulk, absorption, or float after the tail).
+                    if held >= above and held >= 1.0 - held - above:
+                        stage_path[k] = BULK
+                    elif above >= 1.0 - held - above:
+                        stage_path[k] = ABSORPTION
+                    else:
+                        stage_path[k] = FLOAT
+        elif limit == BANK_FULL:
+            cap[k] = room
+            i_charge = room
+        if held == 1.0 and limit != BANK_FULL and limit != NONE_FULL:
+            # The midpoint rule: the step's current is the one at the state
+            # of charge half way through it, so a long step neither lags
+            # behind the bank's EMF nor behind its limits.
+            net = i_charge - load_a
+            mid = min(max(soc + 0.5 * net * per_ah * (coulombic if net > 0.0 else 1.0), 0.0), 1.0)
+            jm = _cell(grid, j, mid)
+            i_free, e = _at(grid, free, emf, jm, k, mid)
+            load_a = loads[k] / e
+            i_charge, _, limit = regulate(i_free, SOURCE, mid, e, r_bank, i_ctrl, i_rate, v_abs, v_float, start,
+                                          room, np.inf, stage, regulated)
+            if limit == BANK_FULL or limit == NONE_FULL:
+                cap[k] = room
+                i_charge = room
+            i_end = i_charge
+        before = soc
         net = i_charge - load_a
         soc += net * per_ah * (coulombic if net > 0.0 else 1.0)
+        if mid < 0.0:
+            # A held or filling step: its load is drawn at the EMF half way
+            # along, where the exact pass evaluates it.
+            mid = min(max(0.5 * (before + soc), 0.0), 1.0)
+            _, e = _at(grid, free, emf, _cell(grid, j, mid), k, mid)
+            load_a = loads[k] / e
+            net = i_charge - load_a
+            soc = before + net * per_ah * (coulombic if net > 0.0 else 1.0)
         if soc < 0.0:
             # The bank is empty: the rest of this step's load goes unserved.
             unmet[k] = -soc / per_ah * e
             soc = 0.0
         elif soc > 1.0:
             soc = 1.0
-    return soc_path, unmet, soc, cap, run_frac, starts, gen_a, running, run_h
+        # Where the exact pass evaluates the step.
+        mid_path[k] = mid
+        if regulated:
+            stage, absorption_h = next_stage(stage, absorption_h, limit, i_end, i_free, soc, held_h, tail_a,
+                                             max_absorption_h, rebulk_soc)
+    return (soc_path, mid_path, stage_path, unmet, cap, hold, soc, stage, absorption_h, run_frac, starts, gen_a,
+            running, run_h)
 
 
 def integrate_soc(charge_grid_a, emf_grid_v, load_w, step_h: float, capacity_ah: float, coulombic: float,
-                  soc0: float, grid=None, limits=None, regulated: bool = False, generator=None):
-    """State of charge at the start of every step, and the load left unmet [W].
+                  start, grid=None, limits=None, regulated: bool = False, stages=None, generator=None) -> TimeLoop:
+    """The bank through time: state of charge and controller stage at every step, and the load left unmet.
 
     Coulomb counting, with charge scaled by the coulombic efficiency; the
-    charge current and EMF at the current state of charge are interpolated
-    in the grid, and the regulation (:func:`pvsource.regulation.regulate`)
-    applied to it. This is the one loop over time, compiled with numba.
+    unlimited charge current and EMF at the current state of charge are
+    interpolated in the grid, the regulation
+    (:func:`pvsource.regulation.regulate`) applied to it at the stage in
+    force, and the stage moved on by :func:`pvsource.regulation.next_stage`.
+    This is the one loop over time, compiled with numba. Every state it
+    carries is in hours or fractions, never in steps, so the same weather at
+    any step gives the same stages.
 
     Parameters
     ----------
@@ -173,54 +392,63 @@ def integrate_soc(charge_grid_a, emf_grid_v, load_w, step_h: float, capacity_ah:
         Bank capacity [Ah].
     coulombic : float
         Coulombic efficiency of charging [-].
-    soc0 : float
-        State of charge at the first step [-].
+    start : BankState or float
+        The state as the first step begins (a float: the state of charge, in bulk).
     grid : array (K,), optional
         The states of charge of the grid's rows, rising from 0 to 1; default :data:`SOC_GRID`.
     limits : tuple, optional
         (controller current [A], bank charge current [A], absorption start
-        [-], bank resistance [ohm], absorption [V], float [V], float state of
-        charge [-]); none by default.
+        [-], bank resistance [ohm], absorption [V], float [V]); none by default.
     regulated : bool
         Whether the controller regulates (False for a direct connection).
-    generator : (Generator, bool, float), optional
-        A backup generator, whether it runs at the first step and the hours it
-        has run by then (:func:`generator_step`); the bank's ``limits`` apply
-        to its charger.
+    stages : tuple, optional
+        (tail current [A], maximum absorption time [h], re-bulk state of
+        charge [-]); by default absorption never ends.
+    generator : Generator, optional
+        A backup generator (:func:`generator_step`); the bank's ``limits``
+        apply to its charger, and ``start`` says whether it runs and for how
+        long it has.
 
     Returns
     -------
-    soc_path : array (N,)
-    unmet_w : array (N,)
-    final_soc : float
-    cap_a : array (N,)
-        Where the bank fills within a step, the charge current that just
-        fills it (load included); infinite elsewhere.
-    generator_run : dict, only with a generator
-        ``running`` (share of each step run), ``starts`` (per step),
-        ``charge_a`` (the charger's current, step mean) and the state at the
-        end: ``final_running``, ``final_run_h``.
+    TimeLoop
     """
     from pvsource.generator import charger_limits
 
     grid = np.asarray(SOC_GRID if grid is None else grid, dtype=float)
+    state = start if isinstance(start, BankState) else BankState(float(start))
     if limits is None:
-        limits, regulated = (np.inf, np.inf, 0.0, 1.0, np.inf, np.inf, np.inf), False
+        limits, regulated = (np.inf, np.inf, 0.0, 1.0, np.inf, np.inf), False
+    stages = (0.0, np.inf, 0.0) if stages is None else stages
     loads = np.ascontiguousarray(load_w, dtype=float)
-    gen_tuple, power = (0.0,) * 7 + (float(step_h),), np.zeros(len(loads))
+    gen_tuple, power = (0.0,) * 7, np.zeros(len(loads))
     if generator is not None:
-        gen, running, run_h = generator
-        amps, power = charger_limits(gen, loads)
-        gen_tuple = (1.0, gen.start_soc, gen.stop_soc, gen.min_run_h, amps, float(running), float(run_h),
-                     float(step_h))
-    soc_path, unmet, final, cap, run_frac, starts, gen_a, running, run_h = _soc_kernel(
-        grid, np.ascontiguousarray(charge_grid_a, dtype=float), np.ascontiguousarray(emf_grid_v, dtype=float),
-        loads, step_h / capacity_ah, float(coulombic), float(soc0), tuple(float(v) for v in limits),
-        bool(regulated), gen_tuple, np.ascontiguousarray(power, dtype=float))
-    if generator is None:
-        return soc_path, unmet, float(final), cap
-    return soc_path, unmet, float(final), cap, {"running": run_frac, "starts": starts, "charge_a": gen_a,
-                                                "final_running": bool(running), "final_run_h": float(run_h)}
+        amps, power = charger_limits(generator, loads)
+        gen_tuple = (1.0, generator.start_soc, generator.stop_soc, generator.min_run_h, amps,
+                     float(state.generator_running), float(state.generator_run_h))
+    (soc, mid, stage, unmet, cap, hold, end_soc, end_stage, end_h, run_frac, starts, gen_a, running,
+     run_h) = _soc_kernel(grid, np.ascontiguousarray(charge_grid_a, dtype=float),
+                          np.ascontiguousarray(emf_grid_v, dtype=float), loads, float(step_h), step_h / capacity_ah,
+                          float(coulombic), float(state.soc), int(state.stage), float(state.absorption_h),
+                          tuple(float(v) for v in limits), tuple(float(v) for v in stages), bool(regulated),
+                          tuple(float(v) for v in gen_tuple), np.ascontiguousarray(power, dtype=float))
+    end = BankState(float(end_soc), int(end_stage), float(end_h), bool(running), float(run_h))
+    run = None if generator is None else {"running": run_frac, "starts": starts, "charge_a": gen_a}
+    return TimeLoop(soc, mid, stage, unmet, cap, hold, end, run)
+
+
+def loop_settings(system: System):
+    """The bank's and controllers' figures the time loop needs: (limits, stages, regulated) of :func:`integrate_soc`."""
+    b = system.bank
+    # Several controllers: each one's own limit is in the grid already, and all of them regulate.
+    c = system.controller or system.controllers[0].controller
+    v_abs, v_float = bank_model.charge_voltages_v(b)
+    chem = b.chemistry
+    limits = (np.inf if system.several_controllers else c.output_limit_a,
+              float(bank_model.max_charge_current_a(b)), chem.absorption_start_soc,
+              float(bank_model.internal_resistance_ohm(b)), float(v_abs), float(v_float))
+    stages = (chem.tail_current_c_rate * b.capacity_ah, chem.max_absorption_h, chem.rebulk_soc)
+    return limits, stages, c.regulates
 
 
 @kernel
@@ -313,8 +541,6 @@ def generator_step(soc, running, run_h, i_array, load_a, i_gen_max, i_bank_max, 
         unmet_ah = -soc * capacity_ah
         soc = 0.0
     return min(soc, 1.0), running, run_h, on_h / step_h, starts, gen_ah / step_h, unmet_ah
-
-
 
 
 def charge_grid_a(system: System, g, t, done=lambda k: None, chunk_size: int = CHUNK_SIZE):
@@ -546,7 +772,7 @@ def run_season(system: System, weather: pd.DataFrame, *, transposition: str = "p
     if system.site is None:
         raise InputError(system.source, "[site]", "is missing: a season study needs latitude and longitude")
     bounds = chunk_bounds(weather.index, chunk_rows)
-    state = None if system.bank is None else (system.bank.soc if soc0 is None else soc0)
+    state = None if system.bank is None else BankState(system.bank.soc if soc0 is None else soc0)
     kept = [] if keep == "all" else None
     report(0, len(bounds))
     for k, (a, b) in enumerate(bounds):
@@ -585,43 +811,30 @@ def run_season(system: System, weather: pd.DataFrame, *, transposition: str = "p
 
 def _solve_span(system: System, weather: pd.DataFrame, load_w: np.ndarray, step_h: float, state,
                 transposition: str):
-    """Every step of one chunk, and the time loop's state at its end.
-
-    The state is the state of charge (None without a bank); with a generator,
-    (state of charge, whether the generator runs, hours it has run since it started).
-    """
+    """Every step of one chunk, and the time loop's state at its end (a :class:`BankState`; None without a bank)."""
     g, t, poa = group_conditions(system, weather, transposition)
-    soc_path = unmet = None
+    loop = None
     if system.bank is not None:
         b = system.bank
         charge_grid, emf_grid = charge_grid_a(system, g, t)
-        from pvsource.charging import FLOAT_SOC
-
-        v_abs, v_float = bank_model.charge_voltages_v(b)
-        # Several controllers: each one's own limit is in the grid already, and all of them regulate.
-        c = system.controller or system.controllers[0].controller
-        limits = (np.inf if system.several_controllers else c.output_limit_a,
-                  float(bank_model.max_charge_current_a(b)), b.chemistry.absorption_start_soc,
-                  float(bank_model.internal_resistance_ohm(b)), float(v_abs), float(v_float), FLOAT_SOC)
+        limits, stages, regulated = loop_settings(system)
         gen = system.generator
-        soc, *gen_state = state if isinstance(state, tuple) else (state, False, 0.0)
-        soc_path, unmet, soc, cap, *run = integrate_soc(
-            charge_grid, emf_grid, load_w, step_h, b.capacity_ah, b.chemistry.coulombic_efficiency, soc,
-            soc_grid(system), limits, c.regulates, None if gen is None else (gen, *gen_state))
+        loop = integrate_soc(charge_grid, emf_grid, load_w, step_h, b.capacity_ah, b.chemistry.coulombic_efficiency,
+                             state, soc_grid(system), limits, regulated, stages, gen)
         del charge_grid, emf_grid
-        steps = operating_points(system, g, t, soc=soc_path, charge_cap_a=cap, drift_check=False)
-        state = soc
+        state = loop.end
+        steps = operating_points(system, g, t, soc=loop.mid_soc, charge_cap_a=loop.cap_a, hold_a=loop.hold_a,
+                                 stage=loop.stage, drift_check=False)
         if gen is not None:
-            steps = _with_generator(steps, gen, run[0], load_w)
-            state = (soc, run[0]["final_running"], run[0]["final_run_h"])
+            steps = _with_generator(steps, gen, loop.generator, load_w)
     else:
         steps = operating_points(system, g, t, drift_check=False)
     steps.index = weather.index
     steps["poa_global_w_m2"] = poa
     steps["load_w"] = load_w
-    steps["unmet_load_w"] = unmet if unmet is not None else 0.0
-    if soc_path is not None:
-        steps["soc"] = soc_path
+    steps["unmet_load_w"] = loop.unmet_w if loop is not None else 0.0
+    if loop is not None:
+        steps["soc"] = loop.soc
     return steps, state
 
 

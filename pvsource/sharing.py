@@ -166,8 +166,8 @@ def solve_shared(nets, controllers, bank: BankPoint, r_feeders_ohm, r_bank_cable
         # What limits the sum when the bank does not: the largest contributor's own limit.
         top = own_limit[own.argmax(axis=0), np.arange(n)]
         i_bank, stage, limit = reg.regulate_arrays(
-            own.sum(axis=0), top, bank.soc, bank.emf_v, bank.r_ohm, np.inf, bank.max_charge_a, bank.target_v,
-            bank.accept_start_soc, room, bank.floating, True)
+            own.sum(axis=0), top, bank.soc, bank.emf_v, bank.r_ohm, np.inf, bank.max_charge_a, bank.absorption_v,
+            bank.float_v, bank.accept_start_soc, room, bank.hold(), bank.stage, True)
         wanted = share_pro_rata(own, i_bank)
         ops = [c.operate(net, f, b, w, r_f, r_bc) for c, net, f, b, w, r_f, r_bc
                in zip(controllers, nets, frees, banks, wanted, r_feeders_ohm, r_bank_cables_ohm)]
@@ -184,7 +184,8 @@ def solve_shared(nets, controllers, bank: BankPoint, r_feeders_ohm, r_bank_cable
     for k, (c, f, op, b, r_f, r_bc) in enumerate(zip(controllers, frees, ops, banks, r_feeders_ohm,
                                                      r_bank_cables_ohm)):
         mine = i_k[k]
-        stage_k = np.where(cut, stage, np.where(mine > 0.0, reg.BULK, reg.IDLE)).astype(np.int8)
+        # Not cut, each controller is in the bank's stage while it gives something.
+        stage_k = np.where(cut, stage, np.where(mine > 0.0, bank.stage, reg.IDLE)).astype(np.int8)
         limit_k = np.where(cut & op.reached, limit, own_limit[k]).astype(np.int8)
         w = c.losses(f, op, b, mine, r_f, r_bc)
         charges.append(ChargeResult(op.x_v, op.bus_v, op.converged & converged, op.duty, w.input_v, mine,

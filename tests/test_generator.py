@@ -158,10 +158,10 @@ def test_start_stop_hysteresis_and_fuel_in_closed_form(step_h, min_run_h):
     n = int(round(span_h / step_h))
     gen = Generator(start_soc=0.3, stop_soc=0.8, charger_current_a=20.0, min_run_h=min_run_h, rated_power_w=2000.0,
                     charger_efficiency=0.85)
-    limits = (np.inf, 50.0, 0.95, 0.01, 1000.0, 1000.0, 2.0)  # nothing limits the 20 A charger
-    soc, unmet, final, cap, run = integrate_soc(np.zeros((2, n)), np.full((2, n), 50.0), np.full(n, load_w), step_h,
-                                                cap_ah, eta, 0.5, np.array([0.0, 1.0]), limits, True,
-                                                (gen, False, 0.0))
+    limits = (np.inf, 50.0, 0.95, 0.01, 1000.0, 1000.0)  # nothing limits the 20 A charger
+    loop = integrate_soc(np.zeros((2, n)), np.full((2, n), 50.0), np.full(n, load_w), step_h, cap_ah, eta, 0.5,
+                         np.array([0.0, 1.0]), limits, True, None, gen)
+    soc, unmet, run = loop.soc, loop.unmet_w, loop.generator
     runs = _cycle_events(0.5, 0.3, 0.8, min_run_h, 0.1, 0.18, span_h)
     hours = sum(b - a for a, b in runs)
     assert run["starts"].sum() == len(runs) == (13 if min_run_h == 0.0 else 10)
@@ -183,18 +183,18 @@ def test_the_run_state_carries_across_calls():
     from pvsource.season import integrate_soc
 
     n, gen = 240, Generator(start_soc=0.3, stop_soc=0.8, charger_current_a=20.0, min_run_h=3.5, fuel_l_per_h=1.0)
-    limits = (np.inf, 50.0, 0.95, 0.01, 1000.0, 1000.0, 2.0)
+    limits = (np.inf, 50.0, 0.95, 0.01, 1000.0, 1000.0)
     whole = integrate_soc(np.zeros((2, n)), np.full((2, n), 50.0), np.full(n, 500.0), 0.25, 100.0, 0.9, 0.5,
-                          np.array([0.0, 1.0]), limits, True, (gen, False, 0.0))
+                          np.array([0.0, 1.0]), limits, True, None, gen)
     cut = 111
     first = integrate_soc(np.zeros((2, cut)), np.full((2, cut), 50.0), np.full(cut, 500.0), 0.25, 100.0, 0.9, 0.5,
-                          np.array([0.0, 1.0]), limits, True, (gen, False, 0.0))
-    state = (gen, first[4]["final_running"], first[4]["final_run_h"])
+                          np.array([0.0, 1.0]), limits, True, None, gen)
     rest = integrate_soc(np.zeros((2, n - cut)), np.full((2, n - cut), 50.0), np.full(n - cut, 500.0), 0.25, 100.0,
-                         0.9, first[2], np.array([0.0, 1.0]), limits, True, state)
-    assert np.concatenate([first[0], rest[0]]) == pytest.approx(whole[0], abs=1e-12)
+                         0.9, first.end, np.array([0.0, 1.0]), limits, True, None, gen)
+    assert np.concatenate([first.soc, rest.soc]) == pytest.approx(whole.soc, abs=1e-12)
     for key in ("running", "starts", "charge_a"):
-        assert np.concatenate([first[4][key], rest[4][key]]) == pytest.approx(whole[4][key], abs=1e-12)
+        assert np.concatenate([first.generator[key], rest.generator[key]]) == pytest.approx(whole.generator[key],
+                                                                                            abs=1e-12)
 
 
 @pytest.fixture(scope="module")

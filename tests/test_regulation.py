@@ -8,9 +8,10 @@ from pvsource import regulation as reg
 INF = float("inf")
 
 
-def cv(i_free, soc, emf, r, v_target, i_ctrl=INF, i_rate=INF, start=0.5, room=INF, floating=False, regulated=True,
+def cv(i_free, soc, emf, r, v_target, i_ctrl=INF, i_rate=INF, start=0.5, room=INF, stage=reg.BULK, regulated=True,
        free_limit=reg.SOURCE):
-    return reg.regulate(i_free, free_limit, soc, emf, r, i_ctrl, i_rate, v_target, start, room, floating, regulated)
+    return reg.regulate(i_free, free_limit, soc, emf, r, i_ctrl, i_rate, v_target, v_target, start, room, INF,
+                        stage, regulated)
 
 
 def test_constant_voltage_current_is_ohms_law_in_a_worked_example():
@@ -22,11 +23,16 @@ def test_constant_voltage_current_is_ohms_law_in_a_worked_example():
     i, stage, limit = cv(100.0, 0.5, 13.160, 0.0032, 13.200)
     assert i == pytest.approx(12.5, rel=1e-9)
     assert stage == reg.ABSORPTION and limit == reg.VOLTAGE_REGULATION
-    i, _, _ = reg.regulate_arrays(100.0, reg.SOURCE, 0.5, 13.160, 0.0032, INF, INF,
-                                  np.array([13.0, 13.160, 13.168]), 0.5, INF, False, True)
+    held = np.array([13.0, 13.160, 13.168])
+    i, _, _ = reg.regulate_arrays(100.0, reg.SOURCE, 0.5, 13.160, 0.0032, INF, INF, held, held, 0.5, INF, INF,
+                                  reg.BULK, True)
     np.testing.assert_allclose(i, [0.0, 0.0, 2.5], atol=1e-9)
     # The same voltage held as float: the stage says so.
-    assert cv(100.0, 0.5, 13.160, 0.0032, 13.200, floating=True)[1] == reg.FLOAT
+    assert cv(100.0, 0.5, 13.160, 0.0032, 13.200, stage=reg.FLOAT)[1] == reg.FLOAT
+    # The float target, not the absorption one, when the controller floats.
+    i, _, _ = reg.regulate(100.0, reg.SOURCE, 0.5, 13.160, 0.0032, INF, INF, 14.0, 13.168, 0.5, INF, INF, reg.FLOAT,
+                           True)
+    assert i == pytest.approx(2.5, rel=1e-9)
 
 
 def test_the_tightest_limit_binds_and_is_named():
@@ -72,3 +78,45 @@ def test_a_direct_connection_is_not_limited_but_says_what_it_breaks():
 def test_every_code_has_words():
     assert len(reg.STAGE_WORDS) == 6 and len(reg.LIMIT_WORDS) == 13
     assert len(set(reg.LIMIT_WORDS)) == len(reg.LIMIT_WORDS)
+
+
+def test_a_stage_in_force_is_reported_whatever_binds():
+    # A cloud in absorption: the source limits, yet the controller is in absorption.
+    assert cv(5.0, 0.9, 26.0, 0.01, 28.4, stage=reg.ABSORPTION) == (5.0, reg.ABSORPTION, reg.SOURCE)
+    assert cv(50.0, 0.9, 26.0, 0.01, 28.4, i_ctrl=40.0, stage=reg.FLOAT)[1:] == (reg.FLOAT, reg.CONTROLLER_OUTPUT)
+    # At night nothing is in force.
+    assert cv(0.0, 0.9, 26.0, 0.01, 28.4, stage=reg.FLOAT)[1] == reg.IDLE
+
+
+def _walk(steps, step_h, tail_a=2.0, max_h=4.0, rebulk=0.85):
+    """Run next_stage over (limit, i_bank, i_free, soc_next) steps from bulk; the stage before each step."""
+    stage, hours, out = reg.BULK, 0.0, []
+    for limit, i_bank, i_free, soc in steps:
+        out.append(stage)
+        stage, hours = reg.next_stage(stage, hours, limit, i_bank, i_free, soc, step_h, tail_a, max_h, rebulk)
+    return out, stage, hours
+
+
+def test_stage_hysteresis_law_worked_by_hand():
+    # The law of issue 12 (common practice for three-stage charging): bulk until
+    # the absorption voltage binds; absorption until the held current tapers to
+    # the tail (2 A here) or the maximum time (4 h); float until the state of
+    # charge falls below the re-bulk threshold (0.85); then bulk again.
+    src, vr = reg.SOURCE, reg.VOLTAGE_REGULATION
+    steps = [(src, 30.0, 30.0, 0.70), (vr, 20.0, 40.0, 0.80), (vr, 8.0, 40.0, 0.90), (vr, 2.0, 40.0, 0.97),
+             (src, 0.0, 0.0, 0.92), (src, 0.0, 0.0, 0.86), (src, 0.0, 0.0, 0.84), (src, 10.0, 10.0, 0.86)]
+    stages, _, _ = _walk(steps, 1.0)
+    B, A, F = reg.BULK, reg.ABSORPTION, reg.FLOAT
+    assert stages == [B, B, A, A, F, F, F, B]
+    # A flicker of the voltage above re-bulk changes nothing: float holds from 0.97 down to 0.85.
+    # The maximum time: 4 h in absorption at a held current that never tapers to 2 A.
+    # (The first step begins in bulk; the voltage law binding in it makes it
+    # the first hour of absorption.)
+    stages, stage, hours = _walk([(vr, 20.0, 40.0, 0.9)] * 6, 1.0)
+    assert stages == [B, A, A, A, F, F] and stage == F and hours == 4.0
+    # Counted in hours, not steps: at 15-minute steps the same 4 h are 16 steps.
+    stages, _, hours = _walk([(vr, 20.0, 40.0, 0.9)] * 20, 0.25)
+    assert 1 + stages.count(A) == 16 and hours == 4.0
+    # The absorption clock stops at night (nothing from the array) and restarts at the next bulk.
+    stages, _, hours = _walk([(vr, 20.0, 40.0, 0.9)] * 2 + [(src, 0.0, 0.0, 0.9)] * 5, 1.0)
+    assert stages[-1] == A and hours == 2.0
