@@ -403,3 +403,19 @@ def test_fleet_table_has_a_column_per_alert_that_fired_anywhere():
     table = fleet_table([("quiet", quiet), ("loud", loud)])
     assert [c for c in table.columns if c.startswith("alert_")] == ["alert_hours.pv_input_over_max_v"]
     assert table["alert_hours.pv_input_over_max_v"].tolist() == [0.0, 12.5]
+
+
+def test_several_controllers_bank_runs_carry_their_own_output():
+    from pvsource.config import load_system
+
+    # The east-west example with every bank-side run rated 1 A (invented), so
+    # each alert reports the current its run carries: each tracker's run its
+    # own output, the interconnects their sum (Kirchhoff's current law at the bank).
+    base = load_system(ROOT / "data" / "example-east-west.toml")
+    cables = tuple(replace(c, ampacity_a=1.0) if c.role in ("bank", "interconnect") else c for c in base.cables)
+    system = replace(base, cables=cables)
+    frame = operating_points(system)
+    got = {a["run"]: a["value"] for a in point_alerts(system, frame) if a["name"] == "cable_over_ampacity"}
+    east, west = got["east tracker to bank"], got["west tracker to bank"]
+    assert east > 1.0 and west > 1.0 and east != pytest.approx(west)
+    assert got["bank interconnects"] == pytest.approx(east + west, rel=1e-9)
