@@ -111,6 +111,10 @@ def sweep_values(system: System, variable: str, start: str, stop: str, steps: in
             raise InputError(option, None, f"expected {lo:g} to {hi:g} {unit} for {variable}, got {value:g}")
     if variable == "soc" and system.bank is None:
         raise InputError("--over", None, "soc needs a system with a [bank]")
+    if variable == "load_resistance_ohm" and system.several_controllers:
+        raise InputError("--over", None, "load_resistance_ohm puts a resistor in place of the controller and the bank, "
+                                         "at the end of the one feeder; with several [[controller]] tables each has "
+                                         "its own feeder")
     if variable == "load_resistance_ohm":
         # Resistances matter by ratio: step them geometrically.
         return list(np.geomspace(a, b, steps)), unit

@@ -123,6 +123,8 @@ def test_cli_sweep_json_and_plot(capsys, tmp_path):
     (["sweep", EXAMPLE, "--over", "irradiance", "--from", "0", "--to", "1", "--plot", "/nonexistent/x.png"],
      "--plot"),
     (["sweep", EXAMPLE, "--from", "0", "--to", "1"], "--over"),
+    (["sweep", str(DATA / "example-east-west.toml"), "--over", "load_resistance_ohm", "--from", "1", "--to", "9"],
+     "each has its own feeder"),
 ])
 def test_cli_sweep_errors_are_one_line(capsys, args, words):
     code, out, err = run(capsys, *args)
