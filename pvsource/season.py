@@ -47,7 +47,7 @@ def soc_grid(system: System) -> np.ndarray:
 FULL_SOC = 0.99  # a day "reaches full charge" when the state of charge gets here
 ENERGY_KEYS = ("poa_insolation_kwh_m2", "energy_mpp_kwh", "energy_generated_kwh", "energy_delivered_kwh",
                "energy_stored_kwh", "wiring_loss_kwh", "controller_loss_kwh", "bank_internal_loss_kwh",
-               "curtailed_kwh", "mpp_shortfall_kwh", "load_kwh", "unmet_load_kwh")
+               "curtailed_kwh", "mpp_shortfall_kwh", "load_kwh", "unmet_load_kwh", "coulombic_loss_kwh")
 # With a generator, per month too: its hours and starts add up like energies.
 GENERATOR_KEYS = ("generator_hours", "generator_starts", "generator_energy_kwh", "generator_load_kwh",
                   "generator_charger_loss_kwh", "generator_bank_loss_kwh", "generator_stored_kwh", "generator_fuel_l")
@@ -129,6 +129,7 @@ class TimeLoop:
     cap_a : where the bank fills within a step, the charge current that just
         fills it (load included); infinite elsewhere [A]
     hold_a : where a constant voltage holds, the current averaged over the step; infinite elsewhere [A]
+    coulombic_loss_a : the charge current that does not reach the state of charge (step mean) [A]
     end : BankState after the last step
     generator : dict or None
         With a generator: ``running`` (share of each step run), ``starts``
@@ -141,6 +142,7 @@ class TimeLoop:
     unmet_w: np.ndarray
     cap_a: np.ndarray
     hold_a: np.ndarray
+    coulombic_loss_a: np.ndarray
     end: BankState
     generator: dict | None = None
 
@@ -253,6 +255,7 @@ def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, a
     run_frac = np.zeros(n)
     starts = np.zeros(n, np.int32)
     gen_a = np.zeros(n)
+    lost = np.zeros(n)
     j = 0
     for k in range(n):
         soc_path[k] = soc
@@ -277,10 +280,14 @@ def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, a
             # The generator's charger tops the array up to the bank's own limit, whatever the controller.
             i_bank = regulate(np.inf, SOURCE, soc, e, r_bank, np.inf, i_rate, v_abs, v_float, start, np.inf, np.inf,
                               stage, True)[0]
+            before = soc
             soc, running, run_h, run_frac[k], starts[k], gen_a[k], lost_ah = generator_step(
                 soc, running, run_h, i_charge, load_a, min(g_amps, gen_power_w[k] / e), i_bank, step_h,
                 step_h / per_ah, coulombic, g_start, g_stop, g_min_h)
             unmet[k] = lost_ah / step_h * e
+            # The charge that went in, less the load the bank served, less what the state of charge gained.
+            lost[k] = max(i_charge + gen_a[k] - (load_a * (1.0 - run_frac[k]) - lost_ah / step_h)
+                          - (soc - before) / per_ah, 0.0)
             if regulated:
                 stage, absorption_h = next_stage(stage, absorption_h, limit, i_charge, i_free, soc, step_h, tail_a,
                                                  max_absorption_h, rebulk_soc)
@@ -352,6 +359,8 @@ def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, a
             load_a = loads[k] / e
             net = i_charge - load_a
             soc = before + net * per_ah * (coulombic if net > 0.0 else 1.0)
+        # Charge that does not reach the state of charge: the coulombic loss.
+        lost[k] = (1.0 - coulombic) * net if net > 0.0 else 0.0
         if soc < 0.0:
             # The bank is empty: the rest of this step's load goes unserved.
             unmet[k] = -soc / per_ah * e
@@ -363,8 +372,8 @@ def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, a
         if regulated:
             stage, absorption_h = next_stage(stage, absorption_h, limit, i_end, i_free, soc, held_h, tail_a,
                                              max_absorption_h, rebulk_soc)
-    return (soc_path, mid_path, stage_path, unmet, cap, hold, soc, stage, absorption_h, run_frac, starts, gen_a,
-            running, run_h)
+    return (soc_path, mid_path, stage_path, unmet, cap, hold, lost, soc, stage, absorption_h, run_frac, starts,
+            gen_a, running, run_h)
 
 
 def integrate_soc(charge_grid_a, emf_grid_v, load_w, step_h: float, capacity_ah: float, coulombic: float,
@@ -426,7 +435,7 @@ def integrate_soc(charge_grid_a, emf_grid_v, load_w, step_h: float, capacity_ah:
         amps, power = charger_limits(generator, loads)
         gen_tuple = (1.0, generator.start_soc, generator.stop_soc, generator.min_run_h, amps,
                      float(state.generator_running), float(state.generator_run_h))
-    (soc, mid, stage, unmet, cap, hold, end_soc, end_stage, end_h, run_frac, starts, gen_a, running,
+    (soc, mid, stage, unmet, cap, hold, lost, end_soc, end_stage, end_h, run_frac, starts, gen_a, running,
      run_h) = _soc_kernel(grid, np.ascontiguousarray(charge_grid_a, dtype=float),
                           np.ascontiguousarray(emf_grid_v, dtype=float), loads, float(step_h), step_h / capacity_ah,
                           float(coulombic), float(state.soc), int(state.stage), float(state.absorption_h),
@@ -434,7 +443,7 @@ def integrate_soc(charge_grid_a, emf_grid_v, load_w, step_h: float, capacity_ah:
                           tuple(float(v) for v in gen_tuple), np.ascontiguousarray(power, dtype=float))
     end = BankState(float(end_soc), int(end_stage), float(end_h), bool(running), float(run_h))
     run = None if generator is None else {"running": run_frac, "starts": starts, "charge_a": gen_a}
-    return TimeLoop(soc, mid, stage, unmet, cap, hold, end, run)
+    return TimeLoop(soc, mid, stage, unmet, cap, hold, lost, end, run)
 
 
 def loop_settings(system: System):
@@ -835,6 +844,8 @@ def _solve_span(system: System, weather: pd.DataFrame, load_w: np.ndarray, step_
     steps["unmet_load_w"] = loop.unmet_w if loop is not None else 0.0
     if loop is not None:
         steps["soc"] = loop.soc
+        # The share of the stored energy (E I) that never reaches the state of charge.
+        steps["coulombic_loss_w"] = steps["bank_emf_v"].to_numpy() * loop.coulombic_loss_a
     return steps, state
 
 
@@ -873,6 +884,7 @@ def _energies(steps: pd.DataFrame, step_h: float) -> dict:
         "mpp_shortfall_kwh": kwh("mpp_shortfall_w"),
         "load_kwh": kwh("load_w"),
         "unmet_load_kwh": kwh("unmet_load_w"),
+        "coulombic_loss_kwh": kwh("coulombic_loss_w"),
     }
     if "generator_w" in steps:
         out.update({
