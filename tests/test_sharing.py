@@ -212,3 +212,25 @@ def test_several_controllers_without_a_bank_are_refused_at_a_point(demo_module):
     with pytest.raises(InputError) as exc:
         operating_points(system, 800.0, 40.0)
     assert exc.value.field == "[[controller]]" and "[bank]" in exc.value.expected
+
+
+def test_two_pwm_switches_share_the_banks_acceptance_pro_rata(demo_module):
+    # Two PWM switches, one on two strings of one module and one on a single
+    # string, into a 40 Ah LFP bank at 97 %: the preset's acceptance (rate
+    # 0.5 C, tapering from 0.95 to full) lets 20 x (1 - 0.97) / 0.05 = 12 A in
+    # (by hand). Each switch closed passes its array's current at the bank's
+    # voltage; the rule shares the 12 A pro rata to those currents, which
+    # each switch's duty then delivers on average.
+    gs = (StringGroup("g1", 1, 2), StringGroup("g2", 1, 1))
+    assigned = tuple(ControllerGroups(make_controller("pwm", name=n, max_input_v=60.0), (g.name,))
+                     for n, g in zip(("e", "w"), gs))
+    system = System(module=demo_module, groups=gs, bank=make_bank("lfp", 8, 1, 40.0, 0.97, 25.0),
+                    controllers=assigned, name="pwm pair")
+    row = operating_points(system, 900.0, 40.0).iloc[0]
+    i_e, i_w = row[controller_column("e", "charge_current_a")], row[controller_column("w", "charge_current_a")]
+    on_e, on_w = row[controller_column("e", "i_a")], row[controller_column("w", "i_a")]
+    assert i_e + i_w == pytest.approx(12.0, rel=1e-9) and row["charge_current_a"] == pytest.approx(12.0, rel=1e-9)
+    assert i_e / i_w == pytest.approx(on_e / on_w, rel=1e-9)
+    assert on_e + on_w > 12.0  # the bank, not the arrays, binds
+    assert row[controller_column("e", "duty")] == pytest.approx(i_e / on_e, rel=1e-9)
+    assert row["limit"] == "voltage regulation"
