@@ -57,6 +57,8 @@ _SCALARS = {
     "tail_current_c_rate": (lambda x: 0 < x <= 1, "a charge rate above 0 and at most 1 [1/h]"),
     "max_absorption_h": (lambda x: 0 < x <= 24, "a time above 0 and at most 24 [h]"),
     "rebulk_soc": (lambda x: 0.3 <= x < 1, "a state of charge from 0.3 to below 1"),
+    "min_soc": (lambda x: 0 <= x < 1, "a state of charge from 0 to below 1"),
+    "reconnect_soc": (lambda x: 0 < x <= 1, "a state of charge above 0 and at most 1"),
 }
 _TABLES = ("ocv_soc", "ocv_v_per_cell")
 #: Names of every preset value, as accepted in ``overrides``.
@@ -91,6 +93,9 @@ class Chemistry:
         tapered to this rate times capacity [1/h], or after this long [h].
     rebulk_soc : float
         From float, back to bulk only below this state of charge [fraction].
+    min_soc, reconnect_soc : float
+        The low-voltage disconnect: loads are cut off at or below
+        ``min_soc`` and return at or above ``reconnect_soc`` [fraction].
     sources : tuple of (str, str)
         Each preset name with its source; ``"override"`` where the user set it.
     """
@@ -111,6 +116,8 @@ class Chemistry:
     tail_current_c_rate: float
     max_absorption_h: float
     rebulk_soc: float
+    min_soc: float
+    reconnect_soc: float
     sources: tuple[tuple[str, str], ...] = ()
 
     def source(self, name: str) -> str:
@@ -187,6 +194,9 @@ def _checked(key: str, name: str, values: dict, sources: dict, where: str, chang
         blame = "absorption_v_per_cell" if "absorption_v_per_cell" in changed and "float_v_per_cell" not in changed \
             else "float_v_per_cell"
         raise InputError(where, label(blame), "float voltage at most the absorption voltage")
+    if out["reconnect_soc"] <= out["min_soc"]:
+        blame = "min_soc" if "min_soc" in changed and "reconnect_soc" not in changed else "reconnect_soc"
+        raise InputError(where, label(blame), "reconnect_soc above min_soc (the disconnect needs a gap to hold)")
     return Chemistry(key, name, **out, sources=tuple((n, sources[n]) for n in PRESET_NAMES))
 
 

@@ -424,6 +424,14 @@ def parse_bank(table: Table) -> Bank:
         if not isinstance(raw, dict):
             raise InputError(where, table.field("overrides"), "expected a table of preset values to replace")
         overrides = dict(raw)
+    # The low-voltage disconnect has keys of its own; they replace the chemistry's defaults.
+    direct = {}
+    for key in ("min_soc", "reconnect_soc"):
+        if table.has(key):
+            if key in overrides:
+                raise InputError(where, table.field(key), f"given twice: here and as overrides.{key}")
+            direct[key] = table.number(key, minimum=0.0, maximum=1.0)
+    overrides.update(direct)
     values = dict(
         cells_in_series=table.number("cells_in_series", integer=True, positive=True, maximum=1000),
         strings=table.number("strings", integer=True, positive=True, maximum=1000),
@@ -436,6 +444,8 @@ def parse_bank(table: Table) -> Bank:
     try:
         return make_bank(chemistry, overrides=overrides, where=where, **values)
     except InputError as exc:
+        if exc.field and exc.field.startswith("overrides.") and exc.field[10:] in direct:
+            exc = InputError(where, exc.field[10:], exc.expected)
         field = exc.field if exc.field and exc.field.startswith("[") else f"[bank].{exc.field}" if exc.field else "[bank]"
         raise InputError(where, field, exc.expected) from None
 

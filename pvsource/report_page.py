@@ -236,6 +236,11 @@ def findings(system, summary: dict, checks) -> str:
         items.append(("warn", "Bank emptied.", "The state of charge reached "
                       f"{pct(summary['min_soc'])} during the span; a real system disconnects its loads first, "
                       "so plan for a low-voltage disconnect and more storage or generation."))
+    if summary.get("load_disconnected_hours"):
+        items.append(("warn", "Loads disconnected.",
+                      f"The low-voltage disconnect cut the loads off for {fmt(summary['load_disconnected_hours'], 0, 'h')} "
+                      f"to protect the bank (its state of charge stayed at or above {pct(summary.get('min_soc'))}); "
+                      "the load it shed is counted as not met."))
     if summary.get("generator_hours"):
         share = f" ({pct(summary['generator_load_kwh'] / load)} of the load)" if load > 0 else ""
         items.append(("info", "Generator ran.",

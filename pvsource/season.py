@@ -107,6 +107,8 @@ class BankState:
         Whether a backup generator runs.
     generator_run_h : float
         Hours it has run since it last started [h].
+    load_disconnected : bool
+        Whether the low-voltage disconnect has cut the loads off.
     """
 
     soc: float
@@ -114,6 +116,7 @@ class BankState:
     absorption_h: float = 0.0
     generator_running: bool = False
     generator_run_h: float = 0.0
+    load_disconnected: bool = False
 
 
 @dataclass(frozen=True)
@@ -130,6 +133,7 @@ class TimeLoop:
         fills it (load included); infinite elsewhere [A]
     hold_a : where a constant voltage holds, the current averaged over the step; infinite elsewhere [A]
     coulombic_loss_a : the charge current that does not reach the state of charge (step mean) [A]
+    load_disconnected : the share of each step the loads were cut off [-]
     end : BankState after the last step
     generator : dict or None
         With a generator: ``running`` (share of each step run), ``starts``
@@ -143,6 +147,7 @@ class TimeLoop:
     cap_a: np.ndarray
     hold_a: np.ndarray
     coulombic_loss_a: np.ndarray
+    load_disconnected: np.ndarray
     end: BankState
     generator: dict | None = None
 
@@ -234,7 +239,7 @@ def _held_step(i_charge, holding, load_a, soc, e, slope_e, cell_top, r_bank, v_t
 
 @kernel
 def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, absorption_h, limits, stages,
-                regulated, gen, gen_power_w):  # pragma: no cover - compiled
+                regulated, gen, gen_power_w, disconnect, disconnected):  # pragma: no cover - compiled
     # limits: controller current, bank charge current, acceptance start, R,
     # absorption V, float V; stages: tail current, maximum absorption time,
     # re-bulk state of charge.
@@ -245,6 +250,8 @@ def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, a
     has_gen, g_start, g_stop, g_min_h, g_amps, g_running, g_run_h = gen
     running = g_running > 0.0
     run_h = g_run_h
+    # disconnect: the loads' cut-off and return states of charge (no cut-off at 0).
+    min_soc, reconnect_soc = disconnect
     n = loads.shape[0]
     soc_path = np.empty(n)
     mid_path = np.empty(n)
@@ -256,13 +263,17 @@ def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, a
     starts = np.zeros(n, np.int32)
     gen_a = np.zeros(n)
     lost = np.zeros(n)
+    shed = np.zeros(n)
     j = 0
     for k in range(n):
         soc_path[k] = soc
         stage_path[k] = stage
+        if min_soc > 0.0 and not disconnected and soc <= min_soc:
+            disconnected = True
+        w_load = 0.0 if disconnected else loads[k]  # what the bank's loads draw
         j = _cell(grid, j, soc)
         i_free, e = _at(grid, free, emf, j, k, soc)
-        load_a = loads[k] / e
+        load_a = w_load / e
         # What fills the bank within the step, the load served on the way
         # included (unless a running generator carries it).
         room = (0.0 if running else load_a) + (1.0 - soc) / (per_ah * coulombic)
@@ -284,10 +295,16 @@ def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, a
             soc, running, run_h, run_frac[k], starts[k], gen_a[k], lost_ah = generator_step(
                 soc, running, run_h, i_charge, load_a, min(g_amps, gen_power_w[k] / e), i_bank, step_h,
                 step_h / per_ah, coulombic, g_start, g_stop, g_min_h)
-            unmet[k] = lost_ah / step_h * e
+            unmet[k] = lost_ah / step_h * e + (loads[k] if disconnected else 0.0)
+            shed[k] = 1.0 if disconnected else 0.0
             # The charge that went in, less the load the bank served, less what the state of charge gained.
             lost[k] = max(i_charge + gen_a[k] - (load_a * (1.0 - run_frac[k]) - lost_ah / step_h)
                           - (soc - before) / per_ah, 0.0)
+            if min_soc > 0.0:
+                if not disconnected and soc <= min_soc:
+                    disconnected = True
+                elif disconnected and soc >= reconnect_soc:
+                    disconnected = False
             if regulated:
                 stage, absorption_h = next_stage(stage, absorption_h, limit, i_charge, i_free, soc, step_h, tail_a,
                                                  max_absorption_h, rebulk_soc)
@@ -341,7 +358,7 @@ def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, a
             mid = min(max(soc + 0.5 * net * per_ah * (coulombic if net > 0.0 else 1.0), 0.0), 1.0)
             jm = _cell(grid, j, mid)
             i_free, e = _at(grid, free, emf, jm, k, mid)
-            load_a = loads[k] / e
+            load_a = w_load / e
             i_charge, _, limit = regulate(i_free, SOURCE, mid, e, r_bank, i_ctrl, i_rate, v_abs, v_float, start,
                                           room, np.inf, stage, regulated)
             if limit == BANK_FULL or limit == NONE_FULL:
@@ -356,28 +373,48 @@ def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, a
             # along, where the exact pass evaluates it.
             mid = min(max(0.5 * (before + soc), 0.0), 1.0)
             _, e = _at(grid, free, emf, _cell(grid, j, mid), k, mid)
-            load_a = loads[k] / e
+            load_a = w_load / e
             net = i_charge - load_a
             soc = before + net * per_ah * (coulombic if net > 0.0 else 1.0)
-        # Charge that does not reach the state of charge: the coulombic loss.
-        lost[k] = (1.0 - coulombic) * net if net > 0.0 else 0.0
+        # The low-voltage disconnect, placed within the step: the loads are
+        # cut off where the state of charge reaches min_soc, and return
+        # where it reaches reconnect_soc, so its hours do not depend on the step.
+        cut = 1.0 if disconnected else 0.0
+        if min_soc > 0.0 and not disconnected and soc < min_soc and net < 0.0:
+            on = (before - min_soc) / (before - soc)
+            soc = min_soc + (1.0 - on) * i_charge * per_ah * (coulombic if i_charge > 0.0 else 1.0)
+            cut = 1.0 - on
+            disconnected = True
+        elif disconnected and soc >= reconnect_soc and soc > before:
+            off = (reconnect_soc - before) / (soc - before)
+            back = i_charge - loads[k] / e
+            soc = reconnect_soc + (1.0 - off) * back * per_ah * (coulombic if back > 0.0 else 1.0)
+            cut = off
+            disconnected = False
+        shed[k] = cut
+        unmet[k] = loads[k] * cut
         if soc < 0.0:
             # The bank is empty: the rest of this step's load goes unserved.
-            unmet[k] = -soc / per_ah * e
+            unmet[k] += -soc / per_ah * e
             soc = 0.0
         elif soc > 1.0:
             soc = 1.0
+        # Charge that does not reach the state of charge: the coulombic loss
+        # (what went in, less the load the bank served, less what the state of charge gained).
+        served_a = (loads[k] * (1.0 - cut) - (unmet[k] - loads[k] * cut)) / e
+        lost[k] = max(i_charge - served_a - (soc - before) / per_ah, 0.0)
         # Where the exact pass evaluates the step.
         mid_path[k] = mid
         if regulated:
             stage, absorption_h = next_stage(stage, absorption_h, limit, i_end, i_free, soc, held_h, tail_a,
                                              max_absorption_h, rebulk_soc)
-    return (soc_path, mid_path, stage_path, unmet, cap, hold, lost, soc, stage, absorption_h, run_frac, starts,
-            gen_a, running, run_h)
+    return (soc_path, mid_path, stage_path, unmet, cap, hold, lost, shed, soc, stage, absorption_h, run_frac, starts,
+            gen_a, running, run_h, disconnected)
 
 
 def integrate_soc(charge_grid_a, emf_grid_v, load_w, step_h: float, capacity_ah: float, coulombic: float,
-                  start, grid=None, limits=None, regulated: bool = False, stages=None, generator=None) -> TimeLoop:
+                  start, grid=None, limits=None, regulated: bool = False, stages=None, generator=None,
+                  disconnect=None) -> TimeLoop:
     """The bank through time: state of charge and controller stage at every step, and the load left unmet.
 
     Coulomb counting, with charge scaled by the coulombic efficiency; the
@@ -417,6 +454,10 @@ def integrate_soc(charge_grid_a, emf_grid_v, load_w, step_h: float, capacity_ah:
         A backup generator (:func:`generator_step`); the bank's ``limits``
         apply to its charger, and ``start`` says whether it runs and for how
         long it has.
+    disconnect : (float, float), optional
+        The low-voltage disconnect: loads are cut off at or below the first
+        state of charge and return at or above the second; the shed load
+        counts as unmet. None (or a cut-off at 0): loads are never cut off.
 
     Returns
     -------
@@ -435,19 +476,21 @@ def integrate_soc(charge_grid_a, emf_grid_v, load_w, step_h: float, capacity_ah:
         amps, power = charger_limits(generator, loads)
         gen_tuple = (1.0, generator.start_soc, generator.stop_soc, generator.min_run_h, amps,
                      float(state.generator_running), float(state.generator_run_h))
-    (soc, mid, stage, unmet, cap, hold, lost, end_soc, end_stage, end_h, run_frac, starts, gen_a, running,
-     run_h) = _soc_kernel(grid, np.ascontiguousarray(charge_grid_a, dtype=float),
+    (soc, mid, stage, unmet, cap, hold, lost, shed, end_soc, end_stage, end_h, run_frac, starts, gen_a, running,
+     run_h, disconnected) = _soc_kernel(grid, np.ascontiguousarray(charge_grid_a, dtype=float),
                           np.ascontiguousarray(emf_grid_v, dtype=float), loads, float(step_h), step_h / capacity_ah,
                           float(coulombic), float(state.soc), int(state.stage), float(state.absorption_h),
                           tuple(float(v) for v in limits), tuple(float(v) for v in stages), bool(regulated),
-                          tuple(float(v) for v in gen_tuple), np.ascontiguousarray(power, dtype=float))
-    end = BankState(float(end_soc), int(end_stage), float(end_h), bool(running), float(run_h))
+                          tuple(float(v) for v in gen_tuple), np.ascontiguousarray(power, dtype=float),
+                          tuple(float(v) for v in (disconnect or (0.0, 1.0))), bool(state.load_disconnected))
+    end = BankState(float(end_soc), int(end_stage), float(end_h), bool(running), float(run_h), bool(disconnected))
     run = None if generator is None else {"running": run_frac, "starts": starts, "charge_a": gen_a}
-    return TimeLoop(soc, mid, stage, unmet, cap, hold, lost, end, run)
+    return TimeLoop(soc, mid, stage, unmet, cap, hold, lost, shed, end, run)
 
 
 def loop_settings(system: System):
-    """The bank's and controllers' figures the time loop needs: (limits, stages, regulated) of :func:`integrate_soc`."""
+    """The bank's and controllers' figures the time loop needs: (limits, stages, regulated, disconnect) of
+    :func:`integrate_soc`."""
     b = system.bank
     # Several controllers: each one's own limit is in the grid already, and all of them regulate.
     c = system.controller or system.controllers[0].controller
@@ -457,7 +500,7 @@ def loop_settings(system: System):
               float(bank_model.max_charge_current_a(b)), chem.absorption_start_soc,
               float(bank_model.internal_resistance_ohm(b)), float(v_abs), float(v_float))
     stages = (chem.tail_current_c_rate * b.capacity_ah, chem.max_absorption_h, chem.rebulk_soc)
-    return limits, stages, c.regulates
+    return limits, stages, c.regulates, (chem.min_soc, chem.reconnect_soc)
 
 
 @kernel
@@ -826,10 +869,10 @@ def _solve_span(system: System, weather: pd.DataFrame, load_w: np.ndarray, step_
     if system.bank is not None:
         b = system.bank
         charge_grid, emf_grid = charge_grid_a(system, g, t)
-        limits, stages, regulated = loop_settings(system)
+        limits, stages, regulated, disconnect = loop_settings(system)
         gen = system.generator
         loop = integrate_soc(charge_grid, emf_grid, load_w, step_h, b.capacity_ah, b.chemistry.coulombic_efficiency,
-                             state, soc_grid(system), limits, regulated, stages, gen)
+                             state, soc_grid(system), limits, regulated, stages, gen, disconnect)
         del charge_grid, emf_grid
         state = loop.end
         steps = operating_points(system, g, t, soc=loop.mid_soc, charge_cap_a=loop.cap_a, hold_a=loop.hold_a,
@@ -846,6 +889,7 @@ def _solve_span(system: System, weather: pd.DataFrame, load_w: np.ndarray, step_
         steps["soc"] = loop.soc
         # The share of the stored energy (E I) that never reaches the state of charge.
         steps["coulombic_loss_w"] = steps["bank_emf_v"].to_numpy() * loop.coulombic_loss_a
+        steps["load_disconnected"] = loop.load_disconnected
     return steps, state
 
 
@@ -885,6 +929,9 @@ def _energies(steps: pd.DataFrame, step_h: float) -> dict:
         "load_kwh": kwh("load_w"),
         "unmet_load_kwh": kwh("unmet_load_w"),
         "coulombic_loss_kwh": kwh("coulombic_loss_w"),
+        # Hours, summed like the energies: a span's are its months' sum.
+        "load_disconnected_hours": float(np.nansum(steps["load_disconnected"].to_numpy()) * step_h)
+        if "load_disconnected" in steps else 0.0,
     }
     if "generator_w" in steps:
         out.update({

@@ -106,13 +106,14 @@ def test_failed_checks_and_alerts_stand_out(winter_run):
     page = render_page(system, result.summary, (), [failed, passed], [], -5.0, 20.0)
     attention = _section(page, "findings")
     assert re.search(r'<li class="alert"><strong>Check failed.</strong>Highest string open-circuit voltage', attention)
-    # The shortfall of the bank is a finding too (the demo's winter empties it).
-    assert '<li class="warn"><strong>Load not met.' in attention and "Bank emptied." in attention
+    # The shortfall of the bank is a finding too (the demo's winter runs it down to its load disconnect).
+    assert '<li class="warn"><strong>Load not met.' in attention and "Loads disconnected." in attention
+    assert result.summary["load_disconnected_hours"] > 0.0
     checks = _section(page, "checks")
     assert re.search(r'<tr class="fail">.*?badge fail">FAIL', checks, flags=re.S)
     assert checks.count('class="fail"') == 1
     # A clean design says so rather than leaving the box empty.
-    good = dict(result.summary, unmet_load_kwh=0.0, min_soc=0.4)
+    good = dict(result.summary, unmet_load_kwh=0.0, min_soc=0.4, load_disconnected_hours=0.0)
     assert "No problems found." in _section(render_page(system, good, (), [passed], [], -5.0, 20.0), "findings")
 
 

@@ -61,9 +61,12 @@ def test_state_of_charge_and_bank_voltage_stay_in_bounds(demo_run):
     charging = steps["charge_current_a"] > 0
     # The controller never drives the bank's terminals above its absorption voltage.
     assert (steps.loc[charging, "load_v"] <= v_abs + 1e-6).all()
-    # Load goes unmet only in a step that empties the bank: the next one starts at zero.
+    # Load goes unmet only while the low-voltage disconnect has cut it off, or in a step that empties the bank.
     unmet = (steps["unmet_load_w"] > 0).to_numpy()[:-1]
-    assert (steps["soc"].to_numpy()[1:][unmet] == 0.0).all()
+    cut = (steps["load_disconnected"] > 0).to_numpy()[:-1]
+    assert (cut | (steps["soc"].to_numpy()[1:] == 0.0))[unmet].all()
+    # The demo's bank stops at its chemistry's disconnect, well above empty.
+    assert steps["soc"].min() >= system.bank.chemistry.min_soc - 1e-9 > 0.0
 
 
 def test_coulomb_counting_in_the_time_loop():
@@ -163,7 +166,9 @@ def test_the_grid_interpolated_path_agrees_with_exact_coulomb_counting(demo_run)
     system, weather, result = demo_run
     steps = result.steps
     b = system.bank
-    net = steps["charge_current_a"].to_numpy() - steps["load_w"].to_numpy() / steps["bank_emf_v"].to_numpy()
+    # The load the bank served: all of it but what the low-voltage disconnect shed.
+    served = steps["load_w"].to_numpy() - steps["unmet_load_w"].to_numpy()
+    net = steps["charge_current_a"].to_numpy() - served / steps["bank_emf_v"].to_numpy()
     eta = b.chemistry.coulombic_efficiency
     soc, path = steps["soc"].iloc[0], []
     for k, i in enumerate(net):
@@ -599,3 +604,53 @@ def test_coulombic_loss_is_its_own_line_and_the_bank_balance_closes(demo_run):
     assert s["coulombic_loss_kwh"] == pytest.approx(expected_kwh, rel=0.01)
     assert s["coulombic_loss_kwh"] > 0.05 * s["energy_stored_kwh"]
     assert sum(m["coulombic_loss_kwh"] for m in s["monthly"]) == pytest.approx(s["coulombic_loss_kwh"], rel=1e-12)
+
+
+# --- the low-voltage disconnect ---------------------------------------------------------------
+
+
+@pytest.mark.parametrize("step_h", [1.0, 0.25, 1 / 60])
+def test_low_voltage_disconnect_follows_its_hysteresis_law(step_h):
+    # Law worked out by hand: a 100 Ah bank at a constant 50 V EMF, a steady
+    # 500 W load (10 A), coulombic efficiency 0.9, loads cut off at 0.3 and
+    # returned at 0.5, from 0.5. No charge for 4 h: the state of charge falls
+    # 0.1 per hour, reaches 0.3 at 2 h and the loads are cut off; then 30 A of
+    # charge with the loads off raises it 0.27 per hour, so it is back at 0.5
+    # at 4 + 0.2 / 0.27 = 4.7407 h, when the loads return (net 20 A: 0.18 per
+    # hour) until 6 h. Cut off for 2.7407 h; 500 W x 2.7407 h shed, counted as unmet.
+    from pvsource.season import BankState
+
+    n = int(round(6.0 / step_h))
+    t = np.arange(n) * step_h
+    charge = np.where(t >= 4.0 - 1e-9, 30.0, 0.0)
+    loop = integrate_soc(np.vstack([charge, charge]), np.full((2, n), 50.0), np.full(n, 500.0), step_h, 100.0, 0.9,
+                         0.5, np.array([0.0, 1.0]), disconnect=(0.3, 0.5))
+    off_h = 2.0 + 0.2 / 0.27
+    assert loop.load_disconnected.sum() * step_h == pytest.approx(off_h, rel=1e-9)
+    assert loop.unmet_w.sum() * step_h == pytest.approx(500.0 * off_h, rel=1e-9)
+    assert loop.soc.min() >= 0.3 - 1e-12
+    assert loop.end.soc == pytest.approx(0.5 + 0.18 * (6.0 - 4.0 - 0.2 / 0.27), rel=1e-9)
+    assert not loop.end.load_disconnected
+    # Cut mid-way, the state carries: the second half starts with the loads off.
+    half = n // 2  # 3 h: disconnected by then
+    first = integrate_soc(np.vstack([charge[:half]] * 2), np.full((2, half), 50.0), np.full(half, 500.0), step_h,
+                          100.0, 0.9, 0.5, np.array([0.0, 1.0]), disconnect=(0.3, 0.5))
+    assert first.end.load_disconnected and isinstance(first.end, BankState)
+    rest = integrate_soc(np.vstack([charge[half:]] * 2), np.full((2, n - half), 50.0), np.full(n - half, 500.0),
+                         step_h, 100.0, 0.9, first.end, np.array([0.0, 1.0]), disconnect=(0.3, 0.5))
+    assert np.concatenate([first.soc, rest.soc]) == pytest.approx(loop.soc, abs=1e-12)
+
+
+def test_the_bank_table_takes_its_disconnect(tmp_path):
+    from pvsource.config import load_system
+    from pvsource.errors import InputError
+
+    path = demo_system_file(tmp_path)
+    text = path.read_text()
+    path.write_text(text + "min_soc = 0.35\nreconnect_soc = 0.55\n")
+    bank = load_system(path).bank
+    assert (bank.chemistry.min_soc, bank.chemistry.reconnect_soc) == (0.35, 0.55)
+    assert bank.chemistry.source("min_soc") == "override"
+    path.write_text(text + "min_soc = 0.6\nreconnect_soc = 0.5\n")
+    with pytest.raises(InputError, match="reconnect_soc above min_soc"):
+        load_system(path)
