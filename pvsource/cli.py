@@ -763,7 +763,9 @@ def _fingerprint(inputs, options: dict) -> dict:
         kinds[r.kind] = kinds.get(r.kind, 0) + 1
         label = r.kind if kinds[r.kind] == 1 else f"{r.kind} {kinds[r.kind]}"
         found[f"the {label} file's content"] = r.sha256
-    found.update({f"--{k.replace('_', '-')}": v for k, v in options.items() if k not in NOT_RESULT_OPTIONS})
+    # An option given as a choice (an Enum) is kept as its word, so a refusal reads 'perez', not the class.
+    found.update({f"--{k.replace('_', '-')}": getattr(v, "value", v) for k, v in options.items()
+                  if k not in NOT_RESULT_OPTIONS})
     return found
 
 

@@ -253,6 +253,11 @@ def _size(n: int) -> str:
     return f"{n / MB:g} MB" if n >= MB else f"{n} bytes"
 
 
+def _long_key(where: str, line: int) -> InputError:
+    return InputError(where, f"line {line}", f"has a key longer than {MAX_KEY_PARTS} dotted parts or "
+                                             f"{MAX_KEY_CHARS} characters")
+
+
 def check_toml_shape(text: str, where: str) -> None:
     """Refuse TOML whose shape would make the parser slow or recurse deeply.
 
@@ -279,9 +284,15 @@ def check_toml_shape(text: str, where: str) -> None:
                 if text[j] == "\n" and not triple:
                     break
                 j += 1
-            # A quoted key part is one part, whatever its length.
+            # A quoted key part is one part; it is a key (not a value) when "=" or "." follows it.
+            quoted = j - i - len(end_mark)
             line += text.count("\n", i, j)
             i = j + len(end_mark)
+            k = i
+            while k < n and text[k] in " \t":
+                k += 1
+            if quoted > MAX_KEY_CHARS and k < n and text[k] in "=.":
+                raise _long_key(where, line)
         elif c == "#":
             j = text.find("\n", i)
             i = n if j < 0 else j
@@ -305,8 +316,7 @@ def check_toml_shape(text: str, where: str) -> None:
                     line += 1
                 parts = run = 0
             if parts >= MAX_KEY_PARTS or run > MAX_KEY_CHARS:
-                raise InputError(where, f"line {line}", f"has a key longer than {MAX_KEY_PARTS} dotted parts or "
-                                                        f"{MAX_KEY_CHARS} characters")
+                raise _long_key(where, line)
             i += 1
 
 

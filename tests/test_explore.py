@@ -268,6 +268,9 @@ def test_explore_resumes_only_what_the_same_inputs_made(capsys, tmp_path):
     cheap = json.loads(text)["rows"]
     code, _, err = explore("--resume", price="1000")
     assert code == 2 and "--price-per-kg changed (12.0 then, 1000.0 now)" in err and err.count("\n") == 1
+    # A choice option is named by its word, as typed (the refusal once showed "<Transposition.isotropic: ...>").
+    code, _, err = explore("--resume", "--transposition", "isotropic")
+    assert code == 2 and "--transposition changed ('perez' then, 'isotropic' now)" in err
     weather.write_text(weather.read_text() + "\n")  # the same numbers, but not the same file
     code, _, err = explore("--resume")
     assert code == 2 and "the weather file's content changed" in err

@@ -80,6 +80,9 @@ def test_size_limits_name_the_option_that_raises_them(tmp_path):
     ("a = " + "[" * 500 + "]" * 500 + "\n", "deeper than"),
     ("x = {" + "a." * 40 + "b = 1}\n", "dotted parts"),
     ("k" * 2000 + " = 1\n", "characters"),
+    # A quoted key is held to the same length (one of 200 KB was echoed whole in the error line).
+    ('"' + "k" * 200_000 + '" = 1\n', "characters"),
+    ("a.'" + "k" * 2000 + "'.b = 1\n", "characters"),
 ])
 def test_hostile_toml_is_refused_before_parsing(text, words):
     with pytest.raises(InputError, match=words):
@@ -96,6 +99,9 @@ def test_real_files_pass_the_shape_check():
         tomllib.loads(text)
         check_toml_shape(text, str(path))
     check_toml_shape('s = """multi\n[[[[ "quoted" \'\'\' a.b.c.d\n"""\nv = 1.5  # a.b.c [[[\n', "ok.toml")
+    # A long string value is not a key: only "=" or "." after a quoted part makes it one.
+    long_value = "x" * 5000
+    check_toml_shape(f'note = "{long_value}"\nlist = ["{long_value}", \'{long_value}\']\n', "ok.toml")
 
 
 CHILD = r"""
