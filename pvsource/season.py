@@ -7,7 +7,9 @@ Pipeline, every step an explicit call on arrays:
 2. with a bank, the charge current at every step for a grid of states of
    charge (vectorised over the steps, one solve per grid value);
 3. the state of charge, integrated step by step with the load: the one loop
-   over time, on plain floats, interpolating the grid;
+   over time, on plain floats, interpolating the grid; it carries the
+   controller's stage (bulk, absorption, float), the low-voltage disconnect
+   and a generator's run in a :class:`BankState`;
 4. the exact operating points along that state-of-charge path (vectorised);
 5. summaries per month and for the whole span.
 
