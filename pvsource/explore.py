@@ -169,33 +169,13 @@ def conductor_mass_kg(system: System) -> float:
 #: The parts of ``lifetime_cost``, each its own result column.
 COST_COLUMNS = ("conductor_cost", "wiring_loss_cost", "bank_cost", "fuel_cost", "unmet_load_cost")
 
-#: State of charge at which loads are taken to be disconnected when the bank does not say
-#: (``[bank] min_soc``), by chemistry (common practice: lead-acid cycled to about 50 % depth
-#: for a useful cycle life; lithium banks to about 80 % depth, their usual rated depth).
-DEFAULT_DISCONNECT_SOC = {"lfp": 0.2, "lead-acid-flooded": 0.5, "lead-acid-sealed": 0.5, "nmc": 0.2}
-
-
-def disconnect_soc(bank) -> float:
-    """The state of charge the loads are disconnected at [fraction].
-
-    The bank's own ``min_soc`` where it has one (``[bank] min_soc``, or its
-    chemistry's default), else :data:`DEFAULT_DISCONNECT_SOC`; 0 (full depth)
-    for a chemistry with neither.
-    """
-    for owner in (bank, bank.chemistry):
-        value = getattr(owner, "min_soc", None)
-        if value is not None:
-            return float(value)
-    return DEFAULT_DISCONNECT_SOC.get(bank.chemistry.key, 0.0)
-
-
 def bank_figures(system: System, summary: dict) -> dict:
     """The bank's nominal and usable energy and the days of autonomy they give the study's load.
 
     ``E_nom = C x V_nom`` (capacity [Ah] x nominal voltage [V],
     :func:`pvsource.bank.nominal_energy_kwh`); ``E_usable = E_nom x (1 - SOC_off)``,
-    with ``SOC_off`` the state of charge the loads are disconnected at
-    (:func:`disconnect_soc`); days of autonomy = ``E_usable / (E_load / D)``, the
+    with ``SOC_off`` the state of charge the season disconnects the loads at
+    (``[bank] min_soc``, by default its chemistry's); days of autonomy = ``E_usable / (E_load / D)``, the
     usable energy over the mean daily load, ``E_load`` the study's load [kWh]
     over its ``D`` days. No load: NaN (autonomy without a load is unbounded).
     No bank: all three are 0.
@@ -209,7 +189,7 @@ def bank_figures(system: System, summary: dict) -> dict:
         nominal = usable = 0.0
     else:
         nominal = bank_model.nominal_energy_kwh(system.bank)
-        usable = nominal * (1.0 - disconnect_soc(system.bank))
+        usable = nominal * (1.0 - system.bank.chemistry.min_soc)
     daily_load_kwh = float(summary.get("load_kwh") or 0.0) / (span_years(summary) * 365.0)
     autonomy = usable / daily_load_kwh if daily_load_kwh > 0 else float("nan")
     return {"bank_nominal_kwh": nominal, "bank_usable_kwh": usable, "autonomy_days": autonomy}

@@ -377,26 +377,32 @@ def test_each_cost_part_is_the_summary_figure_times_its_price(short_year, monkey
     assert row["generator_hours_per_year"] == pytest.approx(30.0 * 8760 / 144)
     assert row["generator_starts_per_year"] == pytest.approx(4 * 8760 / 144)
     # Autonomy: usable energy down to the disconnect state of charge over the mean daily load (6 days).
-    # That state of charge is the bank's setting; an LFP bank's is 0.1-0.3 (common practice).
-    soc_off = ex.disconnect_soc(system.bank)
-    assert 0.1 <= soc_off <= 0.3
-    assert row["bank_usable_kwh"] == pytest.approx(nominal_kwh * (1 - soc_off))
-    assert row["autonomy_days"] == pytest.approx(nominal_kwh * (1 - soc_off) / (summary["load_kwh"] / 6.0))
+    # The demo's LFP bank disconnects at its chemistry's 20 % (common practice: 80 % depth).
+    assert row["bank_usable_kwh"] == pytest.approx(nominal_kwh * 0.8)
+    assert row["autonomy_days"] == pytest.approx(nominal_kwh * 0.8 / (summary["load_kwh"] / 6.0))
 
 
-def test_usable_energy_ends_where_the_bank_disconnects_its_loads(short_year):
-    # A bank that says where its loads are disconnected (``[bank] min_soc``) is taken at its word;
-    # one that does not gets its chemistry's depth: half of a lead-acid bank (common practice:
-    # 50 % depth of discharge for cycle life), 80 % of a lithium one (common practice).
-    from types import SimpleNamespace
+def test_usable_energy_ends_where_the_bank_disconnects_its_loads(tmp_path):
+    # By hand: the demo's 200 Ah of 8 LFP cells at 3.2 V nominal (common practice) hold 5.12 kWh.
+    # Two days drawing 8 kWh is 4 kWh a day. The loads go at the [bank] min_soc the file gives (0.5:
+    # 2.56 kWh usable, 0.64 days), else at the chemistry's 20 % (4.096 kWh, 1.024 days).
+    from dataclasses import replace
 
-    system = short_year[0]
-    lfp, lead = system.bank.chemistry, SimpleNamespace(key="lead-acid-flooded")
-    assert ex.disconnect_soc(SimpleNamespace(min_soc=0.35, chemistry=lfp)) == 0.35
-    if getattr(system.bank, "min_soc", None) is None:
-        assert ex.disconnect_soc(system.bank) == 0.2
-    assert ex.disconnect_soc(SimpleNamespace(chemistry=lead)) == 0.5
-    assert ex.disconnect_soc(SimpleNamespace(chemistry=SimpleNamespace(key="unknown"))) == 0.0
+    from pvsource.config import load_system
+
+    two_days = {"steps": 48, "step_h": 1.0, "load_kwh": 8.0}
+    path = demo_system_file(tmp_path)
+    assert ex.bank_figures(load_system(path), two_days) == pytest.approx(
+        {"bank_nominal_kwh": 5.12, "bank_usable_kwh": 4.096, "autonomy_days": 1.024})
+    path.write_text(path.read_text().replace("capacity_ah = 200\n", "capacity_ah = 200\nmin_soc = 0.5\n"
+                                                                    "reconnect_soc = 0.6\n"))
+    half = load_system(path)
+    assert ex.bank_figures(half, two_days) == pytest.approx(
+        {"bank_nominal_kwh": 5.12, "bank_usable_kwh": 2.56, "autonomy_days": 0.64})
+    # No load: autonomy has no bound (NaN, "-" in the table); no bank: nothing stored.
+    assert np.isnan(ex.bank_figures(half, {**two_days, "load_kwh": 0.0})["autonomy_days"])
+    assert ex.bank_figures(replace(half, bank=None), two_days) == {"bank_nominal_kwh": 0.0, "bank_usable_kwh": 0.0,
+                                                                    "autonomy_days": 0.0}
 
 
 def test_a_summary_without_generator_figures_costs_no_fuel(short_year):
