@@ -336,3 +336,27 @@ def test_a_generator_brings_its_caution(tmp_path):
     assert cautions.GENERATOR not in cautions.for_command("check", load_system(write(tmp_path, BANK)))
     summary = {"start": "a", "end": "b", "steps": 1, "step_h": 1.0, "monthly": []}
     assert "carbon monoxide" in render_season(system, summary, tmp_path)
+
+
+def test_a_generator_beside_several_controllers(tmp_path):
+    # Two trackers into one bank (the shipped east-west example) and a 200 A charger, more than the
+    # 280 Ah LFP bank's 0.5 C (140 A, the preset's rate, common practice): the array's and the charger's
+    # current together stay within it, and the bank never falls below the start.
+    from pvsource.demo import synthetic_weather
+    from pvsource.season import run_season
+
+    from conftest import DATA
+
+    text = (DATA / "example-east-west.toml").read_text().replace('file = "modules/', f'file = "{DATA}/modules/')
+    text += "\n[generator]\ncharger_current_a = 200\nstart_soc = 0.4\nstop_soc = 0.9\nfuel_l_per_h = 1.5\n"
+    system = load_system(write(tmp_path, text))
+    assert system.several_controllers
+    weather = synthetic_weather(system)
+    weather = weather[(weather.index.month == 12) & (weather.index.day <= 14)]
+    weather = weather.assign(load_w=2.0 * weather["load_w"])
+    steps = run_season(system, weather).steps
+    on = steps["generator_running"].to_numpy() > 0
+    assert on.sum() > 5 and steps["soc"].min() >= 0.4 - 1e-9
+    total = steps["charge_current_a"].to_numpy()[on] + steps["generator_charge_a"].to_numpy()[on] / steps[
+        "generator_running"].to_numpy()[on]
+    assert 130.0 <= total.max() <= 140.0 * 1.01
