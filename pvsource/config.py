@@ -609,6 +609,10 @@ def parse_system(data: dict, where: str, base_dir: Path) -> System:
     generator = parse_generator(Table(where, "[generator]", data["generator"])) if "generator" in data else None
     if generator is not None and bank is None:
         raise InputError(where, "[generator]", "a generator charges a [bank]; add one, or remove the generator")
+    if generator is not None and generator.start_soc <= bank.chemistry.min_soc:
+        raise InputError(where, "[generator].start_soc",
+                         f"must be above the bank's min_soc ({bank.chemistry.min_soc:g}), got {generator.start_soc:g}: "
+                         "the loads are disconnected there, so the state of charge would never fall to the start")
     return System(module=module, groups=tuple(groups), cables=tuple(cables), load=load, name=name, source=where,
                   controller=one, bank=bank, site=site, controllers=assigned, generator=generator)
 

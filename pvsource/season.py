@@ -297,8 +297,9 @@ def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, a
             soc, running, run_h, run_frac[k], starts[k], gen_a[k], lost_ah = generator_step(
                 soc, running, run_h, i_charge, load_a, min(g_amps, gen_power_w[k] / e), i_bank, step_h,
                 step_h / per_ah, coulombic, g_start, g_stop, g_min_h)
-            unmet[k] = lost_ah / step_h * e + (loads[k] if disconnected else 0.0)
-            shed[k] = 1.0 if disconnected else 0.0
+            # Disconnected from the bank, the loads are still served while the generator runs.
+            shed[k] = 1.0 - run_frac[k] if disconnected else 0.0
+            unmet[k] = lost_ah / step_h * e + loads[k] * shed[k]
             # The charge that went in, less the load the bank served, less what the state of charge gained.
             lost[k] = max(i_charge + gen_a[k] - (load_a * (1.0 - run_frac[k]) - lost_ah / step_h)
                           - (soc - before) / per_ah, 0.0)

@@ -53,6 +53,8 @@ def test_a_generator_section_loads(tmp_path):
      "not both"),
     (("min_run_h = 2", "charger_efficiency = 85"), "[generator].charger_efficiency", "at most 1"),
     (("min_run_h = 2", "min_run = 2"), "[generator].min_run", "unknown key"),
+    # The LFP preset disconnects the loads at 20 % (common practice): a start at 15 % would never come.
+    (("start_soc = 0.3", "start_soc = 0.15"), "[generator].start_soc", "min_soc (0.2)"),
 ])
 def test_bad_generator_values_name_the_field(tmp_path, edit, field, words):
     assert edit[0] in GENERATOR
@@ -360,3 +362,17 @@ def test_a_generator_beside_several_controllers(tmp_path):
     total = steps["charge_current_a"].to_numpy()[on] + steps["generator_charge_a"].to_numpy()[on] / steps[
         "generator_running"].to_numpy()[on]
     assert 130.0 <= total.max() <= 140.0 * 1.01
+
+
+def test_a_generator_serves_the_loads_the_disconnect_cut_off(winter_with_generator):
+    # A bank starting at 10 %, below the LFP preset's 20 % disconnect: the loads are cut off from the bank
+    # at once, and the generator (its start is 25 %) starts at once and carries them, so none goes unmet.
+    from pvsource.season import run_season
+
+    system, weather, _ = winter_with_generator
+    result = run_season(system, weather.iloc[:24 * 7], soc0=0.1)
+    s, steps = result.summary, result.steps
+    assert steps["generator_starts"].iloc[0] == 1 and steps["generator_running"].iloc[0] == 1.0
+    assert s["unmet_load_kwh"] == 0.0 and s["load_disconnected_hours"] == 0.0
+    # What the generator carried in the first step is that step's whole load.
+    assert steps["generator_load_w"].iloc[0] == pytest.approx(steps["load_w"].iloc[0])
