@@ -467,20 +467,25 @@ def protection_checks(system: System, defaults: amp.Installation = amp.Installat
         ocv = float(bank_model.open_circuit_v(system.bank, 1.0))
         r_int = float(bank_model.internal_resistance_ohm(system.bank, 1.0, max(system.bank.temp_c, 25.0)))
         bank_runs = [r for r in system.cables if r.role in ("bank", "interconnect")]
-        # With several controllers each has its own bank run: the fault
-        # current is highest through the shortest of them.
+        # The fuse sits at the bank and must clear a fault anywhere after it,
+        # its own load-side terminal included, where no cable limits the
+        # current: only the bank's own resistance does (a bolted fault at its
+        # terminals). At the far end of the shortest bank-side path the cable
+        # lowers it; that figure is given for context only.
         owners = [c.name for c in system.controllers] if system.several_controllers else [None]
         r_cable = sum(_loop_ohm_at_20c(r) for r in bank_runs if r.role == "interconnect") + min(
             sum(_loop_ohm_at_20c(r) for r in bank_runs if r.role == "bank" and r.controller == owner)
             for owner in owners)
-        value = ocv / (r_int + r_cable)
+        value = ocv / r_int
         ratings = [r.fuse_interrupting_a for r in bank_runs if r.fuse_interrupting_a is not None]
         limit = min(ratings) if ratings else None
         out.append(Check(
             "bank_short_circuit", value, limit, "A", _compare(value, limit, "max"),
-            "NEC 110.9 (interrupting rating at least the available fault current); OCV / (R_internal + R_cable)",
-            "max", f"full-charge OCV {ocv:.2f} V over {r_int * 1000:.2f} mOhm inside the bank and "
-                   f"{r_cable * 1000:.2f} mOhm of bank-side cable at 20 degC, against "
+            "NEC 110.9 (interrupting rating at least the available fault current); a fault at the fuse's own "
+            "terminals: OCV / R_internal",
+            "max", f"full-charge OCV {ocv:.2f} V over {r_int * 1000:.2f} mOhm inside the bank (a fault right after "
+                   f"the fuse; at the controller end, through {r_cable * 1000:.2f} mOhm of bank-side cable at 20 degC, "
+                   f"{ocv / (r_int + r_cable):.0f} A), against "
                    + (f"the smallest fuse_interrupting_a, {limit:g} A" if limit is not None else
                       "nothing: no fuse_interrupting_a on a bank or interconnect run"),
             "fault current: the bank's fuse or breaker must interrupt the bank's short-circuit current"))
