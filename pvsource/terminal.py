@@ -379,6 +379,10 @@ def render_checks(system: System, rec: dict) -> str:
                "unverified": "NOT VERIFIED: no check fails, but a conductor's ampacity is unknown, so the design "
                              "is not shown safe (exit code 1)"}
     lines.append(f"\n{verdict[rec['verdict']]}")
+    unchecked = [c["name"] for c in rec["checks"] if c["verdict"] == "none"]
+    if unchecked and rec["verdict"] != "none":
+        # A pass covers only what had a limit: say what was not checked.
+        lines.append(f"{len(unchecked)} not checked, no limit given in the file: {', '.join(unchecked)}")
     lines.append(render_caution_list(rec["cautions"]))
     return "\n".join(lines)
 

@@ -469,6 +469,11 @@ def test_check_exit_codes(capsys, tmp_path):
     code, out, err = run(capsys, "check", _cabin(tmp_path), "--min-temp", "-20", "--max-temp", "38",
                          "--install", "buried")
     assert code == 2 and out == "" and "--install" in err and err.count("\n") == 1
+    # A pass covers only the checks that had a limit: the text names those that had none.
+    code, out, _ = run(capsys, "check", _cabin(tmp_path), "--min-temp", "-20", "--max-temp", "38")
+    unchecked = [c["name"] for c in rec["checks"] if c["verdict"] == "none"]
+    assert code == 0 and unchecked and "all checks pass" in out
+    assert f"{len(unchecked)} not checked, no limit given in the file: {', '.join(unchecked)}" in out
 
 
 def test_check_names_every_new_check(capsys, tmp_path):
