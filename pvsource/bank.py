@@ -196,7 +196,10 @@ def _checked(key: str, name: str, values: dict, sources: dict, where: str, chang
         raise InputError(where, label(blame), "float voltage at most the absorption voltage")
     if out["reconnect_soc"] <= out["min_soc"]:
         blame = "min_soc" if "min_soc" in changed and "reconnect_soc" not in changed else "reconnect_soc"
-        raise InputError(where, label(blame), "reconnect_soc above min_soc (the disconnect needs a gap to hold)")
+        def given(n):
+            return f"{n} {out[n]:g}" + ("" if n in changed else f" (the {key} default)")
+        raise InputError(where, label(blame), "reconnect_soc above min_soc (the disconnect needs a gap to hold); "
+                                              f"got {given('min_soc')} and {given('reconnect_soc')}")
     return Chemistry(key, name, **out, sources=tuple((n, sources[n]) for n in PRESET_NAMES))
 
 

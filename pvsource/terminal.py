@@ -431,6 +431,10 @@ def alert_hour_lines(summary: dict) -> list[str]:
     return [f"ALERT: {a.label}: {hours[a.name]:,.1f} h ({a.basis})" for a in ALERTS if (hours.get(a.name) or 0) > 0]
 
 
+#: Season lines that only a study with a bank has.
+BANK_ONLY_ROWS = ("coulombic_loss_kwh", "load_disconnected_hours")
+
+
 def render_season(system: System, summary: dict, folder, notes=()) -> str:
     """The readable summary of ``pvsource season`` and ``pvsource demo``."""
     lines = [f"pvsource season study: {system.name or system.source}",
@@ -443,8 +447,12 @@ def render_season(system: System, summary: dict, folder, notes=()) -> str:
             ("controller_loss_kwh", "lost in the controller", "kWh"),
             ("curtailed_kwh", "curtailed by the controller", "kWh"),
             ("energy_delivered_kwh", "into the bank or load", "kWh"), ("energy_stored_kwh", "stored", "kWh"),
-            ("load_kwh", "load", "kWh"), ("unmet_load_kwh", "load not met", "kWh"))
+            ("coulombic_loss_kwh", "  of it lost to coulombic efficiency", "kWh"),
+            ("load_kwh", "load", "kWh"), ("unmet_load_kwh", "load not met", "kWh"),
+            ("load_disconnected_hours", "loads disconnected (low-voltage disconnect)", "h"))
     for key, label, unit in rows:
+        if key in BANK_ONLY_ROWS and key not in summary:
+            continue
         lines.append(f"  {label:<42} {_num(summary.get(key), 1):>10} {unit}")
     if "min_soc" in summary:
         lines.append(_rule("Bank"))

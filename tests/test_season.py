@@ -604,6 +604,16 @@ def test_coulombic_loss_is_its_own_line_and_the_bank_balance_closes(demo_run):
     assert s["coulombic_loss_kwh"] == pytest.approx(expected_kwh, rel=0.01)
     assert s["coulombic_loss_kwh"] > 0.05 * s["energy_stored_kwh"]
     assert sum(m["coulombic_loss_kwh"] for m in s["monthly"]) == pytest.approx(s["coulombic_loss_kwh"], rel=1e-12)
+    # The owner sees that line, not only the tables: the terminal and the report's energy section print it,
+    # and the terminal also says how long the loads were off.
+    from pvsource.report_page import energy_section
+    from pvsource.terminal import render_season
+
+    text = render_season(flooded, s, "out")
+    shown = f"{s['coulombic_loss_kwh']:,.1f}"
+    assert any("coulombic" in line and shown in line for line in text.splitlines()), text
+    assert any("loads disconnected" in line for line in text.splitlines())
+    assert "coulombic" in energy_section(flooded, s) and shown in energy_section(flooded, s)
 
 
 # --- the low-voltage disconnect ---------------------------------------------------------------
@@ -652,5 +662,10 @@ def test_the_bank_table_takes_its_disconnect(tmp_path):
     assert (bank.chemistry.min_soc, bank.chemistry.reconnect_soc) == (0.35, 0.55)
     assert bank.chemistry.source("min_soc") == "override"
     path.write_text(text + "min_soc = 0.6\nreconnect_soc = 0.5\n")
-    with pytest.raises(InputError, match="reconnect_soc above min_soc"):
+    with pytest.raises(InputError, match="reconnect_soc above min_soc.*got min_soc 0.6 and reconnect_soc 0.5$"):
+        load_system(path)
+    # Only min_soc given, above the chemistry's reconnect default: the message names the default it clashes with
+    # (the demo bank is LFP, whose reconnect_soc preset is 0.3, README "Low-voltage disconnect").
+    path.write_text(text + "min_soc = 0.35\n")
+    with pytest.raises(InputError, match=r"got min_soc 0.35 and reconnect_soc 0.3 \(the lfp default\)"):
         load_system(path)
