@@ -283,8 +283,10 @@ def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, a
         # apply here, exact in the state of charge.
         i_charge, _, limit = regulate(i_free, SOURCE, soc, e, r_bank, i_ctrl, i_rate, v_abs, v_float, start, room,
                                       np.inf, stage, regulated)
-        if has_gen > 0.0:
-            # The generator's steps: its start and stop placed within the step
+        if has_gen > 0.0 and (running or soc - 1.1 * load_a * per_ah <= g_start):
+            # The generator's steps (it runs, or the load alone could bring
+            # the bank to its start within the step; 10 % margin for the
+            # EMF's fall): its start and stop placed within the step
             # (generator_step), the array's current that of the step's start.
             mid_path[k] = soc
             if limit == BANK_FULL or limit == NONE_FULL:

@@ -376,3 +376,29 @@ def test_a_generator_serves_the_loads_the_disconnect_cut_off(winter_with_generat
     assert s["unmet_load_kwh"] == 0.0 and s["load_disconnected_hours"] == 0.0
     # What the generator carried in the first step is that step's whole load.
     assert steps["generator_load_w"].iloc[0] == pytest.approx(steps["load_w"].iloc[0])
+
+
+def test_a_generator_that_never_runs_changes_nothing():
+    # Law: a generator that never starts cannot change the bank's path. May and June of the demo keep
+    # its bank well above a start at 0.21, so stages, stored energy and state of charge must be those of
+    # the same system without a generator, at every step (the time loop once solved every step of a system
+    # with a generator at the step's starting state of charge, which put 'bank full' hours into the year
+    # and moved stored energy with the time step).
+    from dataclasses import replace
+
+    from pvsource.demo import demo_system, synthetic_weather
+    from pvsource.season import run_season
+
+    system = demo_system()
+    weather = synthetic_weather(system)
+    weather = weather[(weather.index.month >= 5) & (weather.index.month <= 6)]
+    plain = run_season(system, weather)
+    assert plain.summary["min_soc"] > 0.3  # the generator would not start: the comparison has weight
+    gen = Generator(start_soc=0.21, stop_soc=0.8, charger_current_a=40.0, fuel_l_per_h=1.0)
+    with_gen = run_season(replace(system, generator=gen), weather)
+    assert with_gen.summary["generator_hours"] == 0.0
+    for key in ("energy_stored_kwh", "coulombic_loss_kwh", "curtailed_kwh", "unmet_load_kwh"):
+        assert with_gen.summary[key] == pytest.approx(plain.summary[key], rel=1e-9, abs=1e-9), key
+    assert with_gen.summary["hours_by_stage"] == plain.summary["hours_by_stage"]
+    assert with_gen.summary["hours_by_limit"] == plain.summary["hours_by_limit"]
+    np.testing.assert_allclose(with_gen.steps["soc"].to_numpy(), plain.steps["soc"].to_numpy(), atol=1e-12)
