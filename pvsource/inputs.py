@@ -81,8 +81,7 @@ def read_bounded(path, limit_bytes: int, kind: str, option: str | None = None) -
         When the file cannot be read, is a device, or is larger than the limit.
     """
     where = str(path)
-    too_big = InputError(where, None, f"is larger than the {_size(limit_bytes)} limit for a {kind} file"
-                         + (f"; raise it with {option}" if option else ""))
+    too_big = _too_big(where, limit_bytes, kind, option)
     try:
         with open(path, "rb") as f:
             info = os.fstat(f.fileno())
@@ -120,8 +119,8 @@ class OnDisk:
     path : Path
     head : bytes
         Its first 64 KiB, for sniffing the format.
-    encodings : tuple of str
-        Those of the encodings asked for that its whole content decodes in.
+    encoding : str or None
+        The first of the encodings asked for that its whole content decodes in; None if none does.
     nonblank : bool
         Whether it holds anything but whitespace.
     stamp : tuple
@@ -130,7 +129,7 @@ class OnDisk:
 
     path: Path
     head: bytes
-    encodings: tuple
+    encoding: str | None
     nonblank: bool
     stamp: tuple
 
@@ -152,8 +151,8 @@ HEAD_BYTES = 65536
 def scan_bounded(path, limit_bytes: int, kind: str, option: str | None = None, encodings=()) -> bytes | OnDisk:
     """Like :func:`read_bounded`, but a regular file is scanned in blocks and left on disk.
 
-    Its hash, size and the encodings it decodes in are found a block at a
-    time, so a large file is never held whole in memory; the caller parses it
+    Its hash, size and the first encoding it decodes in are found a block at
+    a time (a later encoding costs a second pass only when an earlier fails), so a large file is never held whole in memory; the caller parses it
     from its path and checks :meth:`OnDisk.unchanged` afterwards. Streams,
     FIFOs and anything else are read once into memory by :func:`read_bounded`.
 
@@ -171,27 +170,25 @@ def scan_bounded(path, limit_bytes: int, kind: str, option: str | None = None, e
         info = None
     if info is None or not stat.S_ISREG(info.st_mode):
         return read_bounded(path, limit_bytes, kind, option)
-    too_big = InputError(where, None, f"is larger than the {_size(limit_bytes)} limit for a {kind} file"
-                         + (f"; raise it with {option}" if option else ""))
+    too_big = _too_big(where, limit_bytes, kind, option)
     if info.st_size > limit_bytes:
         raise too_big
-    digest, size, head, nonblank, decoders = hashlib.sha256(), 0, b"", False, None
+    digest, size, head, nonblank, names, decoder = hashlib.sha256(), 0, b"", False, None, None
     try:
         with open(path, "rb") as f:
             before = _stamp(os.fstat(f.fileno()))
             while True:
                 block = f.read(MB)
-                if decoders is None:
+                if names is None:
                     head = block[:HEAD_BYTES]
                     names = encodings(head) if callable(encodings) else tuple(encodings)
-                    decoders = {n: codecs.getincrementaldecoder(n)() for n in names}
-                final = not block
-                for name in list(decoders):
+                    decoder = codecs.getincrementaldecoder(names[0])() if names else None
+                if decoder is not None:
                     try:
-                        decoders[name].decode(block, final=final)
+                        decoder.decode(block, final=not block)
                     except UnicodeDecodeError:
-                        del decoders[name]
-                if final:
+                        decoder = None
+                if not block:
                     break
                 digest.update(block)
                 size += len(block)
@@ -199,6 +196,8 @@ def scan_bounded(path, limit_bytes: int, kind: str, option: str | None = None, e
                 if size > limit_bytes:
                     raise too_big
             after = _stamp(os.fstat(f.fileno()))
+        encoding = names[0] if decoder is not None else next(
+            (n for n in names[1:] if decodes(_file_blocks(path), n)), None)
     except IsADirectoryError:
         raise InputError(where, None, f"is a folder, not a {kind} file") from None
     except OSError as exc:
@@ -207,7 +206,29 @@ def scan_bounded(path, limit_bytes: int, kind: str, option: str | None = None, e
         raise InputError(where, None, "changed while it was read; run again once it is complete")
     for seen in _RECORDERS:
         seen.append(Read(where, kind, digest.hexdigest(), size))
-    return OnDisk(Path(path), head, tuple(decoders), nonblank, after)
+    return OnDisk(Path(path), head, encoding, nonblank, after)
+
+
+def _too_big(where: str, limit_bytes: int, kind: str, option: str | None) -> InputError:
+    return InputError(where, None, f"is larger than the {_size(limit_bytes)} limit for a {kind} file"
+                      + (f"; raise it with {option}" if option else ""))
+
+
+def decodes(blocks, encoding: str) -> bool:
+    """Whether the bytes of ``blocks``, in order, are text in ``encoding``; each decoded block is dropped."""
+    decoder = codecs.getincrementaldecoder(encoding)()
+    try:
+        for block in blocks:
+            decoder.decode(block)
+        decoder.decode(b"", final=True)
+    except UnicodeDecodeError:
+        return False
+    return True
+
+
+def _file_blocks(path):
+    with open(path, "rb") as f:
+        yield from iter(lambda: f.read(MB), b"")
 
 
 def _read_stream(f, limit_bytes: int) -> bytes | None:

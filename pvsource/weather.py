@@ -28,7 +28,7 @@ import pandas as pd
 from pvlib import iotools
 
 from pvsource.errors import InputError
-from pvsource.inputs import MAX_WEATHER_MB, MB, OnDisk, read_bounded, release_memory, scan_bounded
+from pvsource.inputs import HEAD_BYTES, MAX_WEATHER_MB, MB, OnDisk, decodes, read_bounded, release_memory, scan_bounded
 
 NAMES = ("timestamp", "ghi", "dni", "dhi", "poa_global", "temp_air", "wind_speed", "load_w")
 IRRADIANCE = ("ghi", "dni", "dhi", "poa_global")
@@ -301,28 +301,7 @@ def _check_policy(policy):
         raise InputError("--bad-rows", policy, f"unknown; expected one of {', '.join(POLICIES)}")
 
 
-_BLOCK = 1 << 20
-
-
-def _decodes(data: bytes, encoding: str) -> bool:
-    """Whether ``data`` is text in ``encoding``, checked a block at a time.
-
-    Decoding a whole file at once would hold a second copy of it (a
-    one-minute year is about 54 MB); the decoded blocks are dropped.
-    """
-    decoder = codecs.getincrementaldecoder(encoding)()
-    view = memoryview(data)
-    try:
-        for start in range(0, len(view), _BLOCK):
-            decoder.decode(view[start:start + _BLOCK], final=start + _BLOCK >= len(view))
-        if not len(view):
-            decoder.decode(b"", final=True)
-    except UnicodeDecodeError:
-        return False
-    return True
-
-
-def _head(data: bytes, encoding: str, size: int = 65536) -> str:
+def _head(data: bytes, encoding: str, size: int = HEAD_BYTES) -> str:
     """The start of the text: enough for the header line and the sniffing."""
     return codecs.getincrementaldecoder(encoding)().decode(data[:size], final=False)
 
@@ -350,13 +329,15 @@ def _read_table(path: Path, holder: list):
     where = str(path)
     data = holder.pop()
     if isinstance(data, OnDisk):
-        encoding = data.encodings[0] if data.encodings else None
+        encoding = data.encoding
         text = _head(data.head, encoding) if encoding else None
         nonblank = data.nonblank
     else:
         text = encoding = None
         for encoding in _encodings(data):
-            if _decodes(data, encoding):
+            # A block at a time: decoding it whole would hold a second copy of the file.
+            view = memoryview(data)
+            if decodes((view[k:k + MB] for k in range(0, len(view), MB)), encoding):
                 text = _head(data, encoding)
                 break
         nonblank = re.search(rb"\S", data) is not None

@@ -344,3 +344,16 @@ def test_gaps_are_counted_under_skip(tmp_path):
     w = read_weather_csv(write_csv(tmp_path, ["timestamp", "ghi", "temp_air"], rows[:5] + rows[8:]),
                          policy="skip")
     assert "1 gaps in the time step counted (largest 4 h)" in w.attrs["notes"] and w.attrs["step_h"] == 1.0
+
+
+@pytest.mark.parametrize("encoding", ["cp1252", "utf-16"])
+def test_a_spreadsheet_export_in_another_encoding_reads_as_its_utf8_twin(tmp_path, encoding):
+    # Law: the encoding of a file changes none of its values. A degree sign in
+    # a header is where a Windows export differs from UTF-8 (cp1252 0xB0 is not
+    # valid UTF-8, so the reader falls back to it; UTF-16 announces itself).
+    stamps, ghi, temp_air = day_rows()
+    header = ["timestamp", "ghi", "temp_air (°C)"]
+    rows = list(zip(stamps, ghi, temp_air))
+    twin = read_weather(write_csv(tmp_path, header, rows, name="utf8.csv"))
+    other = read_weather(write_csv(tmp_path, header, rows, name=f"{encoding}.csv", encoding=encoding))
+    pd.testing.assert_frame_equal(other, twin)
