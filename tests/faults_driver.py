@@ -31,7 +31,7 @@ def arm(sig, hook, n, marker):
             if sig == "pause":
                 with open(marker, "w") as f:
                     f.write(str(os.getpid()))
-                time.sleep(120)
+                time.sleep(900)  # killed from outside long before; a loaded machine may take minutes to get there
             os.kill(os.getpid(), getattr(signal, sig))
             time.sleep(5)  # a handled signal (SIGINT) is raised at the next bytecode
 
