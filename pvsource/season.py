@@ -30,8 +30,8 @@ from pvsource.errors import InputError
 from pvsource.inputs import release_memory
 from pvsource.module import model_notes
 from pvsource.operating import CHUNK_SIZE, operating_points
-from pvsource.regulation import (ABSORPTION, BANK_FULL, BULK, FLOAT, NONE_FULL, SOURCE, VOLTAGE_REGULATION, next_stage,
-                                 regulate)
+from pvsource.regulation import (ABSORPTION, BANK_FULL, BULK, FLOAT, NONE_FULL, SOURCE, STAGE_WORDS, VOLTAGE_REGULATION,
+                                 next_stage, regulate)
 from pvsource.system import System
 
 # States of charge at which the charge current is solved before the time loop
@@ -136,6 +136,10 @@ class TimeLoop:
     hold_a : where a constant voltage holds, the current averaged over the step; infinite elsewhere [A]
     coulombic_loss_a : the charge current that does not reach the state of charge (step mean) [A]
     load_disconnected : the share of each step the loads were cut off [-]
+    stage_shares : array (N, 3)
+        The share of each step the controller spent in bulk, absorption and
+        float [-], in time rather than by the stage the step began in (zero
+        for a connection that does not regulate); hours by stage are their sums.
     end : BankState after the last step
     generator : dict or None
         With a generator: ``running`` (share of each step run), ``starts``
@@ -150,6 +154,7 @@ class TimeLoop:
     hold_a: np.ndarray
     coulombic_loss_a: np.ndarray
     load_disconnected: np.ndarray
+    stage_shares: np.ndarray
     end: BankState
     generator: dict | None = None
 
@@ -181,8 +186,9 @@ def _held_step(i_charge, holding, load_a, soc, e, slope_e, cell_top, r_bank, v_t
     # charge follows an exponential: integrated here exactly, whatever the
     # step's length. Returns the step's average current, the current at its
     # end and half a step later, the share of the step before the voltage
-    # was reached (1: never reached, nothing changed), and the share after it
-    # while the current stays above the tail. A load that drains the
+    # was reached (1: never reached, nothing changed), the share after it
+    # while the current stays above the tail, and the share with the current
+    # at or below the tail (none, before the voltage is reached). A load that drains the
     # bank draws the held current up toward it, but never above what the
     # source and the limits allow (i_cap): from there the source binds.
     surplus = i_charge - load_a
@@ -194,7 +200,7 @@ def _held_step(i_charge, holding, load_a, soc, e, slope_e, cell_top, r_bank, v_t
         drop = (e - v_target) / slope_e
         fall = per_ah * load_a
         if fall <= drop:
-            return 0.0, 0.0, 0.0, 0.0, 1.0
+            return 0.0, 0.0, 0.0, 0.0, 0.0, 1.0  # no current: at or below the tail throughout
         start_at = drop / fall
         soc -= drop
         e = v_target
@@ -202,7 +208,7 @@ def _held_step(i_charge, holding, load_a, soc, e, slope_e, cell_top, r_bank, v_t
         surplus = -load_a
     elif not holding:
         if surplus <= 0.0:
-            return i_charge, i_charge, i_charge, 1.0, 0.0
+            return i_charge, i_charge, i_charge, 1.0, 0.0, 0.0
         # Where the held current would fall to what the source now gives.
         soc_star = 1.0 - i_charge * (1.0 - start) / i_rate
         if slope_e > 0.0:
@@ -212,7 +218,7 @@ def _held_step(i_charge, holding, load_a, soc, e, slope_e, cell_top, r_bank, v_t
                 soc_star = min(soc_star, soc_law)
         rise = per_ah * coulombic * surplus
         if soc + rise <= soc_star or soc_star <= soc:
-            return i_charge, i_charge, i_charge, 1.0, 0.0
+            return i_charge, i_charge, i_charge, 1.0, 0.0, 0.0
         start_at = (soc_star - soc) / rise
         reached = start_at
         e += slope_e * (soc_star - soc)
@@ -230,13 +236,44 @@ def _held_step(i_charge, holding, load_a, soc, e, slope_e, cell_top, r_bank, v_t
         t_cap = np.log((i_cap - load_a) / (i_charge - load_a)) / (c * slope)
         if t_cap < rest:
             moved = surplus / -slope * (1.0 - np.exp(c * slope * t_cap)) + c * (i_cap - load_a) * (rest - t_cap)
-            return load_a + (before + moved) / c, i_cap, i_cap, reached, rest
+            return load_a + (before + moved) / c, i_cap, i_cap, reached, rest, 1.0 - reached - rest
     moved = surplus / -slope * (1.0 - np.exp(c * slope * rest)) if slope < 0.0 else c * surplus * rest
     i_end = i_charge + slope * moved
     above = rest
-    if slope < 0.0 and load_a < tail_a < i_charge:
+    if i_charge <= tail_a:
+        above = 0.0  # held from at or below the tail: absorption is over as soon as the voltage is reached
+    elif slope < 0.0 and load_a < tail_a:
         above = min(rest, np.log((tail_a - load_a) / (i_charge - load_a)) / (c * slope))
-    return load_a + (before + moved) / c, i_end, load_a + (i_end - load_a) * np.exp(0.5 * c * slope), reached, above
+    # What is left is at or below the tail: the time the held current waited
+    # (no current while a load drew the EMF down to the target) and after the taper.
+    return (load_a + (before + moved) / c, i_end, load_a + (i_end - load_a) * np.exp(0.5 * c * slope), reached, above,
+            1.0 - reached - above)
+
+
+@kernel
+def _stage_shares(out, stage_in, stage_out, held, after, absorption_h, max_absorption_h, step_h, before, soc,
+                  rebulk_soc):  # pragma: no cover - compiled
+    # The share of one step spent in bulk, absorption and float (out[0:3]),
+    # in time, not by the step's label: so hours by stage add up the same at
+    # any step. ``held``: the share before the absorption voltage was reached
+    # (from bulk); ``after``: the share after the current tapered to the
+    # tail. Absorption also ends at its maximum time, and float falls back
+    # to bulk where the state of charge crosses the re-bulk threshold
+    # (linear within the step).
+    out[0] = out[1] = out[2] = 0.0
+    left = max(max_absorption_h - absorption_h, 0.0) / step_h
+    if stage_in == BULK:
+        out[0] = held
+        out[1] = min(max(1.0 - held - after, 0.0), left if max_absorption_h < np.inf else 1.0)
+        out[2] = 1.0 - out[0] - out[1]
+    elif stage_in == ABSORPTION:
+        out[1] = min(max(1.0 - after, 0.0), left if max_absorption_h < np.inf else 1.0)
+        out[2] = 1.0 - out[1]
+    elif stage_out == BULK and before > soc:
+        out[2] = min(max((before - rebulk_soc) / (before - soc), 0.0), 1.0)
+        out[0] = 1.0 - out[2]
+    else:
+        out[2] = 1.0
 
 
 @kernel
@@ -266,10 +303,12 @@ def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, a
     gen_a = np.zeros(n)
     lost = np.zeros(n)
     shed = np.zeros(n)
+    shares = np.zeros((n, 3))
     j = 0
     for k in range(n):
         soc_path[k] = soc
         stage_path[k] = stage
+        stage_in, absorption_in, soc_in = stage, absorption_h, soc
         if min_soc > 0.0 and not disconnected and soc <= min_soc:
             disconnected = True
         w_load = 0.0 if disconnected else loads[k]  # what the bank's loads draw
@@ -313,11 +352,14 @@ def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, a
             if regulated:
                 stage, absorption_h = next_stage(stage, absorption_h, limit, i_charge, i_free, soc, step_h, tail_a,
                                                  max_absorption_h, rebulk_soc)
+                _stage_shares(shares[k], stage_in, stage, 1.0, 0.0, absorption_in, max_absorption_h, step_h, soc_in,
+                              soc, rebulk_soc)
             continue
         i_end = i_charge
         held_h = step_h
         mid = -1.0
         held = 1.0
+        after = 0.0
         if limit == BANK_FULL and regulated:
             # Would fill within the step: unless the constant voltage is reached first.
             i_charge, _, limit = regulate(i_free, SOURCE, soc, e, r_bank, i_ctrl, i_rate, v_abs, v_float, start,
@@ -328,12 +370,13 @@ def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, a
         elif regulated and (i_charge > 0.0 or limit == VOLTAGE_REGULATION):
             v_target = v_float if stage == FLOAT else v_abs
             slope_e = (emf[j + 1, k] - emf[j, k]) / (grid[j + 1] - grid[j])
-            i_avg, i_end, i_ahead, held, above = _held_step(i_charge, limit == VOLTAGE_REGULATION, load_a, soc, e,
+            i_avg, i_end, i_ahead, held, above, after = _held_step(i_charge, limit == VOLTAGE_REGULATION, load_a, soc, e,
                                                             slope_e, grid[j + 1], r_bank, v_target, i_rate, start, per_ah, coulombic,
                                                      min(i_free, min(i_ctrl, i_rate)), tail_a)
             if held < 1.0 and load_a + (1.0 - soc) / (per_ah * coulombic) < i_avg:
                 # Even so it fills within the step.
                 held = 1.0
+                after = 0.0
                 limit = BANK_FULL
                 cap[k] = room
                 i_charge = room
@@ -413,8 +456,10 @@ def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, a
         if regulated:
             stage, absorption_h = next_stage(stage, absorption_h, limit, i_end, i_free, soc, held_h, tail_a,
                                              max_absorption_h, rebulk_soc)
+            _stage_shares(shares[k], stage_in, stage, held, after, absorption_in, max_absorption_h, step_h, before,
+                          soc, rebulk_soc)
     return (soc_path, mid_path, stage_path, unmet, cap, hold, lost, shed, soc, stage, absorption_h, run_frac, starts,
-            gen_a, running, run_h, disconnected)
+            gen_a, running, run_h, disconnected, shares)
 
 
 def integrate_soc(charge_grid_a, emf_grid_v, load_w, step_h: float, capacity_ah: float, coulombic: float,
@@ -482,7 +527,7 @@ def integrate_soc(charge_grid_a, emf_grid_v, load_w, step_h: float, capacity_ah:
         gen_tuple = (1.0, generator.start_soc, generator.stop_soc, generator.min_run_h, amps,
                      float(state.generator_running), float(state.generator_run_h))
     (soc, mid, stage, unmet, cap, hold, lost, shed, end_soc, end_stage, end_h, run_frac, starts, gen_a, running,
-     run_h, disconnected) = _soc_kernel(grid, np.ascontiguousarray(charge_grid_a, dtype=float),
+     run_h, disconnected, shares) = _soc_kernel(grid, np.ascontiguousarray(charge_grid_a, dtype=float),
                           np.ascontiguousarray(emf_grid_v, dtype=float), loads, float(step_h), step_h / capacity_ah,
                           float(coulombic), float(state.soc), int(state.stage), float(state.absorption_h),
                           tuple(float(v) for v in limits), tuple(float(v) for v in stages), bool(regulated),
@@ -490,7 +535,7 @@ def integrate_soc(charge_grid_a, emf_grid_v, load_w, step_h: float, capacity_ah:
                           tuple(float(v) for v in (disconnect or (0.0, 1.0))), bool(state.load_disconnected))
     end = BankState(float(end_soc), int(end_stage), float(end_h), bool(running), float(run_h), bool(disconnected))
     run = None if generator is None else {"running": run_frac, "starts": starts, "charge_a": gen_a}
-    return TimeLoop(soc, mid, stage, unmet, cap, hold, lost, shed, end, run)
+    return TimeLoop(soc, mid, stage, unmet, cap, hold, lost, shed, shares, end, run)
 
 
 def loop_settings(system: System):
@@ -895,7 +940,21 @@ def _solve_span(system: System, weather: pd.DataFrame, load_w: np.ndarray, step_
         # The share of the stored energy (E I) that never reaches the state of charge.
         steps["coulombic_loss_w"] = steps["bank_emf_v"].to_numpy() * loop.coulombic_loss_a
         steps["load_disconnected"] = loop.load_disconnected
+        if regulated:
+            # The share of each step in each charge stage, by time: hours by stage are their sums.
+            for code in STAGE_SHARED:
+                steps[stage_share_column(code)] = loop.stage_shares[:, code - BULK].astype(np.float32)
     return steps, state
+
+
+#: The charge stages a regulating controller moves through, each with a
+#: per-step column of the share of the step spent in it (:func:`stage_share_column`).
+STAGE_SHARED = (BULK, ABSORPTION, FLOAT)
+
+
+def stage_share_column(code: int) -> str:
+    """The steps' column with the share of each step spent in a charge stage: ``bulk_share`` and so on [-]."""
+    return f"{STAGE_WORDS[code]}_share"
 
 
 def step_hours(weather: pd.DataFrame) -> float:
@@ -966,7 +1025,7 @@ def _span_stats(steps: pd.DataFrame, step_h: float, whole_span: bool = True) -> 
         positive = lit[lit > 0]
         out["p95_charge_current_a"] = float(np.percentile(positive, 95)) if positive.size else 0.0
         if whole_span:
-            out["hours_by_stage"] = _hours_by(steps["stage"], step_h)
+            out["hours_by_stage"] = _stage_hours(steps, "stage", step_h)
             out["hours_by_limit"] = _hours_by(steps["limit"], step_h)
     if "soc" in steps:
         soc = steps["soc"].to_numpy()
@@ -1009,7 +1068,7 @@ def controller_summaries(system: System, steps: pd.DataFrame, step_h: float, who
                "peak_charge_current_a": float(np.nanmax(current)) if len(current) else 0.0,
                "hours_by_limit": _hours_by(steps[col("limit")], step_h)}
         if whole_span:
-            rec["hours_by_stage"] = _hours_by(steps[col("stage")], step_h)
+            rec["hours_by_stage"] = _stage_hours(steps, col("stage"), step_h)
         out.append(rec)
     return out
 
@@ -1017,6 +1076,25 @@ def controller_summaries(system: System, steps: pd.DataFrame, step_h: float, who
 def _hours_by(codes: pd.Series, step_h: float) -> dict:
     """Hours in each stage or limit that occurs, longest first, by its words."""
     return {str(k): float(v) * step_h for k, v in codes.value_counts().items() if v > 0}
+
+
+def _stage_hours(steps: pd.DataFrame, column: str, step_h: float) -> dict:
+    """Hours in each stage, longest first: a charging step's hours split by its stage shares.
+
+    A step labelled bulk, absorption or float adds each stage's share of it
+    (absorption may last minutes of an hour-long step); idle, discharging
+    and unregulated steps count whole, by their label.
+    """
+    labels = steps[column]
+    if stage_share_column(BULK) not in steps:
+        return _hours_by(labels, step_h)
+    charging = labels.isin([STAGE_WORDS[c] for c in STAGE_SHARED]).to_numpy()
+    out = _hours_by(labels[~charging], step_h)
+    for code in STAGE_SHARED:
+        hours = float(steps[stage_share_column(code)].to_numpy()[charging].sum(dtype=float)) * step_h
+        if hours > 0.0:
+            out[STAGE_WORDS[code]] = hours
+    return dict(sorted(out.items(), key=lambda kv: -kv[1]))
 
 
 def clock_ns(index: pd.DatetimeIndex):
