@@ -25,14 +25,16 @@ STAGE_WORDS = ("idle", "bulk", "absorption", "float", "unregulated", "dischargin
 
 # Limit codes: the first is the source itself; the next four are the
 # regulation's own; then what the controller's input window does to the
-# unlimited current; the last five say that nothing regulates (a direct
-# connection) and what that breaks.
+# unlimited current; the next five say that nothing regulates (a direct
+# connection) and what that breaks; the last is the regulation's too (a
+# bank too cold to take charge: its charge rate is zero), added after the others.
 (SOURCE, CONTROLLER_OUTPUT, BANK_RATE, VOLTAGE_REGULATION, BANK_FULL, INPUT_WINDOW, DARK, INPUT_OVER_MAX,
- NONE, NONE_FULL, NONE_COLD, NONE_RATE, NONE_OVER_V) = range(13)
+ NONE, NONE_FULL, NONE_COLD, NONE_RATE, NONE_OVER_V, BANK_COLD) = range(14)
 LIMIT_WORDS = ("source", "controller output current", "bank charge rate", "voltage regulation", "bank full",
                "input voltage window", "dark", "input above max_input_v: controller off", "none",
                "none: the bank is full and overcharged", "none: charging below the bank's minimum temperature",
-               "none: above the bank's charge rate", "none: above the regulation voltage")
+               "none: above the bank's charge rate", "none: above the regulation voltage",
+               "bank below its minimum charging temperature: charging blocked")
 
 
 @kernel
@@ -113,7 +115,7 @@ def regulate(i_free_a, free_limit, soc, emf_v, r_ohm, i_ctrl_a, i_rate_a, v_abs_
     i_max = min(min(i_ctrl_a, i_rate_a), min(i_cv, room_a))
     if i_free_a > i_max:
         if i_rate_a <= 0.0:
-            limit = BANK_RATE
+            limit = BANK_COLD  # the bank's charge rate is zero only below its minimum charging temperature
         elif i_max == room_a:
             limit = BANK_FULL
         elif i_max == i_rate_a:

@@ -142,7 +142,7 @@ def test_no_charging_of_lithium_below_freezing(demo_module):
     # Common practice: lithium cells must not be charged below 0 degC.
     system = bank_system(demo_module, "mppt", temp=-5.0, max_output_a=40.0)
     r = operating_points(system, 800.0, 10.0).iloc[0]
-    assert r["charge_current_a"] == 0.0 and r["limit"] == "bank charge rate"
+    assert r["charge_current_a"] == 0.0 and r["limit"] == "bank below its minimum charging temperature: charging blocked"
     direct = bank_system(demo_module, "direct", groups=((1, 3),), temp=-5.0)
     r = operating_points(direct, 800.0, 10.0).iloc[0]
     assert r["charge_current_a"] > 0 and "minimum temperature" in r["limit"]  # nothing stops it: say so

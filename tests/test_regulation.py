@@ -46,8 +46,8 @@ def test_the_tightest_limit_binds_and_is_named():
     assert i == pytest.approx(20.0) and stage == reg.ABSORPTION and limit == reg.VOLTAGE_REGULATION
     # Room for 5 A in the step: the bank fills, and the stage is float.
     assert cv(50.0, 0.3, 26.0, 0.01, 28.4, i_ctrl=40.0, room=5.0) == (5.0, reg.FLOAT, reg.BANK_FULL)
-    # Too cold to charge (rate 0): nothing, and the rate is named.
-    assert cv(50.0, 0.3, 26.0, 0.01, 28.4, i_rate=0.0) == (0.0, reg.IDLE, reg.BANK_RATE)
+    # Too cold to charge (rate 0): nothing, and the cold is named (not the rate).
+    assert cv(50.0, 0.3, 26.0, 0.01, 28.4, i_rate=0.0) == (0.0, reg.IDLE, reg.BANK_COLD)
     # Less on offer than any limit: the source binds, or what the input window made of it.
     assert cv(10.0, 0.3, 26.0, 0.01, 28.4, i_ctrl=40.0) == (10.0, reg.BULK, reg.SOURCE)
     assert cv(0.0, 0.3, 26.0, 0.01, 28.4, free_limit=reg.DARK) == (0.0, reg.IDLE, reg.DARK)
@@ -76,7 +76,7 @@ def test_a_direct_connection_is_not_limited_but_says_what_it_breaks():
 
 
 def test_every_code_has_words():
-    assert len(reg.STAGE_WORDS) == 6 and len(reg.LIMIT_WORDS) == 13
+    assert len(reg.STAGE_WORDS) == 6 and len(reg.LIMIT_WORDS) == 14 == reg.BANK_COLD + 1
     assert len(set(reg.LIMIT_WORDS)) == len(reg.LIMIT_WORDS)
 
 
