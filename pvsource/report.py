@@ -261,7 +261,9 @@ def write_report(out: Path, system: System, result: SeasonResult, weather, steps
     del hourly
     written.append(write_text(out / "summary.json", json.dumps(json_ready(summary), indent=2, allow_nan=False)))
     monthly = [_month_columns(m) for m in json_ready(summary["monthly"])]
-    header = list(monthly[0]) if monthly else []
+    header = _union_in_order(monthly)
+    # A limit that did not bind in a month held for no hours in it.
+    monthly = [{k: m.get(k, 0.0 if ".hours_by_limit." in k else None) for k in header} for m in monthly]
     csv_text = ",".join(header) + "\n" + "".join(
         ",".join("" if m[k] is None else str(m[k]) for k in header) + "\n" for m in monthly)
     written.append(write_text(out / "monthly.csv", csv_text))
@@ -315,8 +317,8 @@ def _month_columns(month: dict) -> dict:
     """One month as a table row with one column per figure.
 
     Nested figures (alert hours) become ``key.name`` columns; each
-    controller's own figures ``controller[name].key`` (its hours by limit,
-    which differ from month to month, stay in ``summary.json``).
+    controller's own figures ``controller[name].key``, its hours by limit
+    ``controller[name].hours_by_limit.limit``.
     """
     out = {}
     for key, value in month.items():
@@ -324,8 +326,25 @@ def _month_columns(month: dict) -> dict:
             out.update({f"{key}.{name}": x for name, x in value.items()})
         elif isinstance(value, list):
             for item in value:
-                out.update({f"controller[{item['name']}].{name}": x for name, x in item.items()
-                            if name != "name" and not isinstance(x, (list, dict))})
+                for name, x in item.items():
+                    if isinstance(x, dict):
+                        out.update({f"controller[{item['name']}].{name}.{k}": v for k, v in x.items()})
+                    elif name != "name" and not isinstance(x, list):
+                        out[f"controller[{item['name']}].{name}"] = x
         else:
             out[key] = value
     return out
+
+
+def _union_in_order(rows: list[dict]) -> list[str]:
+    """Every row's keys once, each new one placed after the key it follows in its row (months differ in limits)."""
+    header: list[str] = []
+    for row in rows:
+        at = 0
+        for key in row:
+            if key in header:
+                at = header.index(key) + 1
+            else:
+                header.insert(at, key)
+                at += 1
+    return header

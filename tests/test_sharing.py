@@ -203,6 +203,19 @@ def test_the_season_command_writes_each_controller_per_month(capsys, tmp_path):
     assert both.to_numpy() == pytest.approx(monthly["energy_stored_kwh"].to_numpy(), rel=1e-9)
     assert monthly["energy_stored_kwh"].sum() == pytest.approx(summary["energy_stored_kwh"], rel=1e-9)
     assert "Each controller" in (tmp_path / "out" / "report.html").read_text()
+    # Each controller's hours by limit per month: every step of the month is
+    # under some limit, so they add up to the month's hours; a limit that binds
+    # in one month only is a column of zeros in the other.
+    stamps = pd.read_parquet(tmp_path / "out" / "steps.parquet", columns=["soc"]).index
+    local = stamps.tz_localize(None) if stamps.tz is not None else stamps
+    hours = local.to_period("M").value_counts().sort_index().to_numpy() * summary["step_h"]
+    for m, name in enumerate(("east tracker", "west tracker")):
+        cols = [c for c in monthly if c.startswith(f"controller[{name}].hours_by_limit.")]
+        assert "source" in {c.rsplit(".", 1)[1] for c in cols}
+        assert monthly[cols].sum(axis=1).to_numpy() == pytest.approx(hours, rel=1e-9)
+        for row, month in zip(monthly.to_dict("records"), summary["monthly"]):
+            mine = month["controllers"][m]["hours_by_limit"]
+            assert {c.rsplit(".", 1)[1]: row[c] for c in cols if row[c] > 0} == pytest.approx(mine)
 
 
 def test_several_controllers_without_a_bank_are_refused_at_a_point(demo_module):
