@@ -194,7 +194,16 @@ def point(
              "Default: the system file's.")] = None,
     as_json: Annotated[bool, typer.Option("--json", help="Print one JSON object (SI units) instead of tables.")] = False,
 ):
-    """Solve the operating point at one set of conditions and show the array's Thevenin/Norton view."""
+    """Solve the operating point at one set of conditions and show the array's Thevenin/Norton view.
+
+    Alerts come first: each hazard the point implies (PV input above the
+    controller's max_input_v or max_input_isc_a, charging below the bank's
+    minimum temperature or above its rate, the bank above its absorption
+    voltage, a cable above its ampacity, reverse current into a string above
+    its fuse rating). Then the operating point, the charge current with each
+    controller's part, stage and limit, every loss, and the linear view.
+    --json gives the same as one object (alerts, controllers, ...).
+    """
     from pvsource.alerts import point_alerts
     from pvsource.config import load_system
     from pvsource.module import model_notes
@@ -535,7 +544,15 @@ def season(
     as_json: Annotated[bool, typer.Option("--json", help="Print the summary as one JSON object.")] = False,
     max_weather_mb: Annotated[float, typer.Option("--max-weather-mb", help=MAX_WEATHER_HELP)] = MAX_WEATHER_MB,
 ):
-    """A season of weather through the whole system: energy, losses, stages, state of charge; tables, figures, report."""
+    """A season of weather through the whole system: energy, losses, stages, state of charge; tables, figures, report.
+
+    The bank runs through time: charge stages (bulk, absorption, float) with
+    their hours, the coulombic loss, the low-voltage disconnect and the load
+    left unmet, each controller's energy and hours by limit, and a backup
+    generator's hours, starts and fuel. Hours per alert lead the printed
+    summary. Writes steps.parquet, hourly.csv, summary.json, monthly.csv, the
+    figures, report.html and run.json into --out.
+    """
     options = _options(locals())
     from pvsource.config import load_system
 
@@ -558,7 +575,12 @@ def demo(
     days: Annotated[Optional[int], typer.Option(
         "--days", metavar="N", help="Study only the first N days of the year (1 to 365), for a quick look.")] = None,
 ):
-    """The whole season study on the built-in invented cabin and a synthetic, reproducible weather year."""
+    """The whole season study on the built-in invented cabin and a synthetic, reproducible weather year.
+
+    The same outputs as season: stages, coulombic loss, the low-voltage
+    disconnect (the cabin's loads are cut off in winter), alerts, tables,
+    figures and report.html. No files or network needed.
+    """
     options = _options(locals())
     if days is not None and not 1 <= days <= 365:
         raise InputError("--days", None, f"expected a whole number of days from 1 to 365, got {days}")
