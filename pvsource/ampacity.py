@@ -81,9 +81,17 @@ DEFAULT_AMBIENT_C = 30.0
 DEFAULT_CONDUCTORS_TOGETHER = 2
 DEFAULT_INSTALL = "raceway"
 DEFAULT_TERMINATION_C = 75.0
-#: The overcurrent device assumed for a metric size: a gPV fuse (IEC 60269-6),
-#: whose I_2 = 1.45 I_n equals a circuit-breaker's (IEC 60898), so I_n ≤ I_z.
+#: The overcurrent device assumed for a metric size on the PV side (and in
+#: quick mode): a gPV fuse (IEC 60269-6), whose I_2 = 1.45 I_n equals a
+#: circuit-breaker's (IEC 60898), so I_n ≤ I_z.
 DEFAULT_PROTECTION = "gpv"
+#: The device assumed on the battery side (bank and interconnect runs): gPV
+#: fuses are made for PV circuits, and a battery circuit's fuse is often a gG
+#: fuse (common practice). Its I_2 = 1.6 I_n asks the most of the conductor,
+#: so a conductor sized for it is also protected by a gPV fuse or a breaker.
+DEFAULT_BATTERY_PROTECTION = "gg"
+#: The cable roles on the battery side of a controller.
+BATTERY_ROLES = ("bank", "interconnect")
 #: IEC 60364-4-43 433.1: the device's conventional operating current may be at most 1.45 I_z.
 IEC_I2_LIMIT = 1.45
 #: NEC 690.8(B)(1) and 215.2(A)(1): conductors carry 125 % of a continuous current.
@@ -120,6 +128,11 @@ PROTECTIONS = {"gpv": "fuse", "gg": "fuse", "breaker": "breaker"}
 #: Conventional operating current I_2 / I_n by device: (device, band conditions, factor).
 IEC_I2_FACTORS = [(r["device"], r["rated_current"].split(), float(r["i2_factor"]))
                   for r in _read("iec_conventional_current.csv")]
+#: What sets a conductor's limit on 1.25 x I_max (:meth:`Ampacity.limit_by`), in words.
+LIMIT_BY = {"device": "the largest device rating it may sit behind, IEC 60364-4-43 433.1",
+            "terminations": "its terminations' column, NEC 110.14(C)",
+            "ampacity": "1.25 x its corrected ampacity, NEC 690.8(B)",
+            "rating": "the run's own ampacity_a"}
 PROTECTION_WORDS = {"gpv": "gPV fuse (IEC 60269-6)", "gg": "gG fuse (IEC 60269-1)",
                     "breaker": "circuit-breaker (IEC 60898)"}
 
@@ -140,9 +153,12 @@ class Installation:
         ``raceway`` or ``free-air``, or an IEC 60364-5-52 reference method for metric sizes.
     termination_c : float
         Temperature rating of the terminations [°C] (NEC 110.14(C)).
-    protection : str
+    protection : str or None
         The overcurrent device of a metric circuit, one of :data:`PROTECTIONS`
-        (IEC 60364-4-43 433.1); AWG sizes follow NEC 240.
+        (IEC 60364-4-43 433.1); AWG sizes follow NEC 240. None: by the
+        circuit, :data:`DEFAULT_PROTECTION` on the PV side and
+        :data:`DEFAULT_BATTERY_PROTECTION` on the battery side
+        (:func:`pvsource.wiring.run_installation`).
     """
 
     insulation_c: float = DEFAULT_INSULATION_C
@@ -150,7 +166,12 @@ class Installation:
     conductors_together: int = DEFAULT_CONDUCTORS_TOGETHER
     install: str = DEFAULT_INSTALL
     termination_c: float = DEFAULT_TERMINATION_C
-    protection: str = DEFAULT_PROTECTION
+    protection: str | None = None
+
+
+def default_protection(role: str | None) -> str:
+    """The device assumed for a metric run of this cable role when none is given (None: quick mode)."""
+    return DEFAULT_BATTERY_PROTECTION if role in BATTERY_ROLES else DEFAULT_PROTECTION
 
 
 def check_installation(inst: Installation, where: str, names: dict | None = None) -> Installation:
@@ -166,7 +187,7 @@ def check_installation(inst: Installation, where: str, names: dict | None = None
         fail("insulation_c", f"expected 60, 75 or 90 (NEC) or 70 or 90 (IEC), got {inst.insulation_c!r}")
     if inst.termination_c not in (60.0, 75.0, 90.0):
         fail("termination_c", f"expected 60, 75 or 90, got {inst.termination_c!r}")
-    if inst.protection not in PROTECTIONS:
+    if inst.protection is not None and inst.protection not in PROTECTIONS:
         fail("protection", f"expected one of {', '.join(PROTECTIONS)}, got {inst.protection!r}")
     if not (math.isfinite(inst.ambient_c) and -50.0 <= inst.ambient_c <= 85.0):
         fail("ambient_c", f"expected -50 to 85 degC, got {inst.ambient_c!r}")
@@ -214,6 +235,8 @@ class Ampacity:
     protection : str or None
         For a metric size, the overcurrent device (:data:`PROTECTIONS`) the
         conductor is coordinated with (IEC 60364-4-43 433.1); None for NEC sizes.
+    typed : bool
+        Whether the rating is the run's own ``ampacity_a``, not a table's.
     """
 
     table_a: float
@@ -223,6 +246,7 @@ class Ampacity:
     termination_a: float
     basis: str
     protection: str | None = None
+    typed: bool = False
 
     def limit_for(self, conductors_in_parallel: int = 1) -> float:
         """The most that 1.25 × I_max may be with ``conductors_in_parallel`` such conductors [A].
@@ -236,6 +260,16 @@ class Ampacity:
         if self.protection is not None:
             limit = min(limit, largest_protection_a(n * self.corrected_a, self.protection))
         return limit
+
+    def limit_by(self, conductors_in_parallel: int = 1) -> str:
+        """What sets :meth:`limit_for`: one of :data:`LIMIT_BY` (``device``, ``terminations``, ``ampacity``, ``rating``)."""
+        n = conductors_in_parallel
+        if self.protection is not None and self.limit_for(n) < n * min(self.termination_a,
+                                                                       CONTINUOUS_FACTOR * self.corrected_a):
+            return "device"
+        if self.typed:
+            return "rating"
+        return "terminations" if self.termination_a <= CONTINUOUS_FACTOR * self.corrected_a else "ampacity"
 
     @property
     def limit_a(self) -> float:
@@ -327,12 +361,13 @@ def ampacity(size: str | ConductorSize, material: str, inst: Installation = Inst
         raise InputError(where, "size", f"IEC 60364-5-52 {mat} as held here runs from {low:g} to {high:g} mm2, "
                                         f"not {s.label}")
     circuits = math.ceil(inst.conductors_together / 2)
+    protection = inst.protection or DEFAULT_PROTECTION
     k_t = iec_ambient_factor(inst.insulation_c, inst.ambient_c)
     k_g = iec_grouping_factor(circuits)
     basis = (f"IEC 60364-5-52 {mat}, method {method} ({'XLPE' if inst.insulation_c == 90 else 'PVC'}, two loaded "
              f"conductors), Table B.52.14 ambient {inst.ambient_c:g} degC, Table B.52.17 for {circuits} circuit(s); "
-             f"{protection_words(inst.protection)}")
-    return Ampacity(IEC_TABLES[key], k_t, k_g, IEC_TABLES[key] * k_t * k_g, math.inf, basis, inst.protection)
+             f"{protection_words(protection)}")
+    return Ampacity(IEC_TABLES[key], k_t, k_g, IEC_TABLES[key] * k_t * k_g, math.inf, basis, protection)
 
 
 def protection_words(protection: str) -> str:

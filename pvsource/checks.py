@@ -338,6 +338,7 @@ def design_currents(system: System, defaults: amp.Installation = amp.Installatio
                     "current_basis": how,
                     "ampacity_a": None if a is None else n * a.corrected_a,
                     "ampacity_limit_a": None if a is None else a.limit_for(n),
+                    "ampacity_limit_by": None if a is None else a.limit_by(n),
                     "ampacity_basis": None if a is None else a.basis,
                     "protection": None if a is None else a.protection,
                     "protection_a": None if a is None or a.protection is None else

@@ -234,8 +234,9 @@ INSTALL_HELP = {
     "install": "raceway (NEC 310.16; IEC method B1) or free-air (NEC 310.17; IEC method E), or an IEC method A1, A2, "
                "B1, B2, C, E for metric sizes. Default raceway.",
     "protection": "The fuse or breaker of a metric circuit, for IEC 60364-4-43 433.1 (I_n <= I_z, I_2 <= 1.45 I_z): "
-                  "gpv (gPV fuse, IEC 60269-6), gg (gG fuse, IEC 60269-1) or breaker (IEC 60898). Default gpv; "
-                  "AWG sizes follow NEC 240. A run's own protection wins.",
+                  "gpv (gPV fuse, IEC 60269-6), gg (gG fuse, IEC 60269-1) or breaker (IEC 60898). Default: gpv on the PV "
+                  "side and in quick mode, gg on the battery side (its I_2 = 1.6 I_n asks the most of the "
+                  "conductor); AWG sizes follow NEC 240. A run's own protection wins.",
 }
 # The installation's defaults live with the ampacity tables; None here means "the default".
 InsulationOpt = Annotated[Optional[float], typer.Option("--insulation-c", help=INSTALL_HELP["insulation_c"])]
@@ -254,7 +255,7 @@ def _installation(insulation_c, ambient_c, together, install, protection=None):
     ambient_c = ampacity.DEFAULT_AMBIENT_C if ambient_c is None else ambient_c
     together = ampacity.DEFAULT_CONDUCTORS_TOGETHER if together is None else together
     install = ampacity.DEFAULT_INSTALL if install is None else str(install)
-    protection = ampacity.DEFAULT_PROTECTION if protection is None else str(protection)
+    protection = None if protection is None else str(protection)  # None: by the circuit's side
     inst = Installation(insulation_c=insulation_c, ambient_c=ambient_c, conductors_together=together, install=install,
                         protection=protection)
     try:

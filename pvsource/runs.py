@@ -17,7 +17,7 @@ from pvsource.errors import InputError
 from pvsource.system import System
 from pvsource.units import FOOT_M
 from pvsource.ampacity import (
-    CONTINUOUS_FACTOR, Installation, check_installation, check_series, needed_protection_a,
+    CONTINUOUS_FACTOR, DEFAULT_BATTERY_PROTECTION, DEFAULT_PROTECTION, Installation, check_installation, check_series, needed_protection_a,
     smallest_size_for_current,
 )
 from pvsource.checks import design_currents
@@ -286,6 +286,7 @@ def _sizing(flow: RunFlow, budget_fraction, max_circuit_current_a: float, defaul
             "design_current_a": CONTINUOUS_FACTOR * max_circuit_current_a,
             "ampacity_a": None if a is None else n * a.corrected_a,
             "ampacity_limit_a": None if a is None else a.limit_for(n),
+            "ampacity_limit_by": None if a is None else a.limit_by(n),
             "ampacity_basis": None if a is None else a.basis,
             "ampacity_note": None if a is not None else
             f"no table value for {run.size.label if run.size else 'a run without a size'} {run.material} "
@@ -398,8 +399,16 @@ def wire_record(system: System, row, budget_fraction: float = DEFAULT_DROP_BUDGE
                   "loss_pct": 100.0 * float(row["cable_loss_w"]) / generated if generated > 0 else None},
         "budget_pct": 100.0 * budget_fraction,
         "over_budget": [r["name"] for r in runs if r["breaks_budget"]],
-        "installation_defaults": asdict(defaults),
+        "installation_defaults": _defaults_record(defaults),
     }
+
+
+def _defaults_record(defaults: Installation) -> dict:
+    """The command's installation defaults as JSON; a device left to the circuit's side is given per side."""
+    out = asdict(defaults)
+    if out["protection"] is None:
+        out["protection"] = {"pv": DEFAULT_PROTECTION, "battery": DEFAULT_BATTERY_PROTECTION}
+    return out
 
 
 def drop_budget_reasons(system: System, budget_fraction: float) -> list[str]:
@@ -451,6 +460,8 @@ def quick_record(current_a: float, length_m: float, size_text: str, material: st
     names = {"insulation_c": "--insulation-c", "ambient_c": "--ambient-c",
              "conductors_together": "--conductors-together", "install": "--install"}
     check_installation(installation, "wire", names)
+    if installation.protection is None:
+        installation = replace(installation, protection=DEFAULT_PROTECTION)
     # One run of one known size: an installation its standard has no table for is
     # a typing slip, refused here rather than left without an ampacity.
     check_series(size.series, {"install": installation.install, "insulation_c": installation.insulation_c},

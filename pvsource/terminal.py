@@ -9,7 +9,7 @@ from __future__ import annotations
 import math
 
 from pvsource import cautions
-from pvsource.ampacity import PROTECTION_WORDS
+from pvsource.ampacity import LIMIT_BY, PROTECTION_WORDS
 from pvsource.module import Module, model_notes, temperature_coefficients
 from pvsource.system import System
 
@@ -196,10 +196,16 @@ def _sizes_line(r: dict) -> list[str]:
         needed = "none in the preferred series" if r["protection_a"] is None else f"{r['protection_a']:g} A"
         amp += (f"; needs a {PROTECTION_WORDS[r['protection']]} of {needed}, and the conductor may sit behind "
                 f"{_num(r['ampacity_limit_a'], 0, 'A')} at most (IEC 60364-4-43 433.1)")
+    elif r["ampacity_a"] is not None:
+        amp += (f"; the conductor design current may be {_num(r['ampacity_limit_a'], 1, 'A')} at most "
+                f"({LIMIT_BY[r['ampacity_limit_by']]})")
+    by_amp, by_drop, recommended = r["size_by_ampacity"], r["size_by_drop"], r["recommended_size"]
+    binds = ("" if recommended is None else " (ampacity and drop agree)" if by_amp == by_drop == recommended else
+             " (set by ampacity)" if recommended == by_amp else " (set by voltage drop)" if recommended == by_drop
+             else "")
     lines = [f"  max current {_num(r['max_circuit_current_a'], 2, 'A')}, conductor design "
              f"{_num(r['design_current_a'], 2, 'A')} (x 1.25); {amp}",
-             f"  size by ampacity {r['size_by_ampacity'] or '-'}   by drop {r['size_by_drop'] or '-'}   "
-             f"recommended {r['recommended_size'] or '-'}"]
+             f"  size by ampacity {by_amp or '-'}   by drop {by_drop or '-'}   recommended {recommended or '-'}{binds}"]
     if r["recommendation_note"]:
         lines.append(f"    {r['recommendation_note']}")
     return lines
@@ -371,7 +377,9 @@ def render_checks(system: System, rec: dict) -> str:
     if rec["design_currents"]:
         lines.append(_rule("Design currents of the runs (NEC 690.8)"))
         for d in rec["design_currents"]:
-            rating = "no ampacity" if d["ampacity_a"] is None else f"ampacity {d['ampacity_a']:.1f} A"
+            rating = "no ampacity" if d["ampacity_a"] is None else (
+                f"ampacity {d['ampacity_a']:.1f} A   limit {d['ampacity_limit_a']:.1f} A "
+                f"({LIMIT_BY[d['ampacity_limit_by']]})")
             lines.append(f"  {d['run']:<24} circuit {d['circuit_current_a']:7.2f} A   conductor "
                          f"{d['conductor_current_a']:7.2f} A   {rating}")
     lines.extend(f"\nNOTE: {n}" for n in rec.get("notes", ()))

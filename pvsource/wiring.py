@@ -25,7 +25,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from pvsource import conductors
-from pvsource.ampacity import Ampacity, Installation, ampacity, protection_words
+from pvsource.ampacity import Ampacity, Installation, ampacity, default_protection, protection_words
 from pvsource.conductors import ConductorSize
 from pvsource.errors import InputError
 
@@ -139,8 +139,9 @@ def sized_ohm_per_km(run: CableRun, size: ConductorSize) -> tuple[float, str]:
 
 
 def run_installation(run: CableRun, defaults: Installation = Installation()) -> Installation:
-    """The run's installation: what its file gives, else ``defaults``."""
-    return replace(defaults, **dict(run.installed))
+    """The run's installation: what its file gives, else ``defaults``; a device given nowhere is its side's."""
+    inst = replace(defaults, **dict(run.installed))
+    return inst if inst.protection is not None else replace(inst, protection=default_protection(run.role))
 
 
 def run_ampacity(run: CableRun, defaults: Installation = Installation(), size: ConductorSize | None = None):
@@ -157,8 +158,8 @@ def run_ampacity(run: CableRun, defaults: Installation = Installation(), size: C
         if size is not None and size.series == "metric":
             # A metric conductor is coordinated with its device whatever its rating's source.
             protection = run_installation(run, defaults).protection
-            return Ampacity(a, 1.0, 1.0, a, a, f"{basis}; {protection_words(protection)}", protection)
-        return Ampacity(a, 1.0, 1.0, a, a, basis)
+            return Ampacity(a, 1.0, 1.0, a, a, f"{basis}; {protection_words(protection)}", protection, typed=True)
+        return Ampacity(a, 1.0, 1.0, a, a, basis, typed=True)
     if size is None:
         return None
     try:

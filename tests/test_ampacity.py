@@ -344,3 +344,19 @@ def test_aluminium_metric_sizing_worked():
     assert size.label == "25 mm2" and a.corrected_a == pytest.approx(91.91)
     with pytest.raises(InputError, match="aluminium as held here runs from 16 to 300 mm2"):
         amp.ampacity("10 mm2", "al", Installation())
+
+
+def test_what_sets_the_conductor_limit_is_named():
+    # NEC 310.16 (from memory): 10 AWG copper, 90 degC column 40 A, 75 degC column 35 A. At 30 degC ambient
+    # 1.25 x 40 = 50 A > 35 A: the 75 degC terminations bind (110.14(C)). At 70 degC ambient the 90 degC
+    # factor is 0.58 (310.15(B)(1)(1) of NEC 2023, 66-70 degC; from memory): 1.25 x 0.58 x 40 = 29 A < 35 A,
+    # the corrected ampacity binds.
+    cool = amp.ampacity("10 AWG", "cu", Installation(90, 30.0, 2, "raceway"))
+    hot = amp.ampacity("10 AWG", "cu", Installation(90, 70.0, 2, "raceway"))
+    assert (cool.limit_a, cool.limit_by()) == (35.0, "terminations")
+    assert hot.limit_a == pytest.approx(1.25 * 0.58 * 40) and hot.limit_by() == "ampacity"
+    # IEC 60364-4-43 433.1: 1.5 mm2 XLPE in B1 (I_z 23 A, B.52.4 from memory) sits behind 20 A at most, below
+    # 1.25 x 23 = 28.75 A: the device binds.
+    small = amp.ampacity("1.5 mm2", "cu", Installation(90, 30.0, 2, "B1"))
+    assert (small.limit_a, small.limit_by()) == (20.0, "device")
+    assert set(amp.LIMIT_BY) == {"device", "terminations", "ampacity", "rating"}

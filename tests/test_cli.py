@@ -818,3 +818,55 @@ def test_point_json_lists_each_controller_and_the_bank_current_is_their_sum(caps
     assert abs(rec["residuals"]["energy_balance"]) < 1e-9
     code, out, _ = run(capsys, "point", str(DATA / "example-east-west.toml"))
     assert "east tracker (mppt)" in out and "the controllers' sum" in out
+
+
+def test_battery_side_metric_runs_default_to_a_gg_fuse(capsys):
+    # Common practice: a battery circuit's fuse is often a gG fuse (IEC 60269-1), and its conventional
+    # operating current I_2 = 1.6 I_n (from 16 A; from memory) asks more of the conductor than a gPV fuse's or
+    # a breaker's 1.45 I_n, so the battery side is sized for it unless told otherwise. IEC 60364-4-43 433.1
+    # worked by hand for the hut's bank run, I_max 40 A (its controller's output): I_B = 50 A, I_n = 50 A;
+    # gPV: I_z >= 50 A, so 6 mm2 (54 A); gG: 1.6 x 50 = 80 A <= 1.45 I_z, so I_z >= 55.2 A and 10 mm2
+    # (75 A). I_z: IEC 60364-5-52 B.52.4, XLPE, method B1 (from memory, as in test_ampacity).
+    from test_ampacity import IEC_60269_1_RATINGS, _433_by_hand
+
+    iz = {"6 mm2": 54.0, "10 mm2": 75.0, "16 mm2": 100.0}
+    gg = lambda r: 2.1 if r <= 4 else 1.9 if r < 16 else 1.6  # noqa: E731
+    hut = str(DATA / "example-hut-generator.toml")
+    code, out, _ = run(capsys, "wire", hut, "--json")
+    assert code == 0
+    rec = json.loads(out)
+    runs = {r["name"]: r for r in rec["runs"]}
+    bank, feeder = runs["controller to bank"], runs["array to controller"]
+    assert bank["max_circuit_current_a"] == 40.0 and bank["protection"] == "gg" and bank["protection_a"] == 50.0
+    assert bank["size_by_ampacity"] == _433_by_hand(40.0, iz, IEC_60269_1_RATINGS, gg) == "10 mm2"
+    assert feeder["protection"] == "gpv"  # the PV side keeps the device made for it
+    assert rec["installation_defaults"]["protection"] == {"pv": "gpv", "battery": "gg"}
+    code, out, _ = run(capsys, "wire", hut)
+    assert "needs a gG fuse (IEC 60269-1) of 50 A" in out and "gPV fuse (IEC 60269-6) of 32 A" in out
+    # Told the device, the command uses it on both sides.
+    code, out, _ = run(capsys, "wire", hut, "--protection", "gpv", "--json")
+    bank = {r["name"]: r for r in json.loads(out)["runs"]}["controller to bank"]
+    assert bank["protection"] == "gpv"
+    assert bank["size_by_ampacity"] == _433_by_hand(40.0, iz, IEC_60269_1_RATINGS, lambda r: 1.45) == "6 mm2"
+
+
+def test_wire_and_check_say_which_figure_binds(capsys):
+    # 20 A over 10 m of 10 AWG at 48 V: 0.0814 ohm loop (NEC Chapter 9 Table 8 at 75 degC, as wire reports)
+    # drops 3.4 % > 3 %, so the drop sets the size; over 1 m the drop is small and ampacity sets it. 10 AWG
+    # copper's 75 degC column is 35 A (NEC 310.16, from memory), below 1.25 x 40 A: the terminations bind.
+    code, out, _ = run(capsys, "wire", "--current", "20", "--length-m", "10", "--size", "10 AWG", "--volts", "48")
+    assert code == 0 and "recommended 8 AWG (set by voltage drop)" in out
+    assert "may be 35.0 A at most (its terminations' column, NEC 110.14(C))" in out
+    code, out, _ = run(capsys, "wire", "--current", "20", "--length-m", "1", "--size", "10 AWG", "--volts", "48",
+                       "--json")
+    rec = json.loads(out)
+    assert rec["recommended_size"] == rec["size_by_ampacity"] == "10 AWG" and rec["ampacity_limit_by"] == "terminations"
+    # check's table of design currents gives the limit the check compares with, and what sets it.
+    code, out, _ = run(capsys, "check", str(DATA / "example-cabin-mppt.toml"), "--min-air-c", "-20", "--max-air-c", "40",
+                       "--json")
+    currents = json.loads(out)["design_currents"]
+    code, text, _ = run(capsys, "check", str(DATA / "example-cabin-mppt.toml"), "--min-air-c", "-20", "--max-air-c",
+                        "40")
+    for d in currents:
+        assert d["ampacity_limit_by"] in ("device", "terminations", "ampacity", "rating")
+        assert f"limit {d['ampacity_limit_a']:.1f} A" in text
