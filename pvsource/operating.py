@@ -377,7 +377,10 @@ def _drift(net: Network, point: Point, acc: Accounts, views: dict, check: bool) 
         i_exact = _over_groups(evaluate_groups(net, sol_d.x_v).group_i_a)
         i_lin = (views["thevenin_e_v"] - v_d) / views["thevenin_r_ohm"]
         with np.errstate(divide="ignore", invalid="ignore"):
-            err = np.where(i != 0.0, (i_lin - i_exact) / np.abs(i), np.nan)
+            # A share of the operating current; undefined where next to none flows (open circuit, an idle
+            # controller): a solver's 1e-13 A would turn any difference into an absurd percentage.
+            flows = np.abs(i) > 1e-6 * np.maximum(np.abs(i_exact), np.abs(i_lin))
+            err = np.where(flows, (i_lin - i_exact) / np.abs(i), np.nan)
         out.update({f"drift_{tag}_i_exact_a": i_exact, f"drift_{tag}_error": err})
     return out, converged
 

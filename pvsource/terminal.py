@@ -118,7 +118,9 @@ def render_point(system: System, rec: dict) -> str:
     for tag, label in (("low", "-10 %"), ("high", "+10 %")):
         d = rec["linear_drift"][tag]
         lines.append(f"  V {label} = {_num(d['v'], 2, 'V')}: exact {_num(d['i_exact_a'], 3, 'A')}, "
-                     f"linear {_num(d['i_linear_a'], 3, 'A')}, error {_pct(d['error_fraction_of_i'])} of I")
+                     f"linear {_num(d['i_linear_a'], 3, 'A')}, "
+                     + ("error n/a (no current at the operating point)" if d["error_fraction_of_i"] is None
+                        else f"error {_pct(d['error_fraction_of_i'])} of I"))
 
     lines.append(_rule("Superposition: shares of the load current (linearised network)"))
     sp = rec["superposition"]

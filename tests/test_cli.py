@@ -870,3 +870,21 @@ def test_wire_and_check_say_which_figure_binds(capsys):
     for d in currents:
         assert d["ampacity_limit_by"] in ("device", "terminations", "ampacity", "rating")
         assert f"limit {d['ampacity_limit_a']:.1f} A" in text
+
+
+def test_a_bank_too_cold_to_charge_is_named_and_no_drift_percentage_is_made_up(capsys, tmp_path):
+    # Common practice: lithium is not charged below 0 degC, so at -5 degC the tracker holds the array at open
+    # circuit. The limit names the cold, and the linear model's error, a share of the operating current, is
+    # undefined where no current flows (the solver's 1e-13 A once gave 9e15 %).
+    text = (DATA / "example-hut-generator.toml").read_text(encoding="utf-8")
+    text = text.replace("temp_c = 15", "temp_c = -5").replace('file = "modules/', f'file = "{DATA.as_posix()}/modules/')
+    cold = tmp_path / "cold.toml"
+    cold.write_text(text, encoding="utf-8")
+    code, out, _ = run(capsys, "point", str(cold), "--irradiance-w-m2", "800", "--cell-temp-c", "10", "--json")
+    rec = json.loads(out)
+    assert code == 0 and rec["charge_current_a"] == 0.0
+    assert rec["limit"] == "bank below its minimum charging temperature: charging blocked"
+    assert "charge_below_min_temp" in [a["name"] for a in rec["alerts"]]
+    assert [rec["linear_drift"][k]["error_fraction_of_i"] for k in ("low", "high")] == [None, None]
+    code, out, _ = run(capsys, "point", str(cold), "--irradiance-w-m2", "800", "--cell-temp-c", "10")
+    assert "error n/a (no current at the operating point)" in out and "e+" not in out
