@@ -26,14 +26,16 @@ The alerts and their basis:
   the controller needs to start), whether or not the modelled controller
   withheld the charge: a controller without a temperature sensor would not
   (common practice: lithium plating below 0 degC; frozen lead-acid).
-- ``charge_over_bank_rate``: the charge current above the chemistry's
-  maximum charge rate times the capacity (its preset, with its source).
+- ``charge_over_bank_rate``: the bank's own charge current above the
+  chemistry's maximum charge rate times the capacity (its preset, with its
+  source). In a season the loads' current at the bank (``bank_load_a``) is
+  not the bank's: the controller may carry it on top.
 - ``pv_input_over_max_isc``: the array's short-circuit current at the
   point's conditions above the controller's ``max_input_isc_a``: the current
   its input must carry when it shorts the array (NEC 690.8(A): the circuit
   current is the array's Isc).
 - ``bank_over_absorption_v``: the bank's terminal voltage, E + I R at the
-  charge current, above its absorption voltage at its temperature. A
+  bank's own charge current, above its absorption voltage at its temperature. A
   regulating controller never allows it; a direct connection does
   (IEEE Std 1361: overcharge gasses and dries lead-acid; lithium cells are
   damaged above their charge voltage).
@@ -279,6 +281,9 @@ def measures(system: System, frame) -> list[Measure]:
     if b is not None and emf is not None:
         temp = _col(frame, "bank_temp_c")
         charge, r = _col(frame, "charge_current_a"), _col(frame, "bank_r_ohm")
+        beside = _col(frame, "bank_load_a")
+        if beside is not None:
+            charge = charge - beside  # a season's loads take their part at the bank: the bank's own current
         chem = b.chemistry
         with np.errstate(invalid="ignore"):
             cold = could & (temp < chem.min_charge_temp_c)

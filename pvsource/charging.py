@@ -67,6 +67,7 @@ class BankPoint:
     accept_start_soc: float
     cap_a: np.ndarray | None = None
     hold_a: np.ndarray | None = None
+    load_a: np.ndarray | None = None
 
     def head(self, m: int) -> "BankPoint":
         """The first ``m`` conditions."""
@@ -85,6 +86,10 @@ class BankPoint:
     def hold(self):
         """The constant-voltage current averaged over a season's step; infinite by default [A]."""
         return np.full_like(self.emf_v, np.inf) if self.hold_a is None else self.hold_a
+
+    def load(self):
+        """The current a season's loads draw at the bank in parallel with the charge; none by default [A]."""
+        return np.zeros_like(self.emf_v) if self.load_a is None else self.load_a
 
 
 @dataclass(frozen=True)
@@ -165,7 +170,7 @@ def solve_charging(net: Network, controller: Controller, bank: BankPoint, r_feed
     i_bank, stage, limit = reg.regulate_arrays(
         free.current_a, free.limit, bank.soc, bank.emf_v, bank.r_ohm, controller.output_limit_a,
         bank.max_charge_a, bank.absorption_v, bank.float_v, bank.accept_start_soc, bank.room_a(), bank.hold(),
-        bank.stage, controller.regulates)
+        bank.stage, controller.regulates, bank.load())
     op = controller.operate(net, free, bank, i_bank, r_feeder_ohm, r_bank_cables_ohm)
     short = ~op.reached
     if short.any():

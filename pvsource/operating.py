@@ -135,13 +135,13 @@ def bank_point(system: System, soc, temp_c, history: dict | None = None) -> Bank
     """The bank's Thevenin equivalent, charge voltages and charge limit at each condition.
 
     ``history`` holds what a season's time loop found at each step
-    (``stage``, ``cap_a``, ``hold_a``; see :func:`operating_points`). Without
+    (``stage``, ``cap_a``, ``hold_a``, ``load_a``; see :func:`operating_points`). Without
     it, the stage is float where the state of charge is at least
     :data:`~pvsource.charging.FLOAT_SOC`, else bulk (a single point has no
     history to say which stage holds).
     """
     history = history or {}
-    stage, cap_a, hold_a = (history.get(k) for k in ("stage", "cap_a", "hold_a"))
+    stage, cap_a, hold_a, load_a = (history.get(k) for k in ("stage", "cap_a", "hold_a", "load_a"))
     b = system.bank
     emf, r = bank_model.thevenin(b, soc, temp_c)
     v_abs, v_float = bank_model.charge_voltages_v(b, temp_c)
@@ -152,7 +152,7 @@ def bank_point(system: System, soc, temp_c, history: dict | None = None) -> Bank
     return BankPoint(as_array(emf), as_array(r), as_array(soc_now), as_array(v_abs), as_array(v_float),
                      as_array(stage, np.int8), as_array(bank_model.max_charge_current_a(b, temp_c)),
                      b.chemistry.absorption_start_soc, None if cap_a is None else as_array(cap_a),
-                     None if hold_a is None else as_array(hold_a))
+                     None if hold_a is None else as_array(hold_a), None if load_a is None else as_array(load_a))
 
 
 @dataclass(frozen=True)
@@ -580,7 +580,8 @@ def _frame_from_chunks(system: System, g, t, chunk_size: int, soc=None, bank_tem
 
 
 def operating_points(system: System, irradiance_w_m2=None, cell_temp_c=None, *, soc=None, bank_temp_c=None,
-                     charge_cap_a=None, hold_a=None, stage=None, drift_check: bool = True, on_failure: str = "raise",
+                     charge_cap_a=None, hold_a=None, stage=None, load_a=None, drift_check: bool = True,
+                     on_failure: str = "raise",
                      chunk_size: int = CHUNK_SIZE) -> pd.DataFrame:
     """Exact operating points, linearised equivalents and accounting per condition.
 
@@ -607,6 +608,10 @@ def operating_points(system: System, irradiance_w_m2=None, cell_temp_c=None, *, 
         stages, codes of :mod:`pvsource.regulation`); by default float
         where the state of charge is at least
         :data:`~pvsource.charging.FLOAT_SOC`, else bulk.
+    load_a : array (N,), optional
+        A season study's load current at the bank in each step [A]: the
+        controller may carry it on top of what the bank's own limits let
+        into the bank (:func:`pvsource.regulation.regulate`); none by default.
     drift_check : bool
         Solve the exact curve at +/-10 % of the operating voltage to show how
         far the linear model holds (two extra solves); off, those columns are NaN.
@@ -657,11 +662,11 @@ def operating_points(system: System, irradiance_w_m2=None, cell_temp_c=None, *, 
     soc = _bank_condition(system, soc, "soc", (0.0, 1.0), len(g))
     bank_temp_c = _bank_condition(system, bank_temp_c, "bank_temp_c", (-40.0, 70.0), len(g))
     history = {}
-    for name, value in (("cap_a", charge_cap_a), ("hold_a", hold_a)):
+    for name, value in (("cap_a", charge_cap_a), ("hold_a", hold_a), ("load_a", load_a)):
         if value is not None:
             history[name] = np.array(np.broadcast_to(np.asarray(value, float), (len(g),)))
             if np.any(np.isnan(history[name]) | (history[name] < 0)):
-                raise InputError(name if name == "hold_a" else "charge_cap_a", None,
+                raise InputError("charge_cap_a" if name == "cap_a" else name, None,
                                  "expected currents of 0 A or more (inf where no cap)")
     if stage is not None:
         history["stage"] = np.array(np.broadcast_to(np.asarray(stage, np.int8), (len(g),)))

@@ -39,8 +39,15 @@ LIMIT_WORDS = ("source", "controller output current", "bank charge rate", "volta
 
 @kernel
 def regulate(i_free_a, free_limit, soc, emf_v, r_ohm, i_ctrl_a, i_rate_a, v_abs_v, v_float_v, accept_start_soc,
-             room_a, hold_a, stage_in, regulated):  # pragma: no cover - compiled
-    """The bank current, stage code and limit code at one condition.
+             room_a, hold_a, stage_in, regulated, load_a):  # pragma: no cover - compiled
+    """The charge current, stage code and limit code at one condition.
+
+    The charge current is what the controller puts out at the bank, where
+    the loads draw ``load_a`` in parallel with the bank: the bank's own
+    limits (its charge rate, its acceptance near full, the constant-voltage
+    law) bind the bank's part, the current less the load, so a controller
+    holding the bank at its voltage also carries the load while the array can.
+    The controller's output limit and the room in the step bind the whole.
 
     Parameters
     ----------
@@ -82,6 +89,9 @@ def regulate(i_free_a, free_limit, soc, emf_v, r_ohm, i_ctrl_a, i_rate_a, v_abs_
     regulated : bool
         False for a direct connection: nothing limits the current, and the
         limit code says which bound it breaks.
+    load_a : float
+        The current the loads draw at the bank [A] (0 at a single operating
+        point, or while a generator carries them).
 
     Returns
     -------
@@ -95,16 +105,20 @@ def regulate(i_free_a, free_limit, soc, emf_v, r_ohm, i_ctrl_a, i_rate_a, v_abs_
     if hold_a < np.inf:
         i_cv = hold_a
     else:
-        i_cv = min(max((v_target_v - emf_v) / r_ohm, 0.0), share * i_rate_a)
+        # The bank's part at the held voltage (negative where its EMF stands
+        # above it: the bank then helps carry the load), within its acceptance.
+        i_cv = max(load_a + min((v_target_v - emf_v) / r_ohm, share * i_rate_a), 0.0)
+    i_rate_cap = load_a + i_rate_a
     if not regulated:
         i = i_free_a
+        own = i - load_a  # the bank's part
         if i > room_a:
             limit = NONE_FULL
-        elif i > 0.0 and i_rate_a <= 0.0:
+        elif own > 0.0 and i_rate_a <= 0.0:
             limit = NONE_COLD
-        elif i > i_rate_a:
+        elif own > i_rate_a:
             limit = NONE_RATE
-        elif emf_v + i * r_ohm > v_target_v:
+        elif emf_v + own * r_ohm > v_target_v:
             limit = NONE_OVER_V
         else:
             limit = NONE
@@ -112,13 +126,13 @@ def regulate(i_free_a, free_limit, soc, emf_v, r_ohm, i_ctrl_a, i_rate_a, v_abs_
             limit = DARK
         stage = UNREGULATED if i > 0.0 else (DISCHARGING if i < 0.0 else IDLE)
         return i, stage, limit
-    i_max = min(min(i_ctrl_a, i_rate_a), min(i_cv, room_a))
+    i_max = min(min(i_ctrl_a, i_rate_cap), min(i_cv, room_a))
     if i_free_a > i_max:
-        if i_rate_a <= 0.0:
+        if i_rate_a <= 0.0 and i_max == i_rate_cap:
             limit = BANK_COLD  # the bank's charge rate is zero only below its minimum charging temperature
         elif i_max == room_a:
             limit = BANK_FULL
-        elif i_max == i_rate_a:
+        elif i_max == i_rate_cap:
             # Before the constant-voltage test: the acceptance equals the rate
             # until the taper starts, and that is still bulk.
             limit = BANK_RATE
@@ -204,7 +218,7 @@ def next_stage(stage, absorption_h, limit, i_bank_a, i_free_a, soc_next, step_h,
 
 @kernel
 def _regulate_each(i_free, free_limit, soc, emf, r, i_ctrl, i_rate, v_abs, v_float, start, room, hold, stage_in,
-                   regulated):  # pragma: no cover - compiled
+                   regulated, load):  # pragma: no cover - compiled
     n = i_free.shape[0]
     i_bank = np.empty(n)
     stage = np.empty(n, np.int8)
@@ -212,17 +226,17 @@ def _regulate_each(i_free, free_limit, soc, emf, r, i_ctrl, i_rate, v_abs, v_flo
     for k in range(n):
         i_bank[k], stage[k], limit[k] = regulate(i_free[k], free_limit[k], soc[k], emf[k], r[k], i_ctrl,
                                                  i_rate[k], v_abs[k], v_float[k], start, room[k], hold[k],
-                                                 stage_in[k], regulated)
+                                                 stage_in[k], regulated, load[k])
     return i_bank, stage, limit
 
 
 def regulate_arrays(i_free_a, free_limit, soc, emf_v, r_ohm, i_ctrl_a, i_rate_a, v_abs_v, v_float_v,
-                    accept_start_soc, room_a, hold_a, stage_in, regulated):
+                    accept_start_soc, room_a, hold_a, stage_in, regulated, load_a=0.0):
     """:func:`regulate` over arrays (N,) that broadcast; returns (i_bank_a, stage, limit), codes as int8."""
     arrays = np.broadcast_arrays(*(np.asarray(a, float) for a in (i_free_a, soc, emf_v, r_ohm, i_rate_a,
-                                                                  v_abs_v, v_float_v, room_a, hold_a)),
+                                                                  v_abs_v, v_float_v, room_a, hold_a, load_a)),
                                  np.asarray(free_limit, np.int64), np.asarray(stage_in, np.int64))
-    i_free, soc, emf, r, i_rate, v_abs, v_float, room, hold, free_limit, stage_in = (
+    i_free, soc, emf, r, i_rate, v_abs, v_float, room, hold, load, free_limit, stage_in = (
         np.ascontiguousarray(a).ravel() for a in arrays)
     return _regulate_each(i_free, free_limit, soc, emf, r, float(i_ctrl_a), i_rate, v_abs, v_float,
-                          float(accept_start_soc), room, hold, stage_in, bool(regulated))
+                          float(accept_start_soc), room, hold, stage_in, bool(regulated), load)

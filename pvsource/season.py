@@ -30,8 +30,8 @@ from pvsource.errors import InputError
 from pvsource.inputs import release_memory
 from pvsource.module import model_notes
 from pvsource.operating import CHUNK_SIZE, operating_points
-from pvsource.regulation import (ABSORPTION, BANK_FULL, BULK, FLOAT, NONE_FULL, SOURCE, STAGE_WORDS, VOLTAGE_REGULATION,
-                                 next_stage, regulate)
+from pvsource.regulation import (ABSORPTION, BANK_FULL, BULK, FLOAT, LIMIT_WORDS, NONE_FULL, SOURCE, STAGE_WORDS,
+                                 VOLTAGE_REGULATION, next_stage, regulate)
 from pvsource.system import System
 
 # States of charge at which the charge current is solved before the time loop
@@ -136,6 +136,14 @@ class TimeLoop:
     hold_a : where a constant voltage holds, the current averaged over the step; infinite elsewhere [A]
     coulombic_loss_a : the charge current that does not reach the state of charge (step mean) [A]
     load_disconnected : the share of each step the loads were cut off [-]
+    load_a : array (N,)
+        The loads' current at the bank that the step's charge was regulated
+        with: the controller may carry it beside the bank's own limits (none
+        while a generator carries the loads or the disconnect has cut them off) [A].
+    held_share, limit_before : arrays (N,)
+        Where a step reaches the held voltage within it: the share of the
+        step under voltage regulation, and the limit code of the part before
+        (1 and unused elsewhere), so hours by limit split the step too.
     stage_shares : array (N, 3)
         The share of each step the controller spent in bulk, absorption and
         float [-], in time rather than by the stage the step began in (zero
@@ -154,7 +162,10 @@ class TimeLoop:
     hold_a: np.ndarray
     coulombic_loss_a: np.ndarray
     load_disconnected: np.ndarray
+    load_a: np.ndarray
     stage_shares: np.ndarray
+    held_share: np.ndarray
+    limit_before: np.ndarray
     end: BankState
     generator: dict | None = None
 
@@ -194,26 +205,27 @@ def _held_step(i_charge, holding, load_a, soc, e, slope_e, cell_top, r_bank, v_t
     surplus = i_charge - load_a
     start_at = 0.0
     reached = 0.0
-    if holding and v_target <= e and slope_e > 0.0:
-        # The EMF above the target: the load drains the bank, with no
-        # current from the controller, until the EMF falls to it.
-        drop = (e - v_target) / slope_e
+    if holding and v_target + load_a * r_bank <= e and slope_e > 0.0:
+        # The EMF so far above the target that the bank carries the whole
+        # load: no current from the controller until the EMF falls to where
+        # the held voltage takes over part of it.
+        drop = (e - v_target - load_a * r_bank) / slope_e
         fall = per_ah * load_a
         if fall <= drop:
             return 0.0, 0.0, 0.0, 0.0, 0.0, 1.0  # no current: at or below the tail throughout
         start_at = drop / fall
         soc -= drop
-        e = v_target
+        e = v_target + load_a * r_bank
         i_charge = 0.0
         surplus = -load_a
     elif not holding:
         if surplus <= 0.0:
             return i_charge, i_charge, i_charge, 1.0, 0.0, 0.0
-        # Where the held current would fall to what the source now gives.
-        soc_star = 1.0 - i_charge * (1.0 - start) / i_rate
+        # Where the bank's held part would fall to what the source now gives it (the load beside it).
+        soc_star = 1.0 - surplus * (1.0 - start) / i_rate
         if slope_e > 0.0:
             # The EMF's slope holds within its grid cell only (cell_top: the cell's upper state of charge).
-            soc_law = soc + (v_target - i_charge * r_bank - e) / slope_e
+            soc_law = soc + (v_target - surplus * r_bank - e) / slope_e
             if soc_law <= cell_top:
                 soc_star = min(soc_star, soc_law)
         rise = per_ah * coulombic * surplus
@@ -239,11 +251,13 @@ def _held_step(i_charge, holding, load_a, soc, e, slope_e, cell_top, r_bank, v_t
             return load_a + (before + moved) / c, i_cap, i_cap, reached, rest, 1.0 - reached - rest
     moved = surplus / -slope * (1.0 - np.exp(c * slope * rest)) if slope < 0.0 else c * surplus * rest
     i_end = i_charge + slope * moved
+    # The tail is the bank's own current, the held current less the load
+    # beside it (a controller with a battery monitor, or with no load on its bus).
     above = rest
-    if i_charge <= tail_a:
+    if surplus <= tail_a:
         above = 0.0  # held from at or below the tail: absorption is over as soon as the voltage is reached
-    elif slope < 0.0 and load_a < tail_a:
-        above = min(rest, np.log((tail_a - load_a) / (i_charge - load_a)) / (c * slope))
+    elif slope < 0.0 and tail_a > 0.0:
+        above = min(rest, np.log(tail_a / surplus) / (c * slope))
     # What is left is at or below the tail: the time the held current waited
     # (no current while a load drew the EMF down to the target) and after the taper.
     return (load_a + (before + moved) / c, i_end, load_a + (i_end - load_a) * np.exp(0.5 * c * slope), reached, above,
@@ -304,6 +318,10 @@ def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, a
     lost = np.zeros(n)
     shed = np.zeros(n)
     shares = np.zeros((n, 3))
+    served = np.zeros(n)
+    # Where a step reaches the held voltage: the share under it, and what limited the charge before.
+    held_share = np.ones(n)
+    before_limit = np.full(n, SOURCE, np.int8)
     j = 0
     for k in range(n):
         soc_path[k] = soc
@@ -317,11 +335,13 @@ def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, a
         load_a = w_load / e
         # What fills the bank within the step, the load served on the way
         # included (unless a running generator carries it).
-        room = (0.0 if running else load_a) + (1.0 - soc) / (per_ah * coulombic)
+        on_bank = 0.0 if running else load_a  # the load the controller may carry beside the bank's own limits
+        room = on_bank + (1.0 - soc) / (per_ah * coulombic)
         # The grid carries only the smooth, unlimited current: the limits
         # apply here, exact in the state of charge.
         i_charge, _, limit = regulate(i_free, SOURCE, soc, e, r_bank, i_ctrl, i_rate, v_abs, v_float, start, room,
-                                      np.inf, stage, regulated)
+                                      np.inf, stage, regulated, on_bank)
+        served[k] = on_bank
         if has_gen > 0.0 and (running or soc - 1.1 * load_a * per_ah <= g_start):
             # The generator's steps (it runs, or the load alone could bring
             # the bank to its start within the step; 10 % margin for the
@@ -333,7 +353,7 @@ def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, a
                 i_charge = room
             # The generator's charger tops the array up to the bank's own limit, whatever the controller.
             i_bank = regulate(np.inf, SOURCE, soc, e, r_bank, np.inf, i_rate, v_abs, v_float, start, np.inf, np.inf,
-                              stage, True)[0]
+                              stage, True, 0.0)[0]
             before = soc
             soc, running, run_h, run_frac[k], starts[k], gen_a[k], lost_ah = generator_step(
                 soc, running, run_h, i_charge, load_a, min(g_amps, gen_power_w[k] / e), i_bank, step_h,
@@ -350,8 +370,8 @@ def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, a
                 elif disconnected and soc >= reconnect_soc:
                     disconnected = False
             if regulated:
-                stage, absorption_h = next_stage(stage, absorption_h, limit, i_charge, i_free, soc, step_h, tail_a,
-                                                 max_absorption_h, rebulk_soc)
+                stage, absorption_h = next_stage(stage, absorption_h, limit, i_charge - on_bank, i_free, soc, step_h,
+                                                 tail_a, max_absorption_h, rebulk_soc)
                 _stage_shares(shares[k], stage_in, stage, 1.0, 0.0, absorption_in, max_absorption_h, step_h, soc_in,
                               soc, rebulk_soc)
             continue
@@ -363,7 +383,7 @@ def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, a
         if limit == BANK_FULL and regulated:
             # Would fill within the step: unless the constant voltage is reached first.
             i_charge, _, limit = regulate(i_free, SOURCE, soc, e, r_bank, i_ctrl, i_rate, v_abs, v_float, start,
-                                          np.inf, np.inf, stage, regulated)
+                                          np.inf, np.inf, stage, regulated, load_a)
         if limit == NONE_FULL:
             cap[k] = room
             i_charge = room  # past full, an unregulated charge is not stored
@@ -372,7 +392,7 @@ def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, a
             slope_e = (emf[j + 1, k] - emf[j, k]) / (grid[j + 1] - grid[j])
             i_avg, i_end, i_ahead, held, above, after = _held_step(i_charge, limit == VOLTAGE_REGULATION, load_a, soc, e,
                                                             slope_e, grid[j + 1], r_bank, v_target, i_rate, start, per_ah, coulombic,
-                                                     min(i_free, min(i_ctrl, i_rate)), tail_a)
+                                                     min(i_free, min(i_ctrl, load_a + i_rate)), tail_a)
             if held < 1.0 and load_a + (1.0 - soc) / (per_ah * coulombic) < i_avg:
                 # Even so it fills within the step.
                 held = 1.0
@@ -382,6 +402,8 @@ def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, a
                 i_charge = room
             elif held < 1.0:
                 # The constant voltage held for this share of the step: it carries the average current.
+                held_share[k] = 1.0 - held
+                before_limit[k] = limit
                 limit = VOLTAGE_REGULATION
                 held_h = (1.0 - held) * step_h
                 i_charge = i_avg
@@ -408,7 +430,8 @@ def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, a
             i_free, e = _at(grid, free, emf, jm, k, mid)
             load_a = w_load / e
             i_charge, _, limit = regulate(i_free, SOURCE, mid, e, r_bank, i_ctrl, i_rate, v_abs, v_float, start,
-                                          room, np.inf, stage, regulated)
+                                          room, np.inf, stage, regulated, load_a)
+            served[k] = load_a
             if limit == BANK_FULL or limit == NONE_FULL:
                 cap[k] = room
                 i_charge = room
@@ -454,12 +477,12 @@ def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, a
         # Where the exact pass evaluates the step.
         mid_path[k] = mid
         if regulated:
-            stage, absorption_h = next_stage(stage, absorption_h, limit, i_end, i_free, soc, held_h, tail_a,
+            stage, absorption_h = next_stage(stage, absorption_h, limit, i_end - load_a, i_free, soc, held_h, tail_a,
                                              max_absorption_h, rebulk_soc)
             _stage_shares(shares[k], stage_in, stage, held, after, absorption_in, max_absorption_h, step_h, before,
                           soc, rebulk_soc)
     return (soc_path, mid_path, stage_path, unmet, cap, hold, lost, shed, soc, stage, absorption_h, run_frac, starts,
-            gen_a, running, run_h, disconnected, shares)
+            gen_a, running, run_h, disconnected, shares, served, held_share, before_limit)
 
 
 def integrate_soc(charge_grid_a, emf_grid_v, load_w, step_h: float, capacity_ah: float, coulombic: float,
@@ -527,7 +550,7 @@ def integrate_soc(charge_grid_a, emf_grid_v, load_w, step_h: float, capacity_ah:
         gen_tuple = (1.0, generator.start_soc, generator.stop_soc, generator.min_run_h, amps,
                      float(state.generator_running), float(state.generator_run_h))
     (soc, mid, stage, unmet, cap, hold, lost, shed, end_soc, end_stage, end_h, run_frac, starts, gen_a, running,
-     run_h, disconnected, shares) = _soc_kernel(grid, np.ascontiguousarray(charge_grid_a, dtype=float),
+     run_h, disconnected, shares, served, held_share, before_limit) = _soc_kernel(grid, np.ascontiguousarray(charge_grid_a, dtype=float),
                           np.ascontiguousarray(emf_grid_v, dtype=float), loads, float(step_h), step_h / capacity_ah,
                           float(coulombic), float(state.soc), int(state.stage), float(state.absorption_h),
                           tuple(float(v) for v in limits), tuple(float(v) for v in stages), bool(regulated),
@@ -535,7 +558,7 @@ def integrate_soc(charge_grid_a, emf_grid_v, load_w, step_h: float, capacity_ah:
                           tuple(float(v) for v in (disconnect or (0.0, 1.0))), bool(state.load_disconnected))
     end = BankState(float(end_soc), int(end_stage), float(end_h), bool(running), float(run_h), bool(disconnected))
     run = None if generator is None else {"running": run_frac, "starts": starts, "charge_a": gen_a}
-    return TimeLoop(soc, mid, stage, unmet, cap, hold, lost, shed, shares, end, run)
+    return TimeLoop(soc, mid, stage, unmet, cap, hold, lost, shed, served, shares, held_share, before_limit, end, run)
 
 
 def loop_settings(system: System):
@@ -902,7 +925,7 @@ def run_season(system: System, weather: pd.DataFrame, *, transposition: str = "p
         # A study of nothing must not look like a result.
         why = steps["limit"].value_counts().index[0] if len(steps) else "unknown"
         cold = summary["alert_hours"]["charge_below_min_temp"]
-        raise InputError(system.source, "[array]",
+        raise InputError(system.source, "[bank] temp_c" if cold > 0 else "[array]",
                          f"the array never charged the bank over the whole span (most often limited by: {why}); "
                          + (f"the bank's temp_c {system.bank.temp_c:g} degC is below its minimum charging temperature "
                             f"{system.bank.chemistry.min_charge_temp_c:g} degC for the {cold:,.0f} h it could have "
@@ -926,7 +949,7 @@ def _solve_span(system: System, weather: pd.DataFrame, load_w: np.ndarray, step_
         del charge_grid, emf_grid
         state = loop.end
         steps = operating_points(system, g, t, soc=loop.mid_soc, charge_cap_a=loop.cap_a, hold_a=loop.hold_a,
-                                 stage=loop.stage, drift_check=False)
+                                 stage=loop.stage, load_a=loop.load_a, drift_check=False)
         if gen is not None:
             steps = _with_generator(steps, gen, loop.generator, load_w)
     else:
@@ -940,10 +963,15 @@ def _solve_span(system: System, weather: pd.DataFrame, load_w: np.ndarray, step_
         # The share of the stored energy (E I) that never reaches the state of charge.
         steps["coulombic_loss_w"] = steps["bank_emf_v"].to_numpy() * loop.coulombic_loss_a
         steps["load_disconnected"] = loop.load_disconnected
+        # The loads' current beside the bank's own charge (the bank's part is charge_current_a less it).
+        steps["bank_load_a"] = loop.load_a
         if regulated:
             # The share of each step in each charge stage, by time: hours by stage are their sums.
             for code in STAGE_SHARED:
                 steps[stage_share_column(code)] = loop.stage_shares[:, code - BULK].astype(np.float32)
+            # A step that reaches the held voltage is under it only for a share: hours by limit split it.
+            steps["limit_share"] = loop.held_share.astype(np.float32)
+            steps["limit_before"] = pd.Categorical.from_codes(loop.limit_before, LIMIT_WORDS)
     return steps, state
 
 
@@ -1026,7 +1054,7 @@ def _span_stats(steps: pd.DataFrame, step_h: float, whole_span: bool = True) -> 
         out["p95_charge_current_a"] = float(np.percentile(positive, 95)) if positive.size else 0.0
         if whole_span:
             out["hours_by_stage"] = _stage_hours(steps, "stage", step_h)
-            out["hours_by_limit"] = _hours_by(steps["limit"], step_h)
+            out["hours_by_limit"] = _limit_hours(steps, "limit", step_h)
     if "soc" in steps:
         soc = steps["soc"].to_numpy()
         out["min_soc"] = float(soc.min())
@@ -1066,7 +1094,7 @@ def controller_summaries(system: System, steps: pd.DataFrame, step_h: float, who
                "controller_loss_kwh": kwh(steps[col("loss_w")].to_numpy()),
                "charge_ah": float(np.nansum(current) * step_h),
                "peak_charge_current_a": float(np.nanmax(current)) if len(current) else 0.0,
-               "hours_by_limit": _hours_by(steps[col("limit")], step_h)}
+               "hours_by_limit": _limit_hours(steps, col("limit"), step_h)}
         if whole_span:
             rec["hours_by_stage"] = _stage_hours(steps, col("stage"), step_h)
         out.append(rec)
@@ -1076,6 +1104,28 @@ def controller_summaries(system: System, steps: pd.DataFrame, step_h: float, who
 def _hours_by(codes: pd.Series, step_h: float) -> dict:
     """Hours in each stage or limit that occurs, longest first, by its words."""
     return {str(k): float(v) * step_h for k, v in codes.value_counts().items() if v > 0}
+
+
+def _limit_hours(steps: pd.DataFrame, column: str, step_h: float) -> dict:
+    """Hours under each limit, longest first: a step that reached the held voltage split at that moment.
+
+    Such a step is labelled voltage regulation; ``limit_share`` of it was,
+    and the rest was under ``limit_before`` (the source, the controller's
+    output, the bank's rate), so an hour-long step counts as its minutes do.
+    """
+    hours = _hours_by(steps[column], step_h)
+    if "limit_share" not in steps:
+        return hours
+    held = LIMIT_WORDS[VOLTAGE_REGULATION]
+    share = steps["limit_share"].to_numpy(float)
+    split = (steps[column] == held).to_numpy() & (share < 1.0)
+    if split.any():
+        moved = pd.Series((1.0 - share[split]) * step_h).groupby(
+            np.asarray(steps["limit_before"].to_numpy()[split], dtype=object)).sum()
+        for word, h in moved.items():
+            hours[held] -= h
+            hours[str(word)] = hours.get(str(word), 0.0) + h
+    return dict(sorted(((k, v) for k, v in hours.items() if v > 0.0), key=lambda kv: -kv[1]))
 
 
 def _stage_hours(steps: pd.DataFrame, column: str, step_h: float) -> dict:

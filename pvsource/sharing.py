@@ -167,7 +167,7 @@ def solve_shared(nets, controllers, bank: BankPoint, r_feeders_ohm, r_bank_cable
         top = own_limit[own.argmax(axis=0), np.arange(n)]
         i_bank, stage, limit = reg.regulate_arrays(
             own.sum(axis=0), top, bank.soc, bank.emf_v, bank.r_ohm, np.inf, bank.max_charge_a, bank.absorption_v,
-            bank.float_v, bank.accept_start_soc, room, bank.hold(), bank.stage, True)
+            bank.float_v, bank.accept_start_soc, room, bank.hold(), bank.stage, True, bank.load())
         wanted = share_pro_rata(own, i_bank)
         ops = [c.operate(net, f, b, w, r_f, r_bc) for c, net, f, b, w, r_f, r_bc
                in zip(controllers, nets, frees, banks, wanted, r_feeders_ohm, r_bank_cables_ohm)]

@@ -348,13 +348,25 @@ def test_a_season_whose_bank_is_too_cold_to_charge_says_why():
     from pvsource.season import run_season
 
     base = demo_system()
-    # LFP charges from 0 degC (common practice): a bank kept at -5 degC never charges.
+    # LFP charges from 0 degC (common practice): a bank kept at -5 degC never charges. The array still
+    # carries the loads by day (Kirchhoff at the bank terminals: the controller gives what they draw), so the
+    # study is a result, led by the cold-charge alert, and the bank only ever loses charge.
     system = replace(base, bank=replace(base.bank, temp_c=-5.0))
     weather = synthetic_weather(system)
     weather = weather[weather.index < weather.index[0] + np.timedelta64(3, "D")]
+    result = run_season(system, weather)
+    s = result.summary
+    assert s["alert_hours"]["charge_below_min_temp"] > 5.0
+    assert s["energy_delivered_kwh"] > 0.0 and s["max_soc"] == pytest.approx(base.bank.soc)
+    own = (result.steps["charge_current_a"] - result.steps["bank_load_a"]).to_numpy()
+    assert own.max() <= 1e-9  # the bank's own current never charges
+    assert set(result.steps["limit"].astype(str)) >= {"bank below its minimum charging temperature: charging blocked"}
+    # With no load at all nothing flows: no study, and the message names the bank's temperature.
+    idle = weather.assign(load_w=0.0)
     with pytest.raises(InputError, match=r"never charged the bank.*temp_c -5 degC is below its minimum charging "
-                                         r"temperature 0 degC for the [1-9][0-9,]* h it could have charged"):
-        run_season(system, weather)
+                                         r"temperature 0 degC for the [1-9][0-9,]* h it could have charged") as exc:
+        run_season(system, idle)
+    assert exc.value.field == "[bank] temp_c"
 
 
 def test_season_text_leads_with_alert_hours():

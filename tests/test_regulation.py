@@ -9,9 +9,9 @@ INF = float("inf")
 
 
 def cv(i_free, soc, emf, r, v_target, i_ctrl=INF, i_rate=INF, start=0.5, room=INF, stage=reg.BULK, regulated=True,
-       free_limit=reg.SOURCE):
+       free_limit=reg.SOURCE, load=0.0):
     return reg.regulate(i_free, free_limit, soc, emf, r, i_ctrl, i_rate, v_target, v_target, start, room, INF,
-                        stage, regulated)
+                        stage, regulated, load)
 
 
 def test_constant_voltage_current_is_ohms_law_in_a_worked_example():
@@ -31,7 +31,7 @@ def test_constant_voltage_current_is_ohms_law_in_a_worked_example():
     assert cv(100.0, 0.5, 13.160, 0.0032, 13.200, stage=reg.FLOAT)[1] == reg.FLOAT
     # The float target, not the absorption one, when the controller floats.
     i, _, _ = reg.regulate(100.0, reg.SOURCE, 0.5, 13.160, 0.0032, INF, INF, 14.0, 13.168, 0.5, INF, INF, reg.FLOAT,
-                           True)
+                           True, 0.0)
     assert i == pytest.approx(2.5, rel=1e-9)
 
 
@@ -120,3 +120,28 @@ def test_stage_hysteresis_law_worked_by_hand():
     # The absorption clock stops at night (nothing from the array) and restarts at the next bulk.
     stages, _, hours = _walk([(vr, 20.0, 40.0, 0.9)] * 2 + [(src, 0.0, 0.0, 0.9)] * 5, 1.0)
     assert stages[-1] == A and hours == 2.0
+
+
+def test_the_bank_limits_bind_the_banks_part_and_the_controller_carries_the_load():
+    # Kirchhoff's current law at the bank terminals: the controller's output is the bank's current plus the
+    # loads'. The bank's limits bind its own part. Worked by hand on the LFP example above (E 13.160 V,
+    # R 0.0032 ohm, target 13.200 V, so the bank takes (13.200 - 13.160) / 0.0032 = 12.5 A) with a 5 A load:
+    # the controller gives 17.5 A and the terminal stays at the target.
+    i, stage, limit = cv(100.0, 0.5, 13.160, 0.0032, 13.200, load=5.0)
+    assert i == pytest.approx(17.5) and limit == reg.VOLTAGE_REGULATION
+    assert 13.160 + (i - 5.0) * 0.0032 == pytest.approx(13.200)
+    # The acceptance near full (rate 40 A, taper from 80 %: at 97.6 % the bank accepts 40 x 0.024 / 0.2 =
+    # 4.8 A) binds the bank's part, not the whole: with a 4.74 A load the controller gives 9.54 A, so the bank
+    # still fills (it used to give 4.8 A in all, and the bank stalled where acceptance met the load).
+    i, _, limit = cv(100.0, 0.976, 12.0, 0.01, 14.4, i_rate=40.0, start=0.8, load=4.74)
+    assert i == pytest.approx(4.74 + 4.8) and limit == reg.VOLTAGE_REGULATION
+    # The charge rate binds the bank's part too; the controller's own output limit binds the whole.
+    assert cv(100.0, 0.3, 12.0, 0.01, 14.4, i_rate=20.0, load=3.0)[0::2] == (23.0, reg.BANK_RATE)
+    assert cv(100.0, 0.3, 12.0, 0.01, 14.4, i_ctrl=21.0, i_rate=20.0, load=3.0)[0::2] == (21.0, reg.CONTROLLER_OUTPUT)
+    # The EMF above the target (after absorption, now floating): the bank gives (13.160 - 13.168) / 0.0032 =
+    # -2.5 A toward the 5 A load and the controller the other 2.5 A; with a 2 A load, the controller nothing.
+    assert cv(100.0, 0.5, 13.168, 0.0032, 13.160, load=5.0)[0] == pytest.approx(2.5)
+    assert cv(100.0, 0.5, 13.168, 0.0032, 13.160, load=2.0)[0] == 0.0
+    # Too cold to charge: the bank takes nothing, the controller may still carry the load.
+    i, _, limit = cv(100.0, 0.3, 12.0, 0.01, 14.4, i_rate=0.0, load=3.0)
+    assert i == pytest.approx(3.0) and limit == reg.BANK_COLD
