@@ -384,6 +384,8 @@ def _equipment_block(system, summary: dict) -> str:
         parts.append(f"<div><h3>Battery bank</h3>{pairs(rows)}</div>")
     if system.generator is not None:
         parts.append(f"<div><h3>Backup generator</h3>{pairs(_generator_rows(system.generator))}</div>")
+    if b is not None:
+        # A bank's load is the weather file's load column, whatever else the system holds.
         load = summary.get("load_kwh") or 0.0
         text = (f"The bank feeds a load of {fmt(load, 1, 'kWh')} over the span, from the weather file's load column."
                 if load > 0 else "The bank feeds no load (the weather file has no load column).")

@@ -61,6 +61,9 @@ def test_the_system_section_says_what_was_studied(written, winter_run):
     # Each cable with its size, one-way length and material.
     for size, length in (("4 mm²", "6.0"), ("6 mm²", "22.0"), ("25 mm²", "2.0")):
         assert re.search(rf"{size}\s+{length}\s+copper", part), size
+    # The demo's bank (no generator) feeds the weather file's load, and the page says so.
+    load = winter_run[2].summary["load_kwh"]
+    assert f"The bank feeds a load of {load:,.1f} kWh" in part and "maximum-power tracker at the end" not in part
 
 
 def test_labels_are_words_not_keys(written):
