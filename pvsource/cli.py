@@ -684,6 +684,10 @@ def explore(
             written.append(pareto_figure(ranked, folder / "pareto.png"))
         run.finish(written)
     _unpriced_notes(ranked, prices)
+    if "bank_class_v" in choices and system.generator is not None and system.generator.charger_current_a is not None:
+        note("--vary", "bank_class_v", f"the generator's charger keeps its power: its charger_current_a "
+                                       f"({system.generator.charger_current_a:g} A in the file) is scaled by the "
+                                       "bank's voltage class; a controller's max_output_a stays in amps")
     rows = json_ready(ranked.to_dict(orient="records"))
     if as_json:
         _emit_json({"rows": rows, "out": str(folder), "cautions": cautions.for_command("explore", system)})

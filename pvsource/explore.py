@@ -139,7 +139,14 @@ def apply(system: System, combo: dict) -> System:
         elif key == "bank_capacity_ah":
             system = replace(system, bank=replace(system.bank, capacity_ah=value))
         elif key == "bank_class_v":
-            system = replace(system, bank=bank_model.with_nominal_class(system.bank, value))
+            bank = bank_model.with_nominal_class(system.bank, value)
+            gen = system.generator
+            if gen is not None and gen.charger_current_a is not None:
+                # The same charger power at the new voltage: a set's charger is chosen by its power,
+                # and keeping its amps would hand a 48 V bank four times a 12 V bank's charge.
+                ratio = system.bank.cells_in_series / bank.cells_in_series
+                gen = replace(gen, charger_current_a=gen.charger_current_a * ratio)
+            system = replace(system, bank=bank, generator=gen)
         elif key == "controller":
             system = replace(system, controller=with_kind(system.controller, value))
         elif key.startswith("size:"):

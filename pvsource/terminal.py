@@ -508,8 +508,9 @@ def render_explore(ranked, folder, years: float | None = None, caution_items=Non
     generator and holds in reserve, and its lifetime cost (the parts are columns of the results files)."""
     from pvsource.explore import COST_COLUMNS, RESULTS
 
-    shown = {"energy_delivered_kwh_per_year": ("delivered/yr", 12, 1), "wiring_loss_kwh_per_year": ("cable loss", 10, 2),
-             "unmet_load_kwh_per_year": ("unmet/yr", 9, 1), "generator_hours_per_year": ("gen h/yr", 8, 0),
+    shown = {"energy_delivered_kwh_per_year": ("kWh/yr out", 12, 1),
+             "wiring_loss_kwh_per_year": ("cable kWh/yr", 12, 2),
+             "unmet_load_kwh_per_year": ("unmet kWh/yr", 12, 1), "generator_hours_per_year": ("gen h/yr", 8, 0),
              "autonomy_days": ("autonomy d", 10, 1), "lifetime_cost": ("lifetime cost", 13, 2)}
     choice_cols = list(ranked.columns[:ranked.columns.get_loc("excluded")].drop(["rank", "id"], errors="ignore"))
     lines = [f"pvsource design search: {len(ranked)} combinations, {int((~ranked['excluded']).sum())} feasible"]
@@ -532,6 +533,8 @@ def render_explore(ranked, folder, years: float | None = None, caution_items=Non
     over = f" over {years:g} years" if years is not None else ""
     lines.append(f"\nlifetime cost{over}: conductor metal and the bank once; cable loss, generator fuel and unmet "
                  f"load each year. Its parts ({', '.join(COST_COLUMNS)}) are columns of {' and '.join(RESULTS)}.")
+    lines.append("kWh/yr out: energy delivered into the bank or load per year; cable kWh/yr: lost in the cables; "
+                 "unmet kWh/yr: load not supplied; gen h/yr: generator run hours; autonomy d: days.")
     lines.append("autonomy: the bank's usable energy (down to the state of charge its loads are disconnected at) "
                  "over the mean daily load.")
     lines.append("* on the front: no other combination is both cheaper over its life and delivers more.")

@@ -482,3 +482,21 @@ def test_a_hybrid_hut_prices_its_generator_fuel_and_shows_its_hours(capsys, tmp_
     first = lines[3].split()
     assert first[:2] == ["1", "100.0"]
     assert float(first[5].replace(",", "")) == pytest.approx(round(rows[100.0]["generator_hours_per_year"]))
+
+
+def test_a_bank_voltage_class_keeps_the_generator_chargers_power():
+    # P = V x I: a charger chosen by its power gives a 12 V bank twice the current it gives a 24 V one. Keeping
+    # its amps would rank the 48 V bank first for a charger four times the 12 V one's power.
+    from conftest import DATA
+    from pvsource.bank import NOMINAL_CELL_V
+    from pvsource.config import load_system
+    from pvsource.explore import apply
+
+    hut = load_system(DATA / "example-hut-generator.toml")  # LFP, 8 cells (24 V class), 40 A charger
+    v_cell = NOMINAL_CELL_V["lfp"]
+    power = hut.generator.charger_current_a * hut.bank.cells_in_series * v_cell
+    for volts, amps in ((12.0, 80.0), (24.0, 40.0), (48.0, 20.0)):
+        system = apply(hut, {"bank_class_v": volts})
+        assert system.generator.charger_current_a == pytest.approx(amps)
+        assert system.generator.charger_current_a * system.bank.cells_in_series * v_cell == pytest.approx(power)
+        assert system.controller.max_output_a == hut.controller.max_output_a  # a controller's rating is in amps
