@@ -158,18 +158,18 @@ def regulate(i_free_a, free_limit, soc, emf_v, r_ohm, i_ctrl_a, i_rate_a, v_abs_
 
 @kernel
 def next_stage(stage, absorption_h, limit, i_bank_a, i_free_a, soc_next, step_h, tail_a, max_absorption_h,
-               rebulk_soc):  # pragma: no cover - compiled
+               rebulk_soc, ahead_h):  # pragma: no cover - compiled
     """The controller's stage after a step, and its time in absorption: the stages' hysteresis.
 
     - bulk, until the absorption voltage is reached (the constant-voltage law binds);
     - absorption, until the current held at the absorption voltage has
       tapered to the tail current, or after the maximum absorption time
       (counted in hours while the array gives something, so it does not
-      depend on the time step). Either is taken at the step nearest to it:
-      the time loop passes the current half a step ahead, and the last
-      step is the one that brings the time within half a step of the
-      maximum, so whole steps neither lengthen nor shorten absorption on
-      average;
+      depend on the time step). Where the time loop integrates a held step
+      it ends absorption within the step and passes the bank's current at
+      the step's end, and ``ahead_h`` is 0; elsewhere the time ends at the
+      step nearest to it: ``ahead_h`` is half a step, so whole steps neither
+      lengthen nor shorten absorption on average;
     - float, until the state of charge falls below the re-bulk threshold.
 
     A bank that fills within the step floats.
@@ -192,6 +192,8 @@ def next_stage(stage, absorption_h, limit, i_bank_a, i_free_a, soc_next, step_h,
         Step length [h].
     tail_a, max_absorption_h, rebulk_soc : float
         Tail current [A], maximum absorption time [h], re-bulk state of charge [-].
+    ahead_h : float
+        How far ahead of the time in absorption the maximum is judged [h].
 
     Returns
     -------
@@ -211,7 +213,7 @@ def next_stage(stage, absorption_h, limit, i_bank_a, i_free_a, soc_next, step_h,
         stage, absorption_h = ABSORPTION, 0.0
     if i_free_a > 0.0:
         absorption_h += step_h
-    if (limit == VOLTAGE_REGULATION and i_bank_a <= tail_a) or absorption_h + 0.5 * step_h >= max_absorption_h:
+    if (limit == VOLTAGE_REGULATION and i_bank_a <= tail_a) or absorption_h + ahead_h >= max_absorption_h:
         return FLOAT, absorption_h
     return ABSORPTION, absorption_h
 

@@ -190,7 +190,7 @@ def _at(grid, free, emf, j, k, soc):  # pragma: no cover - compiled
 
 @kernel
 def _held_step(i_charge, holding, load_a, soc, e, slope_e, cell_top, r_bank, v_target, i_rate, start, per_ah,
-               coulombic, i_cap, tail_a):  # pragma: no cover - compiled
+               coulombic, i_cap, tail_a, absorbing, left):  # pragma: no cover - compiled
     # A step at a constant voltage, or one that reaches it. Held, the current
     # falls as the bank fills, linearly in the state of charge (the
     # acceptance taper, or Ohm's law on the EMF's slope), so the state of
@@ -202,6 +202,11 @@ def _held_step(i_charge, holding, load_a, soc, e, slope_e, cell_top, r_bank, v_t
     # at or below the tail (none, before the voltage is reached). A load that drains the
     # bank draws the held current up toward it, but never above what the
     # source and the limits allow (i_cap): from there the source binds.
+    # ``absorbing``: the target is the absorption voltage, held only until
+    # the bank's current tapers to the tail or ``left`` (the share of the
+    # step absorption may still last) runs out; the rest of the step floats,
+    # the bank taking no more charge and the controller carrying the load,
+    # so a long step does not charge on at the absorption voltage.
     surplus = i_charge - load_a
     start_at = 0.0
     reached = 0.0
@@ -249,8 +254,6 @@ def _held_step(i_charge, holding, load_a, soc, e, slope_e, cell_top, r_bank, v_t
         if t_cap < rest:
             moved = surplus / -slope * (1.0 - np.exp(c * slope * t_cap)) + c * (i_cap - load_a) * (rest - t_cap)
             return load_a + (before + moved) / c, i_cap, i_cap, reached, rest, 1.0 - reached - rest
-    moved = surplus / -slope * (1.0 - np.exp(c * slope * rest)) if slope < 0.0 else c * surplus * rest
-    i_end = i_charge + slope * moved
     # The tail is the bank's own current, the held current less the load
     # beside it (a controller with a battery monitor, or with no load on its bus).
     above = rest
@@ -258,6 +261,14 @@ def _held_step(i_charge, holding, load_a, soc, e, slope_e, cell_top, r_bank, v_t
         above = 0.0  # held from at or below the tail: absorption is over as soon as the voltage is reached
     elif slope < 0.0 and tail_a > 0.0:
         above = min(rest, np.log(tail_a / surplus) / (c * slope))
+    if absorbing:
+        above = min(above, max(left, 0.0))
+        if above < rest:
+            # Absorption ends within the step: the bank is held only until then.
+            moved = surplus / -slope * (1.0 - np.exp(c * slope * above)) if slope < 0.0 else c * surplus * above
+            return load_a + (before + moved) / c, load_a, load_a, reached, above, 1.0 - reached - above
+    moved = surplus / -slope * (1.0 - np.exp(c * slope * rest)) if slope < 0.0 else c * surplus * rest
+    i_end = i_charge + slope * moved
     # What is left is at or below the tail: the time the held current waited
     # (no current while a load drew the EMF down to the target) and after the taper.
     return (load_a + (before + moved) / c, i_end, load_a + (i_end - load_a) * np.exp(0.5 * c * slope), reached, above,
@@ -371,7 +382,7 @@ def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, a
                     disconnected = False
             if regulated:
                 stage, absorption_h = next_stage(stage, absorption_h, limit, i_charge - on_bank, i_free, soc, step_h,
-                                                 tail_a, max_absorption_h, rebulk_soc)
+                                                 tail_a, max_absorption_h, rebulk_soc, 0.5 * step_h)
                 _stage_shares(shares[k], stage_in, stage, 1.0, 0.0, absorption_in, max_absorption_h, step_h, soc_in,
                               soc, rebulk_soc)
             continue
@@ -390,9 +401,11 @@ def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, a
         elif regulated and (i_charge > 0.0 or limit == VOLTAGE_REGULATION):
             v_target = v_float if stage == FLOAT else v_abs
             slope_e = (emf[j + 1, k] - emf[j, k]) / (grid[j + 1] - grid[j])
-            i_avg, i_end, i_ahead, held, above, after = _held_step(i_charge, limit == VOLTAGE_REGULATION, load_a, soc, e,
+            i_avg, i_end, _, held, above, after = _held_step(i_charge, limit == VOLTAGE_REGULATION, load_a, soc, e,
                                                             slope_e, grid[j + 1], r_bank, v_target, i_rate, start, per_ah, coulombic,
-                                                     min(i_free, min(i_ctrl, load_a + i_rate)), tail_a)
+                                                     min(i_free, min(i_ctrl, load_a + i_rate)), tail_a, stage != FLOAT,
+                                                     (max_absorption_h - (absorption_h if stage == ABSORPTION else 0.0))
+                                                     / step_h)
             if held < 1.0 and load_a + (1.0 - soc) / (per_ah * coulombic) < i_avg:
                 # Even so it fills within the step.
                 held = 1.0
@@ -408,7 +421,7 @@ def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, a
                 held_h = (1.0 - held) * step_h
                 i_charge = i_avg
                 hold[k] = i_avg
-                i_end = i_ahead
+                # The bank's current at the step's end: absorption ends within the step where it ends (_held_step).
                 if stage == BULK:
                     # The step's label: what most of it was (bulk, absorption, or float after the tail).
                     if held >= above and held >= 1.0 - held - above:
@@ -478,7 +491,7 @@ def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, a
         mid_path[k] = mid
         if regulated:
             stage, absorption_h = next_stage(stage, absorption_h, limit, i_end - load_a, i_free, soc, held_h, tail_a,
-                                             max_absorption_h, rebulk_soc)
+                                             max_absorption_h, rebulk_soc, 0.5 * held_h if held == 1.0 else 0.0)
             _stage_shares(shares[k], stage_in, stage, held, after, absorption_in, max_absorption_h, step_h, before,
                           soc, rebulk_soc)
     return (soc_path, mid_path, stage_path, unmet, cap, hold, lost, shed, soc, stage, absorption_h, run_frac, starts,

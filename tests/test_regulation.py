@@ -93,7 +93,8 @@ def _walk(steps, step_h, tail_a=2.0, max_h=4.0, rebulk=0.85):
     stage, hours, out = reg.BULK, 0.0, []
     for limit, i_bank, i_free, soc in steps:
         out.append(stage)
-        stage, hours = reg.next_stage(stage, hours, limit, i_bank, i_free, soc, step_h, tail_a, max_h, rebulk)
+        stage, hours = reg.next_stage(stage, hours, limit, i_bank, i_free, soc, step_h, tail_a, max_h, rebulk,
+                                      0.5 * step_h)
     return out, stage, hours
 
 
