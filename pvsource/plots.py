@@ -313,17 +313,22 @@ def charge_duration_figure(steps, step_h: float, path) -> Path:
     return save_atomically(fig, path)
 
 
-def soc_figure(steps, path) -> Path:
-    """State of charge through the span: the daily range as a band and the daily mean."""
+def soc_figure(steps, path, min_soc: float | None = None) -> Path:
+    """State of charge through the span: the daily range as a band and the daily mean.
+
+    ``min_soc``: where the low-voltage disconnect cuts the loads off, drawn as a dashed line.
+    """
     daily = steps["soc"].groupby(steps.index.normalize())
     lo, hi, mean = daily.min(), daily.max(), daily.mean()
     fig, ax = plt.subplots(figsize=(8.0, 3.4))
     ax.fill_between(lo.index, 100 * lo, 100 * hi, color=MARK, alpha=0.35, lw=0, label="daily range")
     ax.plot(mean.index, 100 * mean, color=EXACT, lw=1.0, label="daily mean")
+    if min_soc:
+        ax.axhline(100 * min_soc, color=LINEAR, lw=0.9, ls="--", label=f"loads cut off ({100 * min_soc:.0f} %)")
     ax.set_ylim(0, 102)
     ax.set_ylabel("state of charge [%]")
     ax.spines[["top", "right"]].set_visible(False)
-    ax.legend(fontsize=7.5, frameon=False, ncol=2, loc="lower right", bbox_to_anchor=(1.0, 1.0))
+    ax.legend(fontsize=7.5, frameon=False, ncol=3, loc="lower right", bbox_to_anchor=(1.0, 1.0))
     ax.set_title("State of charge", fontsize=10, loc="left")
     return save_atomically(fig, path)
 

@@ -275,7 +275,8 @@ def write_report(out: Path, system: System, result: SeasonResult, weather, steps
         written.append(plots.charge_duration_figure(steps, step_h, out / "charge_duration.png"))
         figures.append("charge_duration.png")
     if "soc" in steps:
-        written.append(plots.soc_figure(steps, out / "state_of_charge.png"))
+        cut = system.bank.chemistry.min_soc if system.bank is not None else None
+        written.append(plots.soc_figure(steps, out / "state_of_charge.png", cut))
         figures.append("state_of_charge.png")
     curves = iv_curves(system, steps)
     if curves:

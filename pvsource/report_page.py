@@ -422,7 +422,7 @@ ENERGY_ROWS = (("energy_mpp_kwh", "available at the groups' maximum power points
                ("load_kwh", "drawn by the load"), ("unmet_load_kwh", "load not met"))
 
 
-BANK_KEYS = ("energy_stored_kwh", "coulombic_loss_kwh", "load_kwh", "unmet_load_kwh")
+BANK_KEYS = ("energy_stored_kwh", "coulombic_loss_kwh", "load_kwh", "unmet_load_kwh", "load_disconnected_hours")
 CONTROLLER_KEYS = ("controller_loss_kwh", "curtailed_kwh")
 
 
@@ -505,7 +505,7 @@ MONTH_COLUMNS = (("energy_mpp_kwh", "available at MPPs [kWh]", 1), ("energy_gene
                  ("wiring_loss_kwh", "cable loss [kWh]", 2), ("controller_loss_kwh", "controller loss [kWh]", 1),
                  ("curtailed_kwh", "curtailed [kWh]", 1), ("energy_stored_kwh", "stored [kWh]", 1),
                  ("load_kwh", "load [kWh]", 1), ("unmet_load_kwh", "unmet load [kWh]", 1),
-                 ("generator_hours", "generator [h]", 1), ("generator_fuel_l", "generator fuel [l]", 1))
+                 ("load_disconnected_hours", "loads cut off [h]", 0), ("generator_hours", "generator [h]", 1), ("generator_fuel_l", "generator fuel [l]", 1))
 
 
 def monthly_section(system, summary: dict) -> str:

@@ -87,6 +87,8 @@ def test_monthly_table_carries_load_and_unmet_load(written, winter_run):
     for row, month in zip(rows, summary["monthly"]):
         cells = [_text(c).strip() for c in re.findall(r"<td[^>]*>(.*?)</td>", row, flags=re.S)]
         assert f"{month['load_kwh']:,.1f}" in cells and f"{month['unmet_load_kwh']:,.1f}" in cells
+        assert f"{month['load_disconnected_hours']:,.0f}" in cells  # the disconnect's hours, month by month
+    assert "loads cut off [h]" in part and summary["load_disconnected_hours"] > 0
     # A month that could not supply its load is marked.
     assert summary["monthly"][0]["unmet_load_kwh"] > 0 and 'class="num warn"' in part
 
@@ -209,7 +211,7 @@ def test_legends_stay_off_the_data(winter_run, tmp_path, monkeypatch):
     plots.monthly_energy_figure(summary, tmp_path / "monthly.png")
     plots.wiring_loss_heatmap(steps, tmp_path / "heatmap.png")
     plots.charge_duration_figure(steps, summary["step_h"], tmp_path / "duration.png")
-    plots.soc_figure(steps, tmp_path / "soc.png")
+    plots.soc_figure(steps, tmp_path / "soc.png", system.bank.chemistry.min_soc)
     plots.iv_figure(iv_curves(system, steps), tmp_path / "iv.png")
     rows, design = run_sweep(system, "soc", "0", "1", 5, 900.0, 45.0)
     plots.sweep_figure(rows, design, tmp_path / "sweep.png")
