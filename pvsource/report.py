@@ -53,11 +53,17 @@ def telling_hours(steps, count: int = 4) -> list[tuple[int, str]]:
     The sunniest step; the hottest and the coldest of the bright steps (at
     least 60 % of the sunniest), where the curve's knee moves furthest; and a
     dim step (nearest a quarter of the sunniest), where a string is a current
-    source.
+    source. With a bank, only steps where the array charges or carries the
+    load are picked where there are any: a full bank holds the array at open
+    circuit, where its curve tells nothing of the operating point.
     """
     if not len(steps):
         return []
     p_mp = steps["groups_p_mp_w"].to_numpy(float)
+    if "charge_current_a" in steps:
+        working = steps["charge_current_a"].to_numpy(float) > 1e-6
+        if working.any():
+            p_mp = np.where(working, p_mp, np.nan)
     if not np.isfinite(p_mp).any() or np.nanmax(p_mp) <= 0:
         return []
     top = float(np.nanmax(p_mp))

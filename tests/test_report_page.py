@@ -290,3 +290,21 @@ def test_the_monthly_figure_adds_the_generators_panel_with_its_legend_off_the_da
     assert axes == 2 and covered == []
     assert "load carried by the generator" in labels and "generator charging the bank" in labels
     assert hours == [f"{m['generator_hours']:.0f} h" for m in summary["monthly"] if m["generator_hours"] > 0]
+
+
+def test_the_curves_are_drawn_where_the_array_works():
+    # A full bank holds the array at open circuit (no current): a curve there shows nothing of the operating
+    # point. The picked steps are ones where the array charges, when there are any.
+    import pandas as pd
+
+    from pvsource.report import telling_hours
+
+    index = pd.date_range("2025-06-01 08:00", periods=6, freq="h", tz="UTC")
+    steps = pd.DataFrame({"groups_p_mp_w": [300.0, 900.0, 1000.0, 950.0, 600.0, 250.0],
+                          "group_a_cell_temp_c": [20.0, 40.0, 45.0, 44.0, 35.0, 25.0],
+                          "charge_current_a": [10.0, 30.0, 0.0, 0.0, 20.0, 8.0]}, index=index)
+    picked = telling_hours(steps)
+    assert dict(picked) and all(steps["charge_current_a"].iloc[k] > 0 for k, _ in picked)
+    assert dict((why, k) for k, why in picked)["sunniest"] == 1  # 900 W at 30 A, not the idle 1000 W hour
+    # With no charging step at all, the curves are still drawn.
+    assert telling_hours(steps.assign(charge_current_a=0.0))[0] == (2, "sunniest")
