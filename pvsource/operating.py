@@ -695,6 +695,10 @@ def operating_points(system: System, irradiance_w_m2=None, cell_temp_c=None, *, 
         if np.any(over):
             raise PhysicsGuardError("a charge current above the array's short-circuit current was computed "
                                     "through a direct or PWM connection; result withheld")
+    if "load_a" in history:
+        # The loads' current beside the bank's charge (the bank's own current is charge_current_a less it):
+        # the alerts on the bank's rate and voltage judge the bank's own.
+        frame["bank_load_a"] = history["load_a"]
     # The hazards each point implies, from its columns (pvsource.alerts).
     frame["alerts"] = alert_codes(system, frame)
     return frame

@@ -976,8 +976,6 @@ def _solve_span(system: System, weather: pd.DataFrame, load_w: np.ndarray, step_
         # The share of the stored energy (E I) that never reaches the state of charge.
         steps["coulombic_loss_w"] = steps["bank_emf_v"].to_numpy() * loop.coulombic_loss_a
         steps["load_disconnected"] = loop.load_disconnected
-        # The loads' current beside the bank's own charge (the bank's part is charge_current_a less it).
-        steps["bank_load_a"] = loop.load_a
         if regulated:
             # The share of each step in each charge stage, by time: hours by stage are their sums.
             for code in STAGE_SHARED:

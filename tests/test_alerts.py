@@ -431,3 +431,26 @@ def test_several_controllers_bank_runs_carry_their_own_output():
     east, west = got["east tracker to bank"], got["west tracker to bank"]
     assert east > 1.0 and west > 1.0 and east != pytest.approx(west)
     assert got["bank interconnects"] == pytest.approx(east + west, rel=1e-9)
+
+
+def test_a_season_judges_the_banks_own_current_not_the_loads():
+    # Kirchhoff at the bank terminals: the controller's output is the bank's current plus the loads'. A
+    # controller that carries the loads on top of the bank's full rate does not overcharge the bank, so the
+    # rate alert must not fire, in the steps' codes or in the summary.
+    from pvsource.demo import demo_system, synthetic_weather
+    from pvsource.season import run_season
+
+    base = demo_system()
+    bank = make_bank("lead-acid-flooded", 12, 1, 200.0, 0.3, 25.0)
+    rate = bank.chemistry.max_charge_c_rate * bank.capacity_ah
+    system = replace(base, bank=bank, controller=replace(base.controller, max_output_a=rate + 20.0))
+    weather = synthetic_weather(system)
+    june = weather[(weather.index.month == 6) & (weather.index.day <= 7)]
+    weather = june.assign(load_w=np.maximum(june["load_w"].to_numpy(), 150.0))
+    result = run_season(system, weather)
+    steps = result.steps
+    own = (steps["charge_current_a"] - steps["bank_load_a"]).to_numpy()
+    assert steps["charge_current_a"].max() > rate + 1.0  # the controller does give more than the bank's rate
+    assert own.max() <= rate * (1 + 1e-9)  # the bank itself never takes more
+    assert result.summary["alert_hours"]["charge_over_bank_rate"] == 0.0
+    assert (steps["alerts"].to_numpy() == alert_codes(system, steps)).all()
