@@ -132,6 +132,9 @@ def regulate(i_free_a, free_limit, soc, emf_v, r_ohm, i_ctrl_a, i_rate_a, v_abs_
             limit = BANK_COLD  # the bank's charge rate is zero only below its minimum charging temperature
         elif i_max == room_a:
             limit = BANK_FULL
+        elif i_max == i_ctrl_a:
+            # The controller can give no more: its limit, also where the bank's rate happens to equal it.
+            limit = CONTROLLER_OUTPUT
         elif i_max == i_rate_cap:
             # Before the constant-voltage test: the acceptance equals the rate
             # until the taper starts, and that is still bulk.

@@ -190,7 +190,7 @@ def _at(grid, free, emf, j, k, soc):  # pragma: no cover - compiled
 
 @kernel
 def _held_step(i_charge, holding, load_a, soc, e, slope_e, cell_top, r_bank, v_target, i_rate, start, per_ah,
-               coulombic, i_cap, tail_a, absorbing, left):  # pragma: no cover - compiled
+               coulombic, i_cap, tail_a, absorbing, left, v_float):  # pragma: no cover - compiled
     # A step at a constant voltage, or one that reaches it. Held, the current
     # falls as the bank fills, linearly in the state of charge (the
     # acceptance taper, or Ohm's law on the EMF's slope), so the state of
@@ -204,9 +204,9 @@ def _held_step(i_charge, holding, load_a, soc, e, slope_e, cell_top, r_bank, v_t
     # source and the limits allow (i_cap): from there the source binds.
     # ``absorbing``: the target is the absorption voltage, held only until
     # the bank's current tapers to the tail or ``left`` (the share of the
-    # step absorption may still last) runs out; the rest of the step floats,
-    # the bank taking no more charge and the controller carrying the load,
-    # so a long step does not charge on at the absorption voltage.
+    # step absorption may still last) runs out; the rest of the step floats
+    # at ``v_float`` (the same laws at the float voltage, from the state
+    # reached), so a long step does not charge on at the absorption voltage.
     surplus = i_charge - load_a
     start_at = 0.0
     reached = 0.0
@@ -264,9 +264,31 @@ def _held_step(i_charge, holding, load_a, soc, e, slope_e, cell_top, r_bank, v_t
     if absorbing:
         above = min(above, max(left, 0.0))
         if above < rest:
-            # Absorption ends within the step: the bank is held only until then.
+            # Absorption ends within the step: held at the absorption voltage until then, then at the float voltage.
             moved = surplus / -slope * (1.0 - np.exp(c * slope * above)) if slope < 0.0 else c * surplus * above
-            return load_a + (before + moved) / c, load_a, load_a, reached, above, 1.0 - reached - above
+            soc_f = soc + moved
+            e_f = e + slope_e * moved
+            accept = min(max((1.0 - soc_f) / (1.0 - start), 0.0), 1.0) * i_rate
+            law = (v_float - e_f) / r_bank
+            own = max(min(min(law, accept), i_cap - load_a), -load_a)  # the bank's part, the load beside it
+            if own >= i_cap - load_a:
+                slope_f = 0.0  # the source binds: a constant current
+            elif accept < law:
+                slope_f = -i_rate / (1.0 - start) if soc_f >= start - 1e-12 else 0.0
+            else:
+                slope_f = -slope_e / r_bank
+            c_f = per_ah * (coulombic if own > 0.0 else 1.0)
+            rest_f = rest - above
+            if slope_f < 0.0:
+                moved_f = own / -slope_f * (1.0 - np.exp(c_f * slope_f * rest_f))
+                own_end = own * np.exp(c_f * slope_f * rest_f)
+                own_ahead = own_end * np.exp(0.5 * c_f * slope_f)
+            else:
+                moved_f = c_f * own * rest_f
+                own_end = own
+                own_ahead = own
+            return (load_a + (before + moved) / c + moved_f / c_f, load_a + own_end, load_a + own_ahead, reached, above,
+                    1.0 - reached - above)
     moved = surplus / -slope * (1.0 - np.exp(c * slope * rest)) if slope < 0.0 else c * surplus * rest
     i_end = i_charge + slope * moved
     # What is left is at or below the tail: the time the held current waited
@@ -405,7 +427,7 @@ def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, a
                                                             slope_e, grid[j + 1], r_bank, v_target, i_rate, start, per_ah, coulombic,
                                                      min(i_free, min(i_ctrl, load_a + i_rate)), tail_a, stage != FLOAT,
                                                      (max_absorption_h - (absorption_h if stage == ABSORPTION else 0.0))
-                                                     / step_h)
+                                                     / step_h, v_float)
             if held < 1.0 and load_a + (1.0 - soc) / (per_ah * coulombic) < i_avg:
                 # Even so it fills within the step.
                 held = 1.0
@@ -492,6 +514,8 @@ def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, a
         if regulated:
             stage, absorption_h = next_stage(stage, absorption_h, limit, i_end - load_a, i_free, soc, held_h, tail_a,
                                              max_absorption_h, rebulk_soc, 0.5 * held_h if held == 1.0 else 0.0)
+            if stage_in != FLOAT and held < 1.0 and after > 0.0 and limit == VOLTAGE_REGULATION:
+                stage = FLOAT  # absorption ended within the step, which floated on (_held_step)
             _stage_shares(shares[k], stage_in, stage, held, after, absorption_in, max_absorption_h, step_h, before,
                           soc, rebulk_soc)
     return (soc_path, mid_path, stage_path, unmet, cap, hold, lost, shed, soc, stage, absorption_h, run_frac, starts,

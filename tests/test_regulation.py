@@ -146,3 +146,12 @@ def test_the_bank_limits_bind_the_banks_part_and_the_controller_carries_the_load
     # Too cold to charge: the bank takes nothing, the controller may still carry the load.
     i, _, limit = cv(100.0, 0.3, 12.0, 0.01, 14.4, i_rate=0.0, load=3.0)
     assert i == pytest.approx(3.0) and limit == reg.BANK_COLD
+
+
+def test_a_controller_limit_equal_to_the_banks_rate_is_the_controllers():
+    # Where the controller's output limit equals the bank's rate, the controller can give no more: the limit
+    # is the controller's, whether or not a load draws beside the bank (so the label does not flip with a
+    # load switched in or out). A rate strictly below it is the bank's.
+    assert cv(100.0, 0.3, 12.0, 0.01, 14.4, i_ctrl=40.0, i_rate=40.0)[0::2] == (40.0, reg.CONTROLLER_OUTPUT)
+    assert cv(100.0, 0.3, 12.0, 0.01, 14.4, i_ctrl=40.0, i_rate=40.0, load=4.0)[0::2] == (40.0, reg.CONTROLLER_OUTPUT)
+    assert cv(100.0, 0.3, 12.0, 0.01, 14.4, i_ctrl=40.0, i_rate=30.0)[0::2] == (30.0, reg.BANK_RATE)
