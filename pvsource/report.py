@@ -53,15 +53,16 @@ def telling_hours(steps, count: int = 4) -> list[tuple[int, str]]:
     The sunniest step; the hottest and the coldest of the bright steps (at
     least 60 % of the sunniest), where the curve's knee moves furthest; and a
     dim step (nearest a quarter of the sunniest), where a string is a current
-    source. With a bank, only steps where the array charges or carries the
-    load are picked where there are any: a full bank holds the array at open
-    circuit, where its curve tells nothing of the operating point.
+    source. With a bank, only steps where the charge current is at least 5 %
+    of the study's peak are picked where there are any: a full bank holds the
+    array near open circuit, where its curve tells little of the operating point.
     """
     if not len(steps):
         return []
     p_mp = steps["groups_p_mp_w"].to_numpy(float)
     if "charge_current_a" in steps:
-        working = steps["charge_current_a"].to_numpy(float) > 1e-6
+        current = steps["charge_current_a"].to_numpy(float)
+        working = current > 0.05 * np.nanmax(current, initial=0.0)  # a real share of the study's charge
         if working.any():
             p_mp = np.where(working, p_mp, np.nan)
     if not np.isfinite(p_mp).any() or np.nanmax(p_mp) <= 0:
