@@ -792,7 +792,7 @@ DETAIL_PREFIXES = ("drift_", "share_", "thevenin_", "norton_", "superposition_",
 DETAIL_COLUMNS = frozenset({"p", "load_v", "parallel_mismatch_w", "string_loss_w", "home_run_loss_w",
                             "feeder_loss_w", "bank_loss_w", "efficiency", "duty", "controller_input_v",
                             "bank_r_ohm", "bank_target_v", "bank_soc", "bank_temp_c", "bank_max_charge_a",
-                            "converged"})
+                            "bank_load_a", "converged"})
 _GROUP_KEPT = ("_irradiance_w_m2", "_cell_temp_c")
 
 
