@@ -141,6 +141,10 @@ class Bank:
         State of charge [fraction] and cell temperature [°C].
     overrides : tuple of (str, object)
         The preset values the user replaced, for reports.
+    air_offset_c : float or None
+        Through a season, the cells at the weather's air temperature plus
+        this [°C] (a bank outdoors or in an unheated shed); None: at
+        ``temp_c`` all the time.
     """
 
     chemistry: Chemistry
@@ -150,6 +154,7 @@ class Bank:
     soc: float
     temp_c: float
     overrides: tuple[tuple[str, object], ...] = ()
+    air_offset_c: float | None = None
 
 
 def _number(value, where: str, field: str, ok, expected: str) -> float:
@@ -229,7 +234,8 @@ def load_chemistry(key: str, where: str = "chemistry") -> Chemistry:
 
 
 def make_bank(chemistry_key: str, cells_in_series: int, strings: int, capacity_ah: float, soc: float,
-              temp_c: float, overrides: dict | None = None, where: str = "bank") -> Bank:
+              temp_c: float, overrides: dict | None = None, where: str = "bank",
+              air_offset_c: float | None = None) -> Bank:
     """Validate a bank description and apply overrides to its chemistry presets.
 
     Parameters
@@ -245,6 +251,9 @@ def make_bank(chemistry_key: str, cells_in_series: int, strings: int, capacity_a
         Preset values to replace, by name (any of :data:`PRESET_NAMES`).
     where : str
         Where the description came from, for error messages.
+    air_offset_c : float or None
+        Through a season, the cells at the air temperature plus this [°C],
+        -20 to 40; None: at ``temp_c`` throughout.
 
     Raises
     ------
@@ -257,6 +266,9 @@ def make_bank(chemistry_key: str, cells_in_series: int, strings: int, capacity_a
     cap = _number(capacity_ah, where, "capacity_ah", lambda x: x > 0, "a capacity above 0 [Ah]")
     state = _number(soc, where, "soc", lambda x: 0 <= x <= 1, "a state of charge from 0 to 1")
     temp = _number(temp_c, where, "temp_c", lambda x: -40 <= x <= 70, "a cell temperature from -40 to 70 [degC]")
+    offset = None if air_offset_c is None else _number(
+        air_offset_c, where, "air_offset_c", lambda x: -20 <= x <= 40,
+        "a rise of the cells above the air from -20 to 40 [degC]")
     overrides = {} if overrides is None else overrides
     if not isinstance(overrides, dict):
         raise InputError(where, "overrides", "a table of preset names and values")
@@ -269,7 +281,8 @@ def make_bank(chemistry_key: str, cells_in_series: int, strings: int, capacity_a
         values = {n: getattr(preset, n) for n in PRESET_NAMES} | overrides
         sources = dict(preset.sources) | {n: "override" for n in overrides}
         chemistry = _checked(preset.key, preset.name, values, sources, where, frozenset(overrides))
-    return Bank(chemistry, n_s, n_p, cap, state, temp, tuple((n, getattr(chemistry, n)) for n in sorted(overrides)))
+    return Bank(chemistry, n_s, n_p, cap, state, temp, tuple((n, getattr(chemistry, n)) for n in sorted(overrides)),
+                offset)
 
 
 def _state(bank: Bank, soc, temp_c):

@@ -432,6 +432,7 @@ def parse_bank(table: Table) -> Bank:
                 raise InputError(where, table.field(key), f"given twice: here and as overrides.{key}")
             direct[key] = table.number(key, minimum=0.0, maximum=1.0)
     overrides.update(direct)
+    table.used.add("air_offset_c")  # optional, and known to the misspelling hint
     values = dict(
         cells_in_series=table.number("cells_in_series", integer=True, positive=True, maximum=1000),
         strings=table.number("strings", integer=True, positive=True, maximum=1000),
@@ -439,6 +440,7 @@ def parse_bank(table: Table) -> Bank:
         soc=table.number("soc", minimum=0.0, maximum=1.0),
         temp_c=table.number("temp_c", 25.0, minimum=BANK_TEMP_RANGE_C[0], maximum=BANK_TEMP_RANGE_C[1],
                             hint=_temperature_hint(BANK_TEMP_RANGE_C)),
+        air_offset_c=table.number("air_offset_c", minimum=-20.0, maximum=40.0) if table.has("air_offset_c") else None,
     )
     table.finish()
     try:

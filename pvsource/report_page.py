@@ -378,7 +378,9 @@ def _equipment_block(system, summary: dict) -> str:
                 ("absorption / float voltage", f"{float(v_abs):.1f} / {float(v_float):.1f} V"),
                 ("largest charge current", fmt(float(bank_model.max_charge_current_a(b)), 0, "A")),
                 ("internal resistance", fmt(1000.0 * float(bank_model.internal_resistance_ohm(b)), 1, "mΩ")),
-                ("state of charge at the start", pct(b.soc, 0)), ("cell temperature", fmt(b.temp_c, 0, "°C"))]
+                ("state of charge at the start", pct(b.soc, 0)),
+                ("cell temperature", fmt(b.temp_c, 0, "°C") if b.air_offset_c is None else
+                 f"the air's {b.air_offset_c:+.0f} °C through the season")]
         if b.overrides:
             rows.append(("preset values replaced", ", ".join(k.replace("_", " ") for k, _ in b.overrides)))
         parts.append(f"<div><h3>Battery bank</h3>{pairs(rows)}</div>")

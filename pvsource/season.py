@@ -327,9 +327,10 @@ def _stage_shares(out, stage_in, stage_out, held, after, absorption_h, max_absor
 def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, absorption_h, limits, stages,
                 regulated, gen, gen_power_w, disconnect, disconnected):  # pragma: no cover - compiled
     # limits: controller current, bank charge current, acceptance start, R,
-    # absorption V, float V; stages: tail current, maximum absorption time,
-    # re-bulk state of charge.
-    i_ctrl, i_rate, start, r_bank, v_abs, v_float = limits
+    # absorption V, float V, each an array (N,) (the bank's temperature may
+    # follow the air); stages: tail current, maximum absorption time, re-bulk
+    # state of charge.
+    ctrl_a, rate_a, start_a, r_a, abs_a, float_a = limits
     tail_a, max_absorption_h, rebulk_soc = stages
     # gen: present (0/1), start and stop state of charge, shortest run [h],
     # charger current [A], running at the start (0/1), hours run so far.
@@ -357,6 +358,7 @@ def _soc_kernel(grid, free, emf, loads, step_h, per_ah, coulombic, soc, stage, a
     before_limit = np.full(n, SOURCE, np.int8)
     j = 0
     for k in range(n):
+        i_ctrl, i_rate, start, r_bank, v_abs, v_float = ctrl_a[k], rate_a[k], start_a[k], r_a[k], abs_a[k], float_a[k]
         soc_path[k] = soc
         stage_path[k] = stage
         stage_in, absorption_in, soc_in = stage, absorption_h, soc
@@ -554,7 +556,8 @@ def integrate_soc(charge_grid_a, emf_grid_v, load_w, step_h: float, capacity_ah:
         The states of charge of the grid's rows, rising from 0 to 1; default :data:`SOC_GRID`.
     limits : tuple, optional
         (controller current [A], bank charge current [A], absorption start
-        [-], bank resistance [ohm], absorption [V], float [V]); none by default.
+        [-], bank resistance [ohm], absorption [V], float [V]), each a number
+        or an array (N,) of one per step; none by default.
     regulated : bool
         Whether the controller regulates (False for a direct connection).
     stages : tuple, optional
@@ -581,6 +584,8 @@ def integrate_soc(charge_grid_a, emf_grid_v, load_w, step_h: float, capacity_ah:
         limits, regulated = (np.inf, np.inf, 0.0, 1.0, np.inf, np.inf), False
     stages = (0.0, np.inf, 0.0) if stages is None else stages
     loads = np.ascontiguousarray(load_w, dtype=float)
+    # Each limit a number for the whole span or one per step.
+    limits = tuple(np.ascontiguousarray(np.broadcast_to(np.asarray(v, dtype=float), loads.shape)) for v in limits)
     gen_tuple, power = (0.0,) * 7, np.zeros(len(loads))
     if generator is not None:
         amps, power = charger_limits(generator, loads)
@@ -590,7 +595,7 @@ def integrate_soc(charge_grid_a, emf_grid_v, load_w, step_h: float, capacity_ah:
      run_h, disconnected, shares, served, held_share, before_limit) = _soc_kernel(grid, np.ascontiguousarray(charge_grid_a, dtype=float),
                           np.ascontiguousarray(emf_grid_v, dtype=float), loads, float(step_h), step_h / capacity_ah,
                           float(coulombic), float(state.soc), int(state.stage), float(state.absorption_h),
-                          tuple(float(v) for v in limits), tuple(float(v) for v in stages), bool(regulated),
+                          limits, tuple(float(v) for v in stages), bool(regulated),
                           tuple(float(v) for v in gen_tuple), np.ascontiguousarray(power, dtype=float),
                           tuple(float(v) for v in (disconnect or (0.0, 1.0))), bool(state.load_disconnected))
     end = BankState(float(end_soc), int(end_stage), float(end_h), bool(running), float(run_h), bool(disconnected))
@@ -598,17 +603,28 @@ def integrate_soc(charge_grid_a, emf_grid_v, load_w, step_h: float, capacity_ah:
     return TimeLoop(soc, mid, stage, unmet, cap, hold, lost, shed, served, shares, held_share, before_limit, end, run)
 
 
-def loop_settings(system: System):
+def bank_temperature_c(system: System, weather: pd.DataFrame):
+    """The bank's cell temperature at each step [°C]: the air's plus ``[bank] air_offset_c`` (held to the
+    bank's -40 to 70 °C), or None where the bank stays at its ``temp_c``."""
+    b = system.bank
+    if b is None or b.air_offset_c is None:
+        return None
+    return np.clip(weather["temp_air"].to_numpy(float) + b.air_offset_c, -40.0, 70.0)
+
+
+def loop_settings(system: System, bank_temp_c=None):
     """The bank's and controllers' figures the time loop needs: (limits, stages, regulated, disconnect) of
-    :func:`integrate_soc`."""
+    :func:`integrate_soc`; with ``bank_temp_c`` (N,) the bank's limits are one per step."""
     b = system.bank
     # Several controllers: each one's own limit is in the grid already, and all of them regulate.
     c = system.controller or system.controllers[0].controller
-    v_abs, v_float = bank_model.charge_voltages_v(b)
+    v_abs, v_float = bank_model.charge_voltages_v(b, bank_temp_c)
     chem = b.chemistry
+    as_limit = lambda x: float(x) if bank_temp_c is None else np.asarray(x, float)  # noqa: E731
     limits = (np.inf if system.several_controllers else c.output_limit_a,
-              float(bank_model.max_charge_current_a(b)), chem.absorption_start_soc,
-              float(bank_model.internal_resistance_ohm(b)), float(v_abs), float(v_float))
+              as_limit(bank_model.max_charge_current_a(b, bank_temp_c)), chem.absorption_start_soc,
+              as_limit(bank_model.internal_resistance_ohm(b, None, bank_temp_c)), as_limit(v_abs),
+              as_limit(v_float))
     stages = (chem.tail_current_c_rate * b.capacity_ah, chem.max_absorption_h, chem.rebulk_soc)
     return limits, stages, c.regulates, (chem.min_soc, chem.reconnect_soc)
 
@@ -705,12 +721,14 @@ def generator_step(soc, running, run_h, i_array, load_a, i_gen_max, i_bank_max, 
     return min(soc, 1.0), running, run_h, on_h / step_h, starts, gen_ah / step_h, unmet_ah
 
 
-def charge_grid_a(system: System, g, t, done=lambda k: None, chunk_size: int = CHUNK_SIZE):
+def charge_grid_a(system: System, g, t, done=lambda k: None, chunk_size: int = CHUNK_SIZE, bank_temp_c=None):
     """Unlimited charge current at every step for every state of charge of :func:`soc_grid`, and the bank's EMF.
 
     Only what the time loop needs: no linearisation, no key points. Dark
     steps (no irradiance on any group) charge nothing and are not solved; a
     tracker's array side is solved once per step for all states of charge.
+    ``bank_temp_c`` (N,): the bank's temperature at each step (its
+    resistance and charge voltages follow it); by default the file's.
 
     Returns
     -------
@@ -732,17 +750,23 @@ def charge_grid_a(system: System, g, t, done=lambda k: None, chunk_size: int = C
     # The bank at each grid state of charge is the same in every chunk: build it once, slice it per chunk.
     size = min(chunk_size, lit.size)
     banks = [bank_point(system, np.full(size, float(soc)), None) for soc in grid]
+    if bank_temp_c is not None:
+        # The bank's temperature changes from step to step: each chunk's bank is its own.
+        temp = np.asarray(bank_temp_c, float)
+        banks = None
     wiring = system.wiring
     if system.several_controllers:
-        _shared_grid(system, g, t, lit, banks, charge, chunk_size)
+        _shared_grid(system, g, t, lit, banks, charge, chunk_size, None if bank_temp_c is None else temp)
         lit = lit[:0]
     for start in range(0, lit.size, chunk_size):
         rows = lit[start:start + chunk_size]
         state = parameters_at(system.module.parameters, g[rows], t[rows])
         net = Network(state, system.n_series, system.n_parallel, wiring.r_string_ohm, wiring.r_home_ohm)
         side = array_side(net, wiring.r_feeder_ohm) if system.controller.tracks else None
-        for k, whole in enumerate(banks):
-            bank_pt = whole if rows.size == size else whole.head(rows.size)
+        chunk = banks if banks is not None else [bank_point(system, np.full(rows.size, float(soc)), temp[rows])
+                                                 for soc in grid]
+        for k, whole in enumerate(chunk):
+            bank_pt = whole if rows.size == len(whole.emf_v) else whole.head(rows.size)
             charge[k, rows] = unlimited_current_a(net, system.controller, bank_pt, wiring.r_feeder_ohm,
                                                   wiring.r_bank_ohm, side)
     for k in range(k_grid):
@@ -750,12 +774,13 @@ def charge_grid_a(system: System, g, t, done=lambda k: None, chunk_size: int = C
     return charge, emf
 
 
-def _shared_grid(system: System, g, t, lit, banks, charge, chunk_size: int) -> None:
+def _shared_grid(system: System, g, t, lit, banks, charge, chunk_size: int, temp=None) -> None:
     """:func:`charge_grid_a` with several controllers: each within its own output limit, their sum
     (:func:`pvsource.sharing.free_total_a`); the time loop applies the bank's limits to it."""
     from pvsource.charging import array_side
     from pvsource.module import parameters_at
     from pvsource.network import Network
+    from pvsource.operating import bank_point
     from pvsource.sharing import free_total_a
 
     parts = system.parts()
@@ -769,7 +794,9 @@ def _shared_grid(system: System, g, t, lit, banks, charge, chunk_size: int) -> N
                 for part, c in zip(parts, cols)]
         sides = [array_side(net, part.wiring.r_feeder_ohm) if part.controller.tracks else None
                  for net, part in zip(nets, parts)]
-        for k, whole in enumerate(banks):
+        chunk = banks if temp is None else [bank_point(system, np.full(rows.size, float(soc)), temp[rows])
+                                            for soc in soc_grid(system)]
+        for k, whole in enumerate(chunk):
             bank_pt = whole if rows.size == len(whole.emf_v) else whole.head(rows.size)
             charge[k, rows] = free_total_a(nets, [p.controller for p in parts], bank_pt,
                                            [p.wiring.r_feeder_ohm for p in parts],
@@ -964,7 +991,9 @@ def run_season(system: System, weather: pd.DataFrame, *, transposition: str = "p
         cold = summary["alert_hours"]["charge_below_min_temp"]
         raise InputError(system.source, "[bank] temp_c" if cold > 0 else "[array]",
                          f"the array never charged the bank over the whole span (most often limited by: {why}); "
-                         + (f"the bank's temp_c {system.bank.temp_c:g} degC is below its minimum charging temperature "
+                         + ((f"the bank's temp_c {system.bank.temp_c:g} degC" if system.bank.air_offset_c is None
+                             else f"the bank, at the air's {system.bank.air_offset_c:+g} degC,")
+                            + f" is below its minimum charging temperature "
                             f"{system.bank.chemistry.min_charge_temp_c:g} degC for the {cold:,.0f} h it could have "
                             "charged" if cold > 0 else
                             "check modules_per_string against the bank voltage and the controller's input window"))
@@ -978,15 +1007,16 @@ def _solve_span(system: System, weather: pd.DataFrame, load_w: np.ndarray, step_
     loop = None
     if system.bank is not None:
         b = system.bank
-        charge_grid, emf_grid = charge_grid_a(system, g, t)
-        limits, stages, regulated, disconnect = loop_settings(system)
+        temp = bank_temperature_c(system, weather)
+        charge_grid, emf_grid = charge_grid_a(system, g, t, bank_temp_c=temp)
+        limits, stages, regulated, disconnect = loop_settings(system, temp)
         gen = system.generator
         loop = integrate_soc(charge_grid, emf_grid, load_w, step_h, b.capacity_ah, b.chemistry.coulombic_efficiency,
                              state, soc_grid(system), limits, regulated, stages, gen, disconnect)
         del charge_grid, emf_grid
         state = loop.end
-        steps = operating_points(system, g, t, soc=loop.mid_soc, charge_cap_a=loop.cap_a, hold_a=loop.hold_a,
-                                 stage=loop.stage, load_a=loop.load_a, drift_check=False)
+        steps = operating_points(system, g, t, soc=loop.mid_soc, bank_temp_c=temp, charge_cap_a=loop.cap_a,
+                                 hold_a=loop.hold_a, stage=loop.stage, load_a=loop.load_a, drift_check=False)
         if gen is not None:
             steps = _with_generator(steps, gen, loop.generator, load_w)
     else:

@@ -242,6 +242,12 @@ def test_bank_and_controller_sections(tmp_path):
     assert system.controller.kind == "mppt" and system.controller.max_output_a == 40
     with_overrides = BANK + "\n[bank.overrides]\nabsorption_v_per_cell = 3.5\n"
     assert load_system(write(tmp_path, with_overrides)).bank is not None
+    # Without air_offset_c the bank stays at temp_c through a season; with it, it follows the air.
+    assert system.bank.air_offset_c is None
+    shed = load_system(write(tmp_path, BANK.replace("temp_c = 20", "temp_c = 20\nair_offset_c = 3")))
+    assert shed.bank.air_offset_c == 3.0 and shed.bank.temp_c == 20.0
+    with pytest.raises(InputError, match="did you mean 'air_offset_c'"):
+        load_system(write(tmp_path, BANK.replace("temp_c = 20", "temp_c = 20\nair_ofset_c = 3")))
 
 
 @pytest.mark.parametrize("edit, field, words", [
@@ -251,6 +257,8 @@ def test_bank_and_controller_sections(tmp_path):
     (('kind = "mppt"', 'kind = "magic"'), "[controller].kind", "expected one of"),
     (("capacity_ah = 280", "capacity_ah = -280"), "[bank].capacity_ah", "greater than zero"),
     (("strings = 1\ncapacity", "strings = 0\ncapacity"), "[bank].strings", "greater than zero"),
+    (("temp_c = 20", "temp_c = 20\nair_offset_c = 55"), "[bank].air_offset_c", "at most 40"),
+    (("temp_c = 20", "temp_c = 20\nair_offset_c = \"warm\""), "[bank].air_offset_c", "expected a number"),
 ])
 def test_bad_bank_and_controller_values(tmp_path, edit, field, words):
     assert edit[0] in BANK
