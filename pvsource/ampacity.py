@@ -90,8 +90,6 @@ DEFAULT_PROTECTION = "gpv"
 #: fuse (common practice). Its I_2 = 1.6 I_n asks the most of the conductor,
 #: so a conductor sized for it is also protected by a gPV fuse or a breaker.
 DEFAULT_BATTERY_PROTECTION = "gg"
-#: The cable roles on the battery side of a controller.
-BATTERY_ROLES = ("bank", "interconnect")
 #: IEC 60364-4-43 433.1: the device's conventional operating current may be at most 1.45 I_z.
 IEC_I2_LIMIT = 1.45
 #: NEC 690.8(B)(1) and 215.2(A)(1): conductors carry 125 % of a continuous current.
@@ -158,7 +156,7 @@ class Installation:
         (IEC 60364-4-43 433.1); AWG sizes follow NEC 240. None: by the
         circuit, :data:`DEFAULT_PROTECTION` on the PV side and
         :data:`DEFAULT_BATTERY_PROTECTION` on the battery side
-        (:func:`pvsource.wiring.run_installation`).
+        (:func:`pvsource.wiring.default_protection`).
     """
 
     insulation_c: float = DEFAULT_INSULATION_C
@@ -167,11 +165,6 @@ class Installation:
     install: str = DEFAULT_INSTALL
     termination_c: float = DEFAULT_TERMINATION_C
     protection: str | None = None
-
-
-def default_protection(role: str | None) -> str:
-    """The device assumed for a metric run of this cable role when none is given (None: quick mode)."""
-    return DEFAULT_BATTERY_PROTECTION if role in BATTERY_ROLES else DEFAULT_PROTECTION
 
 
 def check_installation(inst: Installation, where: str, names: dict | None = None) -> Installation:

@@ -42,7 +42,7 @@ from pvsource import conductors
 from pvsource.module import STC_CELL_TEMP_C, STC_IRRADIANCE_W_M2, parameters_at
 from pvsource.system import System
 from pvsource.units import DEFAULT_CELL_RISE_C
-from pvsource.wiring import PV_SIDE_ROLES, run_ampacity
+from pvsource.wiring import BATTERY_SIDE_ROLES, PV_SIDE_ROLES, run_ampacity
 
 # NOCT is measured at 800 W/m2, 20 degC air and 1 m/s wind on an open rack
 # (IEC 61215); the rise scales with irradiance (Ross's linear model).
@@ -310,7 +310,7 @@ def _circuit_current(system: System, run, isc: float) -> tuple[int | None, float
             own = next(c for c in system.controllers if c.name == run.controller)
             return _circuit_current(system.for_controller(own), run, isc)
     battery = _battery_side_current(system)
-    if run.role in ("bank", "interconnect") and battery is not None:
+    if run.role in BATTERY_SIDE_ROLES and battery is not None:
         return None, *battery
     strings = {g.name: g.strings for g in system.groups}
     carried = 1 if run.role == "string" else strings[run.group] if run.role == "home-run" else sum(strings.values())
@@ -467,7 +467,7 @@ def protection_checks(system: System, defaults: amp.Installation = amp.Installat
 
         ocv = float(bank_model.open_circuit_v(system.bank, 1.0))
         r_int = float(bank_model.internal_resistance_ohm(system.bank, 1.0, max(system.bank.temp_c, 25.0)))
-        bank_runs = [r for r in system.cables if r.role in ("bank", "interconnect")]
+        bank_runs = [r for r in system.cables if r.role in BATTERY_SIDE_ROLES]
         # The fuse sits at the bank and must clear a fault anywhere after it,
         # its own load-side terminal included, where no cable limits the
         # current: only the bank's own resistance does (a bolted fault at its

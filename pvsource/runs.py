@@ -17,11 +17,11 @@ from pvsource.errors import InputError
 from pvsource.system import System
 from pvsource.units import FOOT_M
 from pvsource.ampacity import (
-    CONTINUOUS_FACTOR, DEFAULT_BATTERY_PROTECTION, DEFAULT_PROTECTION, Installation, check_installation, check_series, needed_protection_a,
-    smallest_size_for_current,
+    CONTINUOUS_FACTOR, DEFAULT_BATTERY_PROTECTION, DEFAULT_PROTECTION, Installation, check_installation, check_series,
+    needed_protection_a, smallest_size_for_current,
 )
 from pvsource.checks import design_currents
-from pvsource.wiring import CableRun, run_ampacity, run_installation, sized_ohm_per_km
+from pvsource.wiring import BATTERY_SIDE_ROLES, CableRun, run_ampacity, run_installation, sized_ohm_per_km
 
 OPTIONS_SHOWN = 3
 #: Drop budget per circuit when none is given [-]. Common practice: 3 % for
@@ -96,13 +96,12 @@ def run_flows(system: System, row) -> list[RunFlow]:
     duty = float(row["duty"]) if "duty" in row else 1.0
     i = float(row["i"])
     v = float(row["v"])
-    bank_side = ("bank", "interconnect")
-    for role in ("feeder", *bank_side):
+    for role in ("feeder", *BATTERY_SIDE_ROLES):
         if role == "bank" and system.bank is not None:
             # Behind a controller the bank runs carry the charge current at
             # the bank's voltage: from the controller output to the bank.
             i = float(row["charge_current_a"]) / duty if duty > 0 else 0.0
-            r_bank_side = sum(run.loop_resistance_ohm for _, run in runs if run.role in bank_side)
+            r_bank_side = sum(run.loop_resistance_ohm for _, run in runs if run.role in BATTERY_SIDE_ROLES)
             v = float(row["load_v"]) + i * r_bank_side
         for k, run in runs:
             if run.role == role:
@@ -302,7 +301,7 @@ def _sizing(flow: RunFlow, budget_fraction, max_circuit_current_a: float, defaul
 
 def circuit_of(system: System, run: CableRun) -> str:
     """``"pv"`` or ``"battery"``: a controller separates the two circuits, each with its own drop budget."""
-    if run.role in ("bank", "interconnect") and system.bank is not None and system.controllers:
+    if run.role in BATTERY_SIDE_ROLES and system.bank is not None and system.controllers:
         return "battery"
     return "pv"
 

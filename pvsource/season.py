@@ -189,6 +189,25 @@ def _at(grid, free, emf, j, k, soc):  # pragma: no cover - compiled
 
 
 @kernel
+def _law_slope(soc, e, v_target, r_bank, i_rate, start, slope_e):  # pragma: no cover - compiled
+    # How the bank's held current falls with its state of charge [A per unit]:
+    # the acceptance taper where it is below Ohm's law at the target, else
+    # Ohm's law on the EMF's slope.
+    share = min(max((1.0 - soc) / (1.0 - start), 0.0), 1.0)
+    if share * i_rate < (v_target - e) / r_bank:
+        # The taper, from where it starts (the crossing lands on its start exactly).
+        return -i_rate / (1.0 - start) if soc >= start - 1e-12 else 0.0
+    return -slope_e / r_bank
+
+
+@kernel
+def _held_moved(own, slope, c, t):  # pragma: no cover - compiled
+    # The state of charge a held bank current ``own`` moves in a share ``t``
+    # of the step, decaying as exp(c slope t) (constant where the slope is 0).
+    return own / -slope * (1.0 - np.exp(c * slope * t)) if slope < 0.0 else c * own * t
+
+
+@kernel
 def _held_step(i_charge, holding, load_a, soc, e, slope_e, cell_top, r_bank, v_target, i_rate, start, per_ah,
                coulombic, i_cap, tail_a, absorbing, left, v_float):  # pragma: no cover - compiled
     # A step at a constant voltage, or one that reaches it. Held, the current
@@ -240,19 +259,14 @@ def _held_step(i_charge, holding, load_a, soc, e, slope_e, cell_top, r_bank, v_t
         reached = start_at
         e += slope_e * (soc_star - soc)
         soc = soc_star
-    share = min(max((1.0 - soc) / (1.0 - start), 0.0), 1.0)
-    if share * i_rate < (v_target - e) / r_bank:
-        # The taper, from where it starts (the crossing lands on its start exactly).
-        slope = -i_rate / (1.0 - start) if soc >= start - 1e-12 else 0.0
-    else:
-        slope = -slope_e / r_bank
+    slope = _law_slope(soc, e, v_target, r_bank, i_rate, start, slope_e)
     c = per_ah * (coulombic if surplus > 0.0 else 1.0)
     rest = 1.0 - start_at
     before = c * surplus * start_at
     if slope < 0.0 and surplus < 0.0 and i_cap < load_a:
         t_cap = np.log((i_cap - load_a) / (i_charge - load_a)) / (c * slope)
         if t_cap < rest:
-            moved = surplus / -slope * (1.0 - np.exp(c * slope * t_cap)) + c * (i_cap - load_a) * (rest - t_cap)
+            moved = _held_moved(surplus, slope, c, t_cap) + c * (i_cap - load_a) * (rest - t_cap)
             return load_a + (before + moved) / c, i_cap, i_cap, reached, rest, 1.0 - reached - rest
     # The tail is the bank's own current, the held current less the load
     # beside it (a controller with a battery monitor, or with no load on its bus).
@@ -265,31 +279,19 @@ def _held_step(i_charge, holding, load_a, soc, e, slope_e, cell_top, r_bank, v_t
         above = min(above, max(left, 0.0))
         if above < rest:
             # Absorption ends within the step: held at the absorption voltage until then, then at the float voltage.
-            moved = surplus / -slope * (1.0 - np.exp(c * slope * above)) if slope < 0.0 else c * surplus * above
+            moved = _held_moved(surplus, slope, c, above)
             soc_f = soc + moved
             e_f = e + slope_e * moved
             accept = min(max((1.0 - soc_f) / (1.0 - start), 0.0), 1.0) * i_rate
-            law = (v_float - e_f) / r_bank
-            own = max(min(min(law, accept), i_cap - load_a), -load_a)  # the bank's part, the load beside it
-            if own >= i_cap - load_a:
-                slope_f = 0.0  # the source binds: a constant current
-            elif accept < law:
-                slope_f = -i_rate / (1.0 - start) if soc_f >= start - 1e-12 else 0.0
-            else:
-                slope_f = -slope_e / r_bank
+            own = max(min(min((v_float - e_f) / r_bank, accept), i_cap - load_a), -load_a)  # the load beside it
+            # Where the source binds the current is constant; else the held law at the float voltage.
+            slope_f = 0.0 if own >= i_cap - load_a else _law_slope(soc_f, e_f, v_float, r_bank, i_rate, start, slope_e)
             c_f = per_ah * (coulombic if own > 0.0 else 1.0)
-            rest_f = rest - above
-            if slope_f < 0.0:
-                moved_f = own / -slope_f * (1.0 - np.exp(c_f * slope_f * rest_f))
-                own_end = own * np.exp(c_f * slope_f * rest_f)
-                own_ahead = own_end * np.exp(0.5 * c_f * slope_f)
-            else:
-                moved_f = c_f * own * rest_f
-                own_end = own
-                own_ahead = own
-            return (load_a + (before + moved) / c + moved_f / c_f, load_a + own_end, load_a + own_ahead, reached, above,
+            own_end = own * np.exp(c_f * slope_f * (rest - above))
+            return (load_a + (before + moved) / c + _held_moved(own, slope_f, c_f, rest - above) / c_f,
+                    load_a + own_end, load_a + own_end * np.exp(0.5 * c_f * slope_f), reached, above,
                     1.0 - reached - above)
-    moved = surplus / -slope * (1.0 - np.exp(c * slope * rest)) if slope < 0.0 else c * surplus * rest
+    moved = _held_moved(surplus, slope, c, rest)
     i_end = i_charge + slope * moved
     # What is left is at or below the tail: the time the held current waited
     # (no current while a load drew the EMF down to the target) and after the taper.
@@ -737,7 +739,6 @@ def charge_grid_a(system: System, g, t, done=lambda k: None, chunk_size: int = C
     from pvsource.charging import array_side, unlimited_current_a
     from pvsource.module import parameters_at
     from pvsource.network import Network
-    from pvsource.operating import bank_point
 
     n = len(g)
     grid = soc_grid(system)
@@ -747,26 +748,17 @@ def charge_grid_a(system: System, g, t, done=lambda k: None, chunk_size: int = C
     for k, soc in enumerate(grid):
         emf[k] = bank_model.open_circuit_v(system.bank, float(soc))
     lit = np.flatnonzero((np.asarray(g) > 0.0).any(axis=-1))
-    # The bank at each grid state of charge is the same in every chunk: build it once, slice it per chunk.
-    size = min(chunk_size, lit.size)
-    banks = [bank_point(system, np.full(size, float(soc)), None) for soc in grid]
-    if bank_temp_c is not None:
-        # The bank's temperature changes from step to step: each chunk's bank is its own.
-        temp = np.asarray(bank_temp_c, float)
-        banks = None
+    banks = _grid_banks(system, grid, min(chunk_size, lit.size), bank_temp_c)
     wiring = system.wiring
     if system.several_controllers:
-        _shared_grid(system, g, t, lit, banks, charge, chunk_size, None if bank_temp_c is None else temp)
+        _shared_grid(system, g, t, lit, banks, charge, chunk_size)
         lit = lit[:0]
     for start in range(0, lit.size, chunk_size):
         rows = lit[start:start + chunk_size]
         state = parameters_at(system.module.parameters, g[rows], t[rows])
         net = Network(state, system.n_series, system.n_parallel, wiring.r_string_ohm, wiring.r_home_ohm)
         side = array_side(net, wiring.r_feeder_ohm) if system.controller.tracks else None
-        chunk = banks if banks is not None else [bank_point(system, np.full(rows.size, float(soc)), temp[rows])
-                                                 for soc in grid]
-        for k, whole in enumerate(chunk):
-            bank_pt = whole if rows.size == len(whole.emf_v) else whole.head(rows.size)
+        for k, bank_pt in enumerate(banks(rows)):
             charge[k, rows] = unlimited_current_a(net, system.controller, bank_pt, wiring.r_feeder_ohm,
                                                   wiring.r_bank_ohm, side)
     for k in range(k_grid):
@@ -774,13 +766,29 @@ def charge_grid_a(system: System, g, t, done=lambda k: None, chunk_size: int = C
     return charge, emf
 
 
-def _shared_grid(system: System, g, t, lit, banks, charge, chunk_size: int, temp=None) -> None:
+def _grid_banks(system: System, grid, size: int, bank_temp_c=None):
+    """The bank at each grid state of charge for a chunk's rows: ``banks(rows)`` -> list of BankPoint.
+
+    At the file's temperature the bank is the same in every chunk: built
+    once for ``size`` rows and sliced. A temperature per step makes each
+    chunk's bank its own.
+    """
+    from pvsource.operating import bank_point
+
+    if bank_temp_c is not None:
+        temp = np.asarray(bank_temp_c, float)
+        return lambda rows: [bank_point(system, np.full(rows.size, float(soc)), temp[rows]) for soc in grid]
+    whole = [bank_point(system, np.full(size, float(soc)), None) for soc in grid]
+    return lambda rows: [b if rows.size == size else b.head(rows.size) for b in whole]
+
+
+def _shared_grid(system: System, g, t, lit, banks, charge, chunk_size: int) -> None:
     """:func:`charge_grid_a` with several controllers: each within its own output limit, their sum
-    (:func:`pvsource.sharing.free_total_a`); the time loop applies the bank's limits to it."""
+    (:func:`pvsource.sharing.free_total_a`); the time loop applies the bank's limits to it.
+    ``banks``: :func:`_grid_banks`."""
     from pvsource.charging import array_side
     from pvsource.module import parameters_at
     from pvsource.network import Network
-    from pvsource.operating import bank_point
     from pvsource.sharing import free_total_a
 
     parts = system.parts()
@@ -794,10 +802,7 @@ def _shared_grid(system: System, g, t, lit, banks, charge, chunk_size: int, temp
                 for part, c in zip(parts, cols)]
         sides = [array_side(net, part.wiring.r_feeder_ohm) if part.controller.tracks else None
                  for net, part in zip(nets, parts)]
-        chunk = banks if temp is None else [bank_point(system, np.full(rows.size, float(soc)), temp[rows])
-                                            for soc in soc_grid(system)]
-        for k, whole in enumerate(chunk):
-            bank_pt = whole if rows.size == len(whole.emf_v) else whole.head(rows.size)
+        for k, bank_pt in enumerate(banks(rows)):
             charge[k, rows] = free_total_a(nets, [p.controller for p in parts], bank_pt,
                                            [p.wiring.r_feeder_ohm for p in parts],
                                            [p.wiring.r_bank_ohm for p in parts], r_interconnect, sides)

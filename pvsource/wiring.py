@@ -25,12 +25,14 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from pvsource import conductors
-from pvsource.ampacity import Ampacity, Installation, ampacity, default_protection, protection_words
+from pvsource.ampacity import (DEFAULT_BATTERY_PROTECTION, DEFAULT_PROTECTION, Ampacity, Installation, ampacity,
+                               protection_words)
 from pvsource.conductors import ConductorSize
 from pvsource.errors import InputError
 
-ROLES = ("string", "home-run", "feeder", "bank", "interconnect")
 PV_SIDE_ROLES = ("string", "home-run", "feeder")
+BATTERY_SIDE_ROLES = ("bank", "interconnect")
+ROLES = (*PV_SIDE_ROLES, *BATTERY_SIDE_ROLES)
 GROUP_ROLES = ("string", "home-run")
 
 
@@ -138,6 +140,11 @@ def sized_ohm_per_km(run: CableRun, size: ConductorSize) -> tuple[float, str]:
     return 1000.0 * float(r), source
 
 
+def default_protection(role: str | None) -> str:
+    """The device assumed for a metric run of this cable role when none is given (None: quick mode)."""
+    return DEFAULT_BATTERY_PROTECTION if role in BATTERY_SIDE_ROLES else DEFAULT_PROTECTION
+
+
 def run_installation(run: CableRun, defaults: Installation = Installation()) -> Installation:
     """The run's installation: what its file gives, else ``defaults``; a device given nowhere is its side's."""
     inst = replace(defaults, **dict(run.installed))
@@ -177,7 +184,7 @@ def group_wiring(cables, group_names) -> GroupWiring:
     for run in cables:
         if run.role == "feeder":
             r_feeder += run.loop_resistance_ohm
-        elif run.role in ("bank", "interconnect"):
+        elif run.role in BATTERY_SIDE_ROLES:
             r_bank += run.loop_resistance_ohm
         elif run.role == "string":
             r_string[index[run.group]] += run.loop_resistance_ohm
